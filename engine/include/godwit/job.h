@@ -1,0 +1,104 @@
+// Start here. A locate job: which masters to find in which recordings, and
+// how. The same job runs from the command line, a TCP request or the drop
+// folder; the caller supplies policy (progress display, cancellation,
+// logging, where files come from) through LocateOptions.
+//
+// Data flow: masters -> TemplateBank; each recording -> AnalysisStream ->
+// Correlator -> PeakPicker per template -> native-rate refinement -> Match.
+//
+// Thread contract: run_locate may run several jobs concurrently (each has
+// its own state); callbacks are invoked on the thread that called it.
+#pragma once
+
+#include <functional>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "godwit/audio_source.h"
+#include "godwit/correlator.h"
+#include "godwit/error.h"
+#include "godwit/peak_picker.h"
+#include "godwit/template_bank.h"
+
+namespace godwit {
+
+struct LocateJob {
+  std::vector<std::string> templates;   // master files; id = file stem
+  std::vector<std::string> recordings;  // searched in this order
+};
+
+struct Progress {
+  size_t recording_index = 0;               // 0-based, of recordings.size()
+  size_t recordings = 0;
+  double recording_done_s = 0;              // audio processed in this recording
+  std::optional<double> recording_total_s;  // when the file states its length
+  double fraction = 0;                      // whole job, 0..1 (estimate)
+};
+
+struct LocateOptions {
+  double analysis_rate_hz = 8000;  // Default: 8000 Hz.
+  ChannelChoice channel;           // of recordings; masters are always the channel mean
+  PickerOptions picker;
+  CorrelatorOptions correlator;
+  BankOptions bank;
+  bool refine = true;  // native-rate offset refinement (Default: on)
+  SourceOpener opener = file_opener();
+  // Called about every few seconds of audio; keep it cheap.
+  std::function<void(const Progress&)> on_progress;
+  // Polled between blocks; returning true ends the job with `cancelled`.
+  std::function<bool()> should_stop;
+  // Warnings for people (a recording that broke, a refinement that failed).
+  std::function<void(std::string_view)> on_diagnostic;
+};
+
+struct Match {
+  std::string template_id;
+  std::string recording;  // path as given
+  double offset_s = 0;    // time of the master's first sample in the recording
+  double score = 0;       // analysis-rate peak score, in [-1, 1]
+  int polarity = 1;       // -1: aired polarity-inverted
+  bool refined = false;   // offset refined at the recording's native rate
+};
+
+struct RecordingReport {
+  std::string path;
+  std::string format;
+  double duration_s = 0;  // audio actually decoded
+  double native_rate_hz = 0;
+  int channels = 0;
+  // Set when the recording could not be read at all, or broke part way
+  // (then `duration_s` says how far it got and matches found before the
+  // break are kept).
+  std::optional<Error> error;
+};
+
+struct TemplateReport {
+  std::string id;
+  std::string path;
+  double duration_s = 0;
+  size_t fft_size = 0;
+};
+
+struct LocateResult {
+  double analysis_rate_hz = 0;
+  std::vector<TemplateReport> templates;
+  std::vector<RecordingReport> recordings;
+  std::vector<Match> matches;  // by recording (job order), then offset
+  bool complete() const {
+    for (const auto& r : recordings)
+      if (r.error) return false;
+    return true;
+  }
+};
+
+// Errors for the whole job: usage (no templates, duplicate ids, bad rate),
+// a master that cannot be read (its code), cancelled. Problems with one
+// recording are reported in its RecordingReport and do not stop the job.
+Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& options);
+
+// File stem used as template id: "/lib/spot_a.v2.wav" -> "spot_a.v2".
+std::string template_id_for(const std::string& path);
+
+}  // namespace godwit

@@ -1,0 +1,185 @@
+#include <sndfile.h>
+
+#include <algorithm>
+#include <filesystem>
+#include <mutex>
+#include <vector>
+
+#include "godwit/audio_source.h"
+
+namespace godwit {
+namespace {
+
+// libsndfile keeps the error of a failed sf_open process-wide
+// (sf_error(nullptr)); open and read it under one lock.
+std::mutex& open_mutex() {
+  static std::mutex mu;
+  return mu;
+}
+
+std::string format_name(int format) {
+  switch (format & SF_FORMAT_TYPEMASK) {
+    case SF_FORMAT_WAV: return "wav";
+    case SF_FORMAT_WAVEX: return "wav";
+    case SF_FORMAT_RF64: return "rf64";
+    case SF_FORMAT_AIFF: return "aiff";
+    case SF_FORMAT_FLAC: return "flac";
+    case SF_FORMAT_OGG:
+      return (format & SF_FORMAT_SUBMASK) == SF_FORMAT_OPUS ? "opus" : "ogg";
+    case SF_FORMAT_MPEG: return "mp3";
+    case SF_FORMAT_W64: return "w64";
+    case SF_FORMAT_CAF: return "caf";
+    default: return "other";
+  }
+}
+
+// Formats whose frame count is exact, so a short read means truncation.
+bool length_is_exact(int format) {
+  const int type = format & SF_FORMAT_TYPEMASK;
+  return type == SF_FORMAT_FLAC || type == SF_FORMAT_OGG;
+}
+
+class FileSource final : public AudioSource {
+ public:
+  FileSource(SNDFILE* sf, AudioInfo info, ChannelChoice choice, bool exact_length)
+      : sf_(sf), info_(std::move(info)), choice_(choice), exact_length_(exact_length) {}
+  ~FileSource() override { sf_close(sf_); }
+
+  const AudioInfo& info() const override { return info_; }
+
+  Result<size_t> read(float* out, size_t max_frames) override {
+    if (failed_) return failure();
+    const size_t ch = static_cast<size_t>(info_.channels);
+    scratch_.resize(max_frames * ch);
+    const sf_count_t got =
+        sf_readf_float(sf_, scratch_.data(), static_cast<sf_count_t>(max_frames));
+    if (got < 0 || sf_error(sf_) != SF_ERR_NO_ERROR) {
+      failed_ = true;
+      reason_ = sf_strerror(sf_);
+      return failure();
+    }
+    const size_t n = static_cast<size_t>(got);
+    if (n == 0 && exact_length_ && info_.native_frames && pos_ < *info_.native_frames) {
+      failed_ = true;
+      reason_ = "stream ended before its stated length of " +
+                std::to_string(*info_.native_frames) + " frames (truncated file?)";
+      return failure();
+    }
+    downmix(n, out);
+    pos_ += static_cast<int64_t>(n);
+    return n;
+  }
+
+  Status seek(int64_t frame) override {
+    if (frame < 0) return Error{ErrorCode::usage, "negative seek", info_.path, std::nullopt};
+    if (sf_seek(sf_, static_cast<sf_count_t>(frame), SEEK_SET) < 0)
+      return Error{ErrorCode::unsupported, "cannot seek in this file", info_.path,
+                   static_cast<double>(frame) / info_.native_rate_hz};
+    pos_ = frame;
+    failed_ = false;
+    return ok_status();
+  }
+
+  int64_t position_frames() const override { return pos_; }
+
+ private:
+  Error failure() const {
+    return Error{ErrorCode::corrupt, "decoding failed: " + reason_, info_.path,
+                 static_cast<double>(pos_) / info_.native_rate_hz};
+  }
+
+  void downmix(size_t n, float* out) const {
+    const size_t ch = static_cast<size_t>(info_.channels);
+    if (choice_.channel >= 0) {
+      const size_t c = static_cast<size_t>(choice_.channel);
+      for (size_t i = 0; i < n; ++i) out[i] = scratch_[i * ch + c];
+      return;
+    }
+    if (ch == 1) {
+      std::copy_n(scratch_.data(), n, out);
+      return;
+    }
+    const float inv = 1.0f / static_cast<float>(ch);
+    for (size_t i = 0; i < n; ++i) {
+      float s = 0;
+      for (size_t c = 0; c < ch; ++c) s += scratch_[i * ch + c];
+      out[i] = s * inv;
+    }
+  }
+
+  SNDFILE* sf_;
+  AudioInfo info_;
+  ChannelChoice choice_;
+  bool exact_length_;
+  std::vector<float> scratch_;
+  int64_t pos_ = 0;
+  bool failed_ = false;
+  std::string reason_;
+};
+
+ErrorCode code_for_open_failure(int sf_code) {
+  switch (sf_code) {
+    case SF_ERR_UNRECOGNISED_FORMAT: return ErrorCode::unsupported;
+    case SF_ERR_UNSUPPORTED_ENCODING: return ErrorCode::unsupported;
+    case SF_ERR_MALFORMED_FILE: return ErrorCode::corrupt;
+    case SF_ERR_SYSTEM: return ErrorCode::unreadable;
+    default: return ErrorCode::unreadable;
+  }
+}
+
+}  // namespace
+
+Result<SourcePtr> open_audio_file(const std::string& path, ChannelChoice choice) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  const auto status = fs::status(path, ec);
+  if (ec || !fs::exists(status))
+    return Error{ErrorCode::not_found, "no such file", path, std::nullopt};
+  if (fs::is_directory(status))
+    return Error{ErrorCode::unreadable, "is a directory, not an audio file", path, std::nullopt};
+  if (fs::file_size(path, ec) == 0 && !ec)
+    return Error{ErrorCode::empty, "file is empty (0 bytes)", path, std::nullopt};
+
+  SF_INFO sfi{};
+  SNDFILE* sf = nullptr;
+  {
+    std::lock_guard lock(open_mutex());
+    sf = sf_open(path.c_str(), SFM_READ, &sfi);
+    if (sf == nullptr) {
+      const int code = sf_error(nullptr);
+      return Error{code_for_open_failure(code),
+                   std::string("cannot decode: ") + sf_strerror(nullptr), path, std::nullopt};
+    }
+  }
+  if (sfi.channels <= 0 || sfi.samplerate <= 0) {
+    sf_close(sf);
+    return Error{ErrorCode::corrupt, "header states no channels or no sample rate", path,
+                 std::nullopt};
+  }
+  if (choice.channel >= sfi.channels) {
+    sf_close(sf);
+    return Error{ErrorCode::usage,
+                 "channel " + std::to_string(choice.channel) + " requested but the file has " +
+                     std::to_string(sfi.channels) + " (channels count from 0)",
+                 path, std::nullopt};
+  }
+  AudioInfo info;
+  info.path = path;
+  info.format = format_name(sfi.format);
+  info.native_rate_hz = sfi.samplerate;
+  info.channels = sfi.channels;
+  // libsndfile reports SF_COUNT_MAX or 0 for streams of unknown length.
+  if (sfi.frames > 0 && sfi.frames < SF_COUNT_MAX) info.native_frames = sfi.frames;
+  if (sfi.frames == 0 && (sfi.format & SF_FORMAT_TYPEMASK) != SF_FORMAT_MPEG) {
+    sf_close(sf);
+    return Error{ErrorCode::empty, "file holds no audio frames", path, std::nullopt};
+  }
+  const bool exact = length_is_exact(sfi.format) && info.native_frames.has_value();
+  return SourcePtr(std::make_unique<FileSource>(sf, std::move(info), choice, exact));
+}
+
+SourceOpener file_opener() {
+  return [](const std::string& path, ChannelChoice choice) { return open_audio_file(path, choice); };
+}
+
+}  // namespace godwit

@@ -1,0 +1,177 @@
+#include "godwit/correlator.h"
+
+#include <algorithm>
+#include <cmath>
+
+#include "fft_plans.h"
+#include "thread_pool.h"
+#include "window_energy.h"
+
+namespace godwit {
+namespace {
+
+struct GroupState {
+  size_t fft_size = 0;
+  size_t step = 0;
+  size_t min_len = 0;
+  Samples pending;            // input not yet consumed; pending[0] is at pending_start
+  int64_t pending_start = 0;  // absolute analysis sample offset
+  detail::RealBuffer block;
+  detail::ComplexBuffer spectrum;
+  detail::WindowEnergy energy;
+  const detail::FftPlan* plan = nullptr;
+};
+
+struct WorkerScratch {
+  detail::ComplexBuffer product;
+  detail::RealBuffer output;
+  Samples scores;
+};
+
+}  // namespace
+
+struct Correlator::Impl {
+  std::shared_ptr<const TemplateBank> bank;
+  CorrelatorOptions options;
+  detail::ThreadPool pool;
+  detail::FftPlans plans;
+  std::vector<GroupState> groups;
+  std::vector<WorkerScratch> scratch;
+  int64_t pushed = 0;
+
+  Impl(std::shared_ptr<const TemplateBank> b, const CorrelatorOptions& o)
+      : bank(std::move(b)), options(o), pool(o.threads), plans(o.planner) {
+    size_t max_size = 0;
+    for (const auto& g : bank->groups()) {
+      GroupState s;
+      s.fft_size = g.fft_size;
+      s.step = g.step_samples();
+      s.min_len = g.max_len_samples;
+      for (size_t t : g.members) s.min_len = std::min(s.min_len, bank->at(t).len_samples);
+      s.block = detail::alloc_real(g.fft_size);
+      s.spectrum = detail::alloc_complex(g.fft_size / 2 + 1);
+      s.plan = &plans.get(g.fft_size);
+      s.pending.reserve(g.fft_size);
+      groups.push_back(std::move(s));
+      max_size = std::max(max_size, g.fft_size);
+    }
+    for (size_t w = 0; w < pool.workers(); ++w) {
+      WorkerScratch ws;
+      ws.product = detail::alloc_complex(max_size / 2 + 1);
+      ws.output = detail::alloc_real(max_size);
+      scratch.push_back(std::move(ws));
+    }
+  }
+
+  // One block of group `gi`: pending[0, n_real) zero-padded to L. Emits, for
+  // each member, scores for offsets [start, start + step) that lie at or
+  // before `last_offset` - M + 1 (the stream's end, when known).
+  void process_block(size_t gi, size_t n_real, int64_t stream_end, const ScoreSink& sink) {
+    GroupState& g = groups[gi];
+    const size_t L = g.fft_size;
+    std::copy_n(g.pending.data(), n_real, g.block.get());
+    const double block_energy = g.energy.assign(g.block.get(), n_real, L);
+    fftwf_execute_dft_r2c(g.plan->forward, g.block.get(), detail::as_fftw(g.spectrum.get()));
+    const auto& members = bank->groups()[gi].members;
+    const int64_t start = g.pending_start;
+    const double guard2 = options.rounding_guard * options.rounding_guard * block_energy;
+    const double floor2 = options.floor_rms * options.floor_rms;
+    const double inv_l = 1.0 / static_cast<double>(L);
+    pool.run(members.size(), [&](size_t mi, size_t worker) {
+      const size_t t = members[mi];
+      const size_t m = bank->at(t).len_samples;
+      int64_t n_out = static_cast<int64_t>(g.step);
+      if (stream_end >= 0) n_out = std::min<int64_t>(n_out, stream_end - static_cast<int64_t>(m) - start + 1);
+      if (n_out <= 0) return;
+      WorkerScratch& ws = scratch[worker];
+      const size_t bins = L / 2 + 1;
+      const std::complex<float>* tc = bank->conj_spectrum(t);
+      const std::complex<float>* x = g.spectrum.get();
+      std::complex<float>* p = ws.product.get();
+      for (size_t k = 0; k < bins; ++k) p[k] = x[k] * tc[k];
+      fftwf_execute_dft_c2r(g.plan->inverse, detail::as_fftw(p), ws.output.get());
+      ws.scores.resize(static_cast<size_t>(n_out));
+      const double e_min = std::max(floor2 * static_cast<double>(m), guard2);
+      const float* y = ws.output.get();
+      for (size_t k = 0; k < static_cast<size_t>(n_out); ++k) {
+        const double e = g.energy.energy(k, m);
+        float r = 0.0f;
+        if (e > e_min) {
+          const double v = static_cast<double>(y[k]) * inv_l / std::sqrt(e);
+          r = static_cast<float>(std::clamp(v, -1.0, 1.0));
+        }
+        ws.scores[k] = r;
+      }
+      sink(t, start, ws.scores.data(), static_cast<size_t>(n_out));
+    });
+  }
+
+  void consume(GroupState& g, size_t n) {
+    n = std::min(n, g.pending.size());
+    g.pending.erase(g.pending.begin(), g.pending.begin() + static_cast<long>(n));
+    g.pending_start += static_cast<int64_t>(n);
+  }
+};
+
+Correlator::Correlator(std::shared_ptr<const TemplateBank> bank, const CorrelatorOptions& options)
+    : impl_(std::make_unique<Impl>(std::move(bank), options)) {}
+
+Correlator::~Correlator() = default;
+
+void Correlator::push(const float* x, size_t n, const ScoreSink& sink) {
+  impl_->pushed += static_cast<int64_t>(n);
+  for (size_t gi = 0; gi < impl_->groups.size(); ++gi) {
+    GroupState& g = impl_->groups[gi];
+    size_t used = 0;
+    while (used < n) {
+      const size_t take = std::min(n - used, g.fft_size - g.pending.size());
+      g.pending.insert(g.pending.end(), x + used, x + used + take);
+      used += take;
+      if (g.pending.size() == g.fft_size) {
+        impl_->process_block(gi, g.fft_size, -1, sink);
+        impl_->consume(g, g.step);
+      }
+    }
+  }
+}
+
+void Correlator::finish(const ScoreSink& sink) {
+  const int64_t end = impl_->pushed;
+  for (size_t gi = 0; gi < impl_->groups.size(); ++gi) {
+    GroupState& g = impl_->groups[gi];
+    while (!g.pending.empty() && g.pending_start + static_cast<int64_t>(g.min_len) <= end) {
+      impl_->process_block(gi, g.pending.size(), end, sink);
+      impl_->consume(g, g.step);
+    }
+  }
+}
+
+void Correlator::reset() {
+  impl_->pushed = 0;
+  for (auto& g : impl_->groups) {
+    g.pending.clear();
+    g.pending_start = 0;
+  }
+}
+
+int64_t Correlator::samples_pushed() const { return impl_->pushed; }
+size_t Correlator::workers() const { return impl_->pool.workers(); }
+
+Samples score_trace(std::shared_ptr<const TemplateBank> bank, size_t t, const Samples& x,
+                    const CorrelatorOptions& options, size_t push_size) {
+  const size_t m = bank->at(t).len_samples;
+  Samples trace(x.size() >= m ? x.size() - m + 1 : 0, 0.0f);
+  Correlator c(std::move(bank), options);
+  auto sink = [&](size_t ti, int64_t first, const float* s, size_t n) {
+    if (ti != t) return;
+    for (size_t j = 0; j < n; ++j) {
+      const size_t k = static_cast<size_t>(first) + j;
+      if (k < trace.size()) trace[k] = s[j];
+    }
+  };
+  for (size_t i = 0; i < x.size(); i += push_size) c.push(x.data() + i, std::min(push_size, x.size() - i), sink);
+  c.finish(sink);
+  return trace;
+}
+
+}  // namespace godwit

@@ -1,0 +1,52 @@
+#include "godwit/error.h"
+
+#include <cstdio>
+
+namespace godwit {
+namespace {
+
+struct CodeRow {
+  ErrorCode code;
+  std::string_view wire;
+  int exit;
+};
+
+// The one table: wire names and exit codes. Exit codes are documented in
+// README.md ("Exit codes"); change both together.
+constexpr CodeRow kRows[] = {
+    {ErrorCode::usage, "usage", 2},
+    {ErrorCode::not_found, "not_found", 3},
+    {ErrorCode::unreadable, "unreadable", 3},
+    {ErrorCode::unsupported, "unsupported", 3},
+    {ErrorCode::empty, "empty", 3},
+    {ErrorCode::corrupt, "corrupt", 3},
+    {ErrorCode::io, "io", 5},
+    {ErrorCode::cancelled, "cancelled", 130},
+    {ErrorCode::invalid_template, "invalid_template", 3},
+    {ErrorCode::internal, "internal", 70},
+};
+
+const CodeRow& row(ErrorCode code) {
+  for (const auto& r : kRows)
+    if (r.code == code) return r;
+  return kRows[sizeof(kRows) / sizeof(kRows[0]) - 1];
+}
+
+}  // namespace
+
+std::string_view wire_name(ErrorCode code) { return row(code).wire; }
+int exit_code(ErrorCode code) { return row(code).exit; }
+
+std::string Error::describe() const {
+  std::string s;
+  if (!path.empty()) s += path + ": ";
+  s += message;
+  if (offset_s) {
+    char buf[64];
+    std::snprintf(buf, sizeof buf, " (at %.3f s)", *offset_s);
+    s += buf;
+  }
+  return s;
+}
+
+}  // namespace godwit

@@ -1,0 +1,69 @@
+#include "godwit/locate_report.h"
+
+#include <cmath>
+#include <cstdio>
+
+namespace godwit {
+namespace {
+
+double round_to(double v, double step) { return std::round(v / step) * step; }
+
+std::string csv_field(const std::string& s) {
+  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
+  std::string q = "\"";
+  for (char c : s) {
+    if (c == '"') q += '"';
+    q += c;
+  }
+  return q + "\"";
+}
+
+}  // namespace
+
+nlohmann::json error_to_json(const Error& e) {
+  nlohmann::json j{{"code", std::string(wire_name(e.code))}, {"message", e.message}};
+  if (!e.path.empty()) j["path"] = e.path;
+  if (e.offset_s) j["offset_s"] = round_to(*e.offset_s, 1e-3);
+  return j;
+}
+
+nlohmann::json locate_to_json(const LocateResult& r) {
+  nlohmann::json j;
+  j["analysis_rate_hz"] = r.analysis_rate_hz;
+  j["complete"] = r.complete();
+  j["templates"] = nlohmann::json::array();
+  for (const auto& t : r.templates)
+    j["templates"].push_back({{"id", t.id}, {"path", t.path}, {"duration_s", round_to(t.duration_s, 1e-6)},
+                              {"fft_size", t.fft_size}});
+  j["recordings"] = nlohmann::json::array();
+  for (const auto& rec : r.recordings) {
+    nlohmann::json x{{"path", rec.path},
+                     {"format", rec.format},
+                     {"duration_s", round_to(rec.duration_s, 1e-6)},
+                     {"native_rate_hz", rec.native_rate_hz},
+                     {"channels", rec.channels}};
+    if (rec.error) x["error"] = error_to_json(*rec.error);
+    j["recordings"].push_back(std::move(x));
+  }
+  j["matches"] = nlohmann::json::array();
+  for (const auto& m : r.matches)
+    j["matches"].push_back({{"template", m.template_id},
+                            {"recording", m.recording},
+                            {"offset_s", round_to(m.offset_s, 1e-6)},
+                            {"score", round_to(m.score, 1e-4)},
+                            {"polarity", m.polarity},
+                            {"refined", m.refined}});
+  return j;
+}
+
+std::string locate_to_csv(const LocateResult& r) {
+  std::string out = "template,recording,offset_s,score,polarity\r\n";
+  char num[96];
+  for (const auto& m : r.matches) {
+    std::snprintf(num, sizeof num, ",%.6f,%.4f,%d\r\n", m.offset_s, m.score, m.polarity);
+    out += csv_field(m.template_id) + "," + csv_field(m.recording) + num;
+  }
+  return out;
+}
+
+}  // namespace godwit

@@ -1,0 +1,22 @@
+// Robust statistics of a score segment, for the relative threshold.
+#pragma once
+
+#include <cstddef>
+#include <optional>
+#include <vector>
+
+namespace godwit::detail {
+
+struct SegmentStats {
+  double median = 0;
+  double mad = 0;  // median absolute deviation from the median
+};
+
+// Statistics of the non-zero values of x[0, n) taken every `stride`-th;
+// empty when fewer than 16 such values exist (silence, no scores).
+std::optional<SegmentStats> segment_stats(const float* x, size_t n, size_t stride);
+
+// Median of `v` (reordered); REQUIRES !v.empty().
+double median_of(std::vector<double>& v);
+
+}  // namespace godwit::detail

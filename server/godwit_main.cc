@@ -1,0 +1,26 @@
+// godwit: the command line. Offline runs of the engine (locate).
+#include <CLI/CLI.hpp>
+#include <cstdio>
+#include <exception>
+#include <iostream>
+
+#include "locate_command.h"
+
+int main(int argc, char** argv) {
+  CLI::App app{"godwit: find where known audio clips (spots) aired in broadcast recordings"};
+  app.require_subcommand(1);
+  app.set_version_flag("--version", "godwit 0.1.0");
+  auto locate = godwit::add_locate_command(app);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    return app.exit(e) == 0 ? 0 : 2;
+  }
+  try {
+    if (app.got_subcommand("locate")) return locate();
+  } catch (const std::exception& e) {
+    std::cerr << "godwit: internal error: " << e.what() << "\n";
+    return 70;
+  }
+  return 2;
+}
