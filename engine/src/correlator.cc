@@ -20,12 +20,16 @@ struct GroupState {
   detail::ComplexBuffer spectrum;
   detail::WindowEnergy energy;
   const detail::FftPlan* plan = nullptr;
+  std::vector<Samples> inverse;  // per distinct template length, this block
 };
+
+constexpr size_t kMaxSharedLengths = 8;
 
 struct WorkerScratch {
   detail::ComplexBuffer product;
   detail::RealBuffer output;
   Samples scores;
+  Samples inverse;
 };
 
 }  // namespace
@@ -76,33 +80,70 @@ struct Correlator::Impl {
     const int64_t start = g.pending_start;
     const double guard2 = options.rounding_guard * options.rounding_guard * block_energy;
     const double floor2 = options.floor_rms * options.floor_rms;
-    const double inv_l = 1.0 / static_cast<double>(L);
+    const float inv_l = 1.0f / static_cast<float>(L);
+    auto outputs_for = [&](size_t m) {
+      int64_t n_out = static_cast<int64_t>(g.step);
+      if (stream_end >= 0) n_out = std::min<int64_t>(n_out, stream_end - static_cast<int64_t>(m) - start + 1);
+      return std::max<int64_t>(0, n_out);
+    };
+    // 1 / sqrt(window energy) per output, or 0 for "no score". Templates
+    // of one length share it, so it is made once per distinct length when
+    // there are few (the usual case: masters of 10, 15, 30, 60 s).
+    auto fill_inverse = [&](size_t m, float* inv, size_t n_out) {
+      const double e_min = std::max(floor2 * static_cast<double>(m), guard2);
+      for (size_t k = 0; k < n_out; ++k) {
+        const double e = g.energy.energy(k, m);
+        inv[k] = e > e_min ? static_cast<float>(1.0 / std::sqrt(e)) : 0.0f;
+      }
+    };
+    std::vector<size_t> lengths;
+    for (size_t t : members) lengths.push_back(bank->at(t).len_samples);
+    std::sort(lengths.begin(), lengths.end());
+    lengths.erase(std::unique(lengths.begin(), lengths.end()), lengths.end());
+    const bool shared = lengths.size() <= kMaxSharedLengths;
+    if (shared) {
+      g.inverse.resize(lengths.size());
+      pool.run(lengths.size(), [&](size_t li, size_t) {
+        const size_t n_out = static_cast<size_t>(outputs_for(lengths[li]));
+        g.inverse[li].resize(n_out);
+        fill_inverse(lengths[li], g.inverse[li].data(), n_out);
+      });
+    }
     pool.run(members.size(), [&](size_t mi, size_t worker) {
       const size_t t = members[mi];
       const size_t m = bank->at(t).len_samples;
-      int64_t n_out = static_cast<int64_t>(g.step);
-      if (stream_end >= 0) n_out = std::min<int64_t>(n_out, stream_end - static_cast<int64_t>(m) - start + 1);
-      if (n_out <= 0) return;
+      const size_t n_out = static_cast<size_t>(outputs_for(m));
+      if (n_out == 0) return;
       WorkerScratch& ws = scratch[worker];
       const size_t bins = L / 2 + 1;
       const std::complex<float>* tc = bank->conj_spectrum(t);
       const std::complex<float>* x = g.spectrum.get();
       std::complex<float>* p = ws.product.get();
-      for (size_t k = 0; k < bins; ++k) p[k] = x[k] * tc[k];
-      fftwf_execute_dft_c2r(g.plan->inverse, detail::as_fftw(p), ws.output.get());
-      ws.scores.resize(static_cast<size_t>(n_out));
-      const double e_min = std::max(floor2 * static_cast<double>(m), guard2);
-      const float* y = ws.output.get();
-      for (size_t k = 0; k < static_cast<size_t>(n_out); ++k) {
-        const double e = g.energy.energy(k, m);
-        float r = 0.0f;
-        if (e > e_min) {
-          const double v = static_cast<double>(y[k]) * inv_l / std::sqrt(e);
-          r = static_cast<float>(std::clamp(v, -1.0, 1.0));
-        }
-        ws.scores[k] = r;
+      // Spelled out: std::complex's operator* checks for NaN/inf (C99
+      // Annex G) and will not vectorize.
+      const float* xf = reinterpret_cast<const float*>(x);
+      const float* tf = reinterpret_cast<const float*>(tc);
+      float* pf = reinterpret_cast<float*>(p);
+      for (size_t k = 0; k < bins; ++k) {
+        const float a = xf[2 * k], b = xf[2 * k + 1], c = tf[2 * k], d = tf[2 * k + 1];
+        pf[2 * k] = a * c - b * d;
+        pf[2 * k + 1] = a * d + b * c;
       }
-      sink(t, start, ws.scores.data(), static_cast<size_t>(n_out));
+      fftwf_execute_dft_c2r(g.plan->inverse, detail::as_fftw(p), ws.output.get());
+      const float* inv;
+      if (shared) {
+        const size_t li = static_cast<size_t>(std::lower_bound(lengths.begin(), lengths.end(), m) - lengths.begin());
+        inv = g.inverse[li].data();
+      } else {
+        ws.inverse.resize(n_out);
+        fill_inverse(m, ws.inverse.data(), n_out);
+        inv = ws.inverse.data();
+      }
+      ws.scores.resize(n_out);
+      const float* y = ws.output.get();
+      float* r = ws.scores.data();
+      for (size_t k = 0; k < n_out; ++k) r[k] = std::clamp(y[k] * inv_l * inv[k], -1.0f, 1.0f);
+      sink(t, start, r, n_out);
     });
   }
 

@@ -2,8 +2,23 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <cstring>
 
 namespace godwit::detail {
+
+float max_abs(const float* x, size_t n) {
+  uint32_t best = 0;
+  for (size_t i = 0; i < n; ++i) {
+    uint32_t bits;
+    std::memcpy(&bits, x + i, sizeof bits);
+    bits &= 0x7fffffffu;
+    best = bits > best ? bits : best;
+  }
+  float out;
+  std::memcpy(&out, &best, sizeof out);
+  return out;
+}
 
 double median_of(std::vector<double>& v) {
   const size_t mid = v.size() / 2;

@@ -16,6 +16,12 @@ struct SegmentStats {
 // empty when fewer than 16 such values exist (silence, no scores).
 std::optional<SegmentStats> segment_stats(const float* x, size_t n, size_t stride);
 
+// max |x[i]| over [0, n), NaN-free input. Compares the IEEE bit patterns
+// with the sign cleared as integers, which orders them like the magnitudes
+// and lets the loop vectorize (a float max reduction would not, for NaN's
+// sake).
+float max_abs(const float* x, size_t n);
+
 // Median of `v` (reordered); REQUIRES !v.empty().
 double median_of(std::vector<double>& v);
 

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <map>
 #include <optional>
 
 #include "noise_floor.h"
@@ -11,37 +12,44 @@ namespace godwit {
 struct PeakPicker::Impl {
   PickerOptions opt;
   int64_t radius;
-  // Trace kept from buf_start on (covers the segment being scanned, one
-  // sample before it, and the look-ahead span).
+  // Trace kept from buf_start on: the span behind the segment being
+  // scanned (for its floor), that segment, and the span ahead.
   std::vector<float> buf;
   int64_t buf_start = 0;
   bool started = false;
-  // Per-segment statistics; stats[i] is segment stats_first + i.
-  std::vector<std::optional<detail::SegmentStats>> stats;
-  int64_t stats_first = 0;
-  int64_t segments_done = 0;  // segments whose statistics exist
-  int64_t next_scan = 0;      // next segment to scan for peaks
+  // Segment statistics, computed only for segments whose floor is needed
+  // (near a peak that clears the absolute threshold): most never are.
+  std::map<int64_t, std::optional<detail::SegmentStats>> stats;
+  int64_t next_scan = 0;  // next segment to scan for peaks
   bool finished = false;
   std::optional<Candidate> pending;
   std::vector<Candidate> out;
 
   int64_t seg_len() const { return static_cast<int64_t>(opt.segment_samples); }
+  int64_t span() const { return static_cast<int64_t>(opt.span_segments); }
   int64_t buf_end() const { return buf_start + static_cast<int64_t>(buf.size()); }
   float at(int64_t i) const { return buf[static_cast<size_t>(i - buf_start)]; }
-
-  void compute_stats(int64_t seg, int64_t end) {
-    const int64_t a = seg * seg_len();
-    const int64_t b = std::min(end, a + seg_len());
-    stats.push_back(detail::segment_stats(&buf[static_cast<size_t>(a - buf_start)],
-                                          static_cast<size_t>(b - a), 4));
-    ++segments_done;
+  // Segments whose samples are all present (or, once finished, any).
+  int64_t segments_available() const {
+    return finished ? (buf_end() + seg_len() - 1) / seg_len() : buf_end() / seg_len();
   }
 
-  double floor_for(int64_t seg) const {
-    const int64_t w = static_cast<int64_t>(opt.span_segments);
+  const std::optional<detail::SegmentStats>& stats_of(int64_t seg) {
+    auto it = stats.find(seg);
+    if (it != stats.end()) return it->second;
+    const int64_t a = std::max(seg * seg_len(), buf_start);
+    const int64_t b = std::min(buf_end(), (seg + 1) * seg_len());
+    std::optional<detail::SegmentStats> st;
+    if (b > a) st = detail::segment_stats(&buf[static_cast<size_t>(a - buf_start)], static_cast<size_t>(b - a), 32);
+    return stats.emplace(seg, st).first->second;
+  }
+
+  double floor_for(int64_t seg) {
     std::vector<double> med, mad;
-    for (int64_t s = std::max(stats_first, seg - w); s <= seg + w && s < segments_done; ++s) {
-      const auto& st = stats[static_cast<size_t>(s - stats_first)];
+    const int64_t first = std::max(seg - span(), buf_start / seg_len());
+    const int64_t last = std::min(seg + span(), segments_available() - 1);
+    for (int64_t s = first; s <= last; ++s) {
+      const auto& st = stats_of(s);
       if (!st) continue;
       med.push_back(st->median);
       mad.push_back(st->mad);
@@ -62,7 +70,12 @@ struct PeakPicker::Impl {
   void scan(int64_t seg) {
     const int64_t a = std::max(seg * seg_len(), buf_start);
     const int64_t b = std::min((seg + 1) * seg_len(), buf_end());
+    // Most segments hold nothing near the threshold: one vectorizable pass
+    // over the absolute values decides before the floor is even computed.
+    const float peak_abs = detail::max_abs(buf.data() + (a - buf_start), static_cast<size_t>(b - a));
+    if (peak_abs < opt.threshold) return;
     const double thr = std::max(opt.threshold, floor_for(seg));
+    if (peak_abs < thr) return;
     for (int64_t i = a; i < b; ++i) {
       const float v = std::fabs(at(i));
       if (v < thr) continue;
@@ -90,19 +103,16 @@ struct PeakPicker::Impl {
   }
 
   void advance() {
-    const int64_t w = static_cast<int64_t>(opt.span_segments);
-    while (next_scan < segments_done && (finished || next_scan + w < segments_done)) scan(next_scan++);
-    // Forget what no later scan needs.
-    const int64_t keep_from = std::max<int64_t>(buf_start, next_scan * seg_len() - 1);
-    if (keep_from - buf_start > static_cast<int64_t>(8 * opt.segment_samples)) {
+    while (next_scan < segments_available() && (finished || next_scan + span() < segments_available()))
+      scan(next_scan++);
+    // Forget what no later scan needs: the span behind the next segment.
+    const int64_t keep_seg = next_scan - span();
+    const int64_t keep_from = std::clamp<int64_t>(keep_seg * seg_len() - 1, buf_start, buf_end());
+    if (keep_from - buf_start > static_cast<int64_t>(16 * opt.segment_samples)) {
       buf.erase(buf.begin(), buf.begin() + (keep_from - buf_start));
       buf_start = keep_from;
     }
-    const int64_t stats_keep = std::max<int64_t>(stats_first, next_scan - w);
-    if (stats_keep - stats_first > 64) {
-      stats.erase(stats.begin(), stats.begin() + (stats_keep - stats_first));
-      stats_first = stats_keep;
-    }
+    while (!stats.empty() && stats.begin()->first < keep_seg) stats.erase(stats.begin());
   }
 };
 
@@ -124,22 +134,20 @@ void PeakPicker::feed(int64_t first, const float* scores, size_t n) {
     s.started = true;
     s.buf_start = first - (first % s.seg_len());
     s.buf.assign(static_cast<size_t>(first - s.buf_start), 0.0f);
-    s.stats_first = s.next_scan = s.segments_done = s.buf_start / s.seg_len();
+    s.next_scan = s.buf_start / s.seg_len();
   }
   // Gaps (should not happen) read as "no score".
   if (first > s.buf_end()) s.buf.resize(static_cast<size_t>(first - s.buf_start), 0.0f);
   const int64_t skip = std::max<int64_t>(0, s.buf_end() - first);
   if (skip < static_cast<int64_t>(n)) s.buf.insert(s.buf.end(), scores + skip, scores + n);
-  while ((s.segments_done + 1) * s.seg_len() <= s.buf_end()) s.compute_stats(s.segments_done, s.buf_end());
   s.advance();
 }
 
 void PeakPicker::finish() {
   Impl& s = *impl_;
   if (s.finished) return;
-  if (s.started && s.segments_done * s.seg_len() < s.buf_end()) s.compute_stats(s.segments_done, s.buf_end());
   s.finished = true;
-  s.advance();
+  if (s.started) s.advance();
   if (s.pending) s.out.push_back(*s.pending);
   s.pending.reset();
 }

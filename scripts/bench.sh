@@ -1,0 +1,10 @@
+#!/usr/bin/env bash
+# The engine benchmarks (not run in CI; about 10 minutes on 2 cores).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+scripts/install-deps.sh
+scripts/build.sh >/dev/null
+B=build/tests/bench/godwit_bench
+$B throughput --templates 20 --hours 1
+$B false-alarms
+$B day --templates 100 --hours 24

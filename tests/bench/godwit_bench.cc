@@ -1,0 +1,301 @@
+// godwit_bench: named workloads that print the engine's numbers beside a
+// bound or a peer measured in the same run.
+//
+//   throughput   K templates of 30 s against H hours at 8 kHz: engine
+//                throughput vs the FFT bound (only the transforms and
+//                spectrum products the same plans need) and, when Debian's
+//                python3 with scipy and OpenCV is present, vs
+//                scipy.signal.correlate(method='fft') + cumulative sums and
+//                OpenCV matchTemplate(TM_CCOEFF_NORMED).
+//   day          100 templates of 30 s against 24 h: wall time, CPU time and
+//                peak memory against the targets; every planted clip found.
+//   false-alarms 20 templates against 1 h of unrelated programme and 1 h of
+//                silence with dropouts and spikes (zero detections wanted),
+//                and against 1 h with the 20 clips planted (all wanted).
+#include <sys/resource.h>
+
+#include <CLI/CLI.hpp>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <thread>
+
+#include "cache_dir.h"
+#include "fft_plans.h"
+#include "godwit/job.h"
+#include "godwit/memory_source.h"
+#include "programme_source.h"
+#include "synth.h"
+
+using namespace godwit;
+using Clock = std::chrono::steady_clock;
+
+namespace {
+
+constexpr double kRate = 8000;
+
+double cpu_seconds() {
+  rusage ru{};
+  getrusage(RUSAGE_SELF, &ru);
+  auto s = [](const timeval& t) { return static_cast<double>(t.tv_sec) + static_cast<double>(t.tv_usec) * 1e-6; };
+  return s(ru.ru_utime) + s(ru.ru_stime);
+}
+
+double peak_rss_mib() {
+  rusage ru{};
+  getrusage(RUSAGE_SELF, &ru);
+  return static_cast<double>(ru.ru_maxrss) / 1024.0;
+}
+
+struct Scenario {
+  std::map<std::string, std::shared_ptr<const Samples>> masters;  // by path
+  std::vector<std::string> template_paths;
+  std::vector<synth::PlantedClip> plants;
+  std::vector<std::pair<std::string, double>> truth;  // id, offset_s
+};
+
+Scenario make_scenario(size_t k, double hours, bool plant, uint64_t seed) {
+  Scenario s;
+  const double length_s = hours * 3600;
+  for (size_t i = 0; i < k; ++i) {
+    const std::string path = "bench/spot" + std::to_string(i) + ".wav";
+    auto clip = std::make_shared<const Samples>(synth::spot(30.0, kRate, seed + i));
+    s.masters[path] = clip;
+    s.template_paths.push_back(path);
+    if (plant) {
+      // Spread one airing of each template over the recording.
+      const double off = (static_cast<double>(i) + 0.37) * (length_s - 40) / static_cast<double>(k);
+      const int64_t at = static_cast<int64_t>(off * kRate);
+      s.plants.push_back({clip, at, 0.8f});
+      s.truth.emplace_back("spot" + std::to_string(i), static_cast<double>(at) / kRate);
+    }
+  }
+  return s;
+}
+
+std::shared_ptr<const synth::SegmentPool> pool_for(uint64_t seed) {
+  static std::map<uint64_t, std::shared_ptr<const synth::SegmentPool>> pools;
+  auto& p = pools[seed];
+  if (!p) p = synth::make_segment_pool(kRate, 24, seed);
+  return p;
+}
+
+SourceOpener scenario_opener(const Scenario& s, double hours, uint64_t seed, synth::Content content) {
+  auto pool = pool_for(seed);
+  return [&s, hours, seed, content, pool](const std::string& path, ChannelChoice) -> Result<SourcePtr> {
+    if (auto it = s.masters.find(path); it != s.masters.end()) {
+      return SourcePtr(std::make_unique<MemorySource>(path, *it->second, 1, kRate));
+    }
+    return SourcePtr(std::make_unique<synth::ProgrammeSource>(path, kRate, hours * 3600, seed, s.plants, content, pool));
+  };
+}
+
+struct RunStats {
+  double wall_s = 0, cpu_s = 0;
+  LocateResult result;
+};
+
+RunStats run_job(const Scenario& s, const std::vector<std::string>& recordings, double hours, uint64_t seed,
+                 synth::Content content, FftCostTable& costs, int threads) {
+  LocateOptions o;
+  o.opener = scenario_opener(s, hours, seed, content);
+  o.correlator.planner = Planner::measure;
+  o.correlator.threads = threads;
+  o.bank.costs = &costs;
+  const auto t0 = Clock::now();
+  const double c0 = cpu_seconds();
+  auto r = run_locate({s.template_paths, recordings}, o);
+  RunStats st;
+  st.cpu_s = cpu_seconds() - c0;
+  st.wall_s = std::chrono::duration<double>(Clock::now() - t0).count();
+  if (!r) {
+    std::fprintf(stderr, "bench: %s\n", r.error().describe().c_str());
+    std::exit(1);
+  }
+  st.result = std::move(r.value());
+  return st;
+}
+
+// Transforms and products only, with the bank's sizes and FFTW's plans:
+// CPU seconds for the whole recording, extrapolated from `sample_blocks`
+// blocks per group.
+double fft_bound_cpu_s(const std::vector<TemplateReport>& templates, double audio_s, size_t sample_blocks) {
+  std::map<size_t, std::pair<size_t, size_t>> groups;  // size -> (members, max len)
+  for (const auto& t : templates) {
+    auto& g = groups[t.fft_size];
+    g.first++;
+    g.second = std::max(g.second, static_cast<size_t>(std::llround(t.duration_s * kRate)));
+  }
+  detail::FftPlans plans(Planner::measure);
+  double total = 0;
+  for (const auto& [size, g] : groups) {
+    const auto& plan = plans.get(size);
+    const size_t bins = size / 2 + 1;
+    auto block = detail::alloc_real(size);
+    auto spec = detail::alloc_complex(bins);
+    auto prod = detail::alloc_complex(bins);
+    auto out = detail::alloc_real(size);
+    std::vector<detail::ComplexBuffer> tmpl;
+    for (size_t m = 0; m < g.first; ++m) {
+      tmpl.push_back(detail::alloc_complex(bins));
+      for (size_t i = 0; i < bins; ++i) tmpl.back()[i] = {0.5f, 0.1f};
+    }
+    for (size_t i = 0; i < size; ++i) block[i] = std::sin(static_cast<float>(i) * 0.01f);
+    const double c0 = cpu_seconds();
+    for (size_t b = 0; b < sample_blocks; ++b) {
+      fftwf_execute_dft_r2c(plan.forward, block.get(), detail::as_fftw(spec.get()));
+      for (size_t m = 0; m < g.first; ++m) {
+        const auto* t = tmpl[m].get();
+        for (size_t i = 0; i < bins; ++i) prod[i] = spec[i] * t[i];
+        fftwf_execute_dft_c2r(plan.inverse, detail::as_fftw(prod.get()), out.get());
+      }
+    }
+    const double per_block = (cpu_seconds() - c0) / static_cast<double>(sample_blocks);
+    const double step = static_cast<double>(size - g.second + 1);
+    total += per_block * std::ceil(audio_s * kRate / step);
+  }
+  return total;
+}
+
+struct Recall {
+  size_t found = 0, missed = 0, extra = 0;
+  double max_err_s = 0;
+};
+
+Recall score_against(const Scenario& s, const LocateResult& r) {
+  Recall rc;
+  std::vector<bool> used(r.matches.size());
+  for (const auto& [id, off] : s.truth) {
+    bool hit = false;
+    for (size_t i = 0; i < r.matches.size(); ++i) {
+      if (used[i] || r.matches[i].template_id != id || std::fabs(r.matches[i].offset_s - off) > 0.01) continue;
+      used[i] = hit = true;
+      rc.max_err_s = std::max(rc.max_err_s, std::fabs(r.matches[i].offset_s - off));
+      break;
+    }
+    hit ? rc.found++ : rc.missed++;
+  }
+  for (bool u : used) rc.extra += u ? 0 : 1;
+  return rc;
+}
+
+void run_peers(double minutes, size_t k) {
+  const std::string py = "/usr/bin/python3";
+  if (!std::filesystem::exists(py)) {
+    std::printf("  peers: /usr/bin/python3 not found, skipped\n");
+    return;
+  }
+  const auto dir = std::filesystem::temp_directory_path() / "godwit-bench-peers";
+  std::filesystem::create_directories(dir);
+  Samples x = synth::programme(minutes * 60, kRate, 99);
+  std::ofstream(dir / "x.f32", std::ios::binary)
+      .write(reinterpret_cast<const char*>(x.data()), static_cast<long>(x.size() * 4));
+  for (size_t i = 0; i < k; ++i) {
+    Samples t = synth::spot(30.0, kRate, 500 + i);
+    std::ofstream(dir / ("t" + std::to_string(i) + ".f32"), std::ios::binary)
+        .write(reinterpret_cast<const char*>(t.data()), static_cast<long>(t.size() * 4));
+  }
+  const std::string cmd = py + " " + GODWIT_SOURCE_DIR + "/tests/bench/peers.py " + dir.string() + " " +
+                          std::to_string(k) + " " + std::to_string(kRate);
+  std::fflush(stdout);
+  if (std::system(cmd.c_str()) != 0) std::printf("  peers: python3 with scipy and OpenCV not available, skipped\n");
+  std::filesystem::remove_all(dir);
+}
+
+int throughput(size_t k, double hours, const std::string& cache_dir, bool peers, int threads) {
+  FftCache cache(cache_dir, [](std::string_view s) { std::fprintf(stderr, "bench: %.*s\n", int(s.size()), s.data()); });
+  FftCostTable costs = cache.load();
+  Scenario s = make_scenario(k, hours, true, 1000);
+  // Plan and measure sizes first (not part of the throughput).
+  run_job(s, {"warmup"}, 0.01, 1, synth::Content::programme, costs, 0);
+  cache.save(costs);
+  RunStats st = run_job(s, {"air"}, hours, 7, synth::Content::programme, costs, threads);
+  const double audio_s = hours * 3600;
+  const double bound_cpu = fft_bound_cpu_s(st.result.templates, audio_s, 6);
+  const Recall rc = score_against(s, st.result);
+  std::printf("workload throughput: %zu templates x 30 s, %.2f h at 8 kHz, %d thread(s)\n", k, hours,
+              threads > 0 ? threads : int(std::max(1u, std::thread::hardware_concurrency())));
+  std::printf("  fft sizes:");
+  std::map<size_t, int> sizes;
+  for (const auto& t : st.result.templates) sizes[t.fft_size]++;
+  for (auto [sz, n] : sizes) std::printf(" %zu x %d", sz, n);
+  std::printf("\n");
+  std::printf("  %-34s %14s %12s\n", "", "audio-s/CPU-s", "per template");
+  const double eng = audio_s / st.cpu_s, bnd = audio_s / bound_cpu;
+  std::printf("  %-34s %14.0f %12.0f\n", "godwit engine (whole job)", eng, eng * static_cast<double>(k));
+  std::printf("  %-34s %14.0f %12.0f\n", "FFT bound (same plans, same sizes)", bnd, bnd * static_cast<double>(k));
+  std::printf("  engine / bound = %.2f   (target >= 0.80)\n", bound_cpu / st.cpu_s);
+  std::printf("  wall %.1f s, CPU %.1f s, realtime factor %.0fx, peak RSS %.0f MiB\n", st.wall_s, st.cpu_s,
+              audio_s / st.wall_s, peak_rss_mib());
+  std::printf("  planted %zu: found %zu, missed %zu, other detections %zu, max offset error %.3f ms\n",
+              s.truth.size(), rc.found, rc.missed, rc.extra, rc.max_err_s * 1e3);
+  std::printf("  engine per template: %.0f audio-s per CPU-s\n", eng * static_cast<double>(k));
+  if (peers) run_peers(10, 2);
+  return 0;
+}
+
+int day(size_t k, double hours, const std::string& cache_dir) {
+  FftCache cache(cache_dir, [](std::string_view) {});
+  FftCostTable costs = cache.load();
+  Scenario s = make_scenario(k, hours, true, 2000);
+  RunStats st = run_job(s, {"day"}, hours, 11, synth::Content::programme, costs, 0);
+  cache.save(costs);
+  const Recall rc = score_against(s, st.result);
+  std::printf("workload day: %zu templates x 30 s against %.1f h at 8 kHz\n", k, hours);
+  std::printf("  wall %.1f s (target <= 360 s), CPU %.1f s, peak RSS %.0f MiB (target <= 512 MiB)\n", st.wall_s,
+              st.cpu_s, peak_rss_mib());
+  std::printf("  planted %zu: found %zu, missed %zu, other detections %zu, max offset error %.3f ms\n",
+              s.truth.size(), rc.found, rc.missed, rc.extra, rc.max_err_s * 1e3);
+  return 0;
+}
+
+int false_alarms(const std::string& cache_dir) {
+  FftCache cache(cache_dir, [](std::string_view) {});
+  FftCostTable costs = cache.load();
+  const size_t k = 20;
+  Scenario clean = make_scenario(k, 1.0, false, 3000);
+  RunStats prog = run_job(clean, {"programme"}, 1.0, 21, synth::Content::programme, costs, 0);
+  RunStats sil = run_job(clean, {"silence"}, 1.0, 22, synth::Content::silence_with_faults, costs, 0);
+  Scenario planted = make_scenario(k, 1.0, true, 3000);
+  RunStats pl = run_job(planted, {"planted"}, 1.0, 23, synth::Content::programme, costs, 0);
+  cache.save(costs);
+  const Recall rc = score_against(planted, pl.result);
+  std::printf("workload false-alarms: %zu templates x 30 s\n", k);
+  std::printf("  1 h unrelated programme:           %zu detections (target 0)\n", prog.result.matches.size());
+  std::printf("  1 h silence, dropouts, spikes:     %zu detections (target 0)\n", sil.result.matches.size());
+  std::printf("  1 h with %zu planted:              found %zu, missed %zu, other %zu, max offset error %.3f ms\n",
+              planted.truth.size(), rc.found, rc.missed, rc.extra, rc.max_err_s * 1e3);
+  return 0;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  CLI::App app{"godwit_bench: engine benchmarks with bounds and peers measured in the same run"};
+  app.require_subcommand(1);
+  size_t k = 20;
+  double hours = 1.0;
+  bool no_peers = false;
+  std::string cache = default_cache_dir();
+  app.add_option("--cache-dir", cache, "FFTW wisdom and FFT costs (as godwit locate)");
+  auto* tp = app.add_subcommand("throughput", "engine vs FFT bound vs scipy and OpenCV");
+  tp->add_option("--templates", k, "templates of 30 s (default 20)");
+  tp->add_option("--hours", hours, "recording length in hours (default 1)");
+  tp->add_flag("--no-peers", no_peers, "skip the Python peers");
+  int threads = 0;
+  tp->add_option("--threads", threads, "engine threads (default: one per core)");
+  size_t day_k = 100;
+  double day_h = 24;
+  auto* dy = app.add_subcommand("day", "a day against 100 templates: wall time and peak memory");
+  dy->add_option("--templates", day_k, "templates (default 100)");
+  dy->add_option("--hours", day_h, "hours (default 24)");
+  auto* fa = app.add_subcommand("false-alarms", "detections on unrelated audio and on silence");
+  CLI11_PARSE(app, argc, argv);
+  if (*tp) return throughput(k, hours, cache, !no_peers, threads);
+  if (*dy) return day(day_k, day_h, cache);
+  if (*fa) return false_alarms(cache);
+  return 2;
+}
