@@ -36,7 +36,7 @@ struct LocateArgs {
   int threads = 0;
   size_t fft_size = 0;
   std::string planner = "measure";
-  size_t memory_mb = 400;
+  size_t memory_mb = 320;
   std::string cache_dir = default_cache_dir();
   bool no_refine = false;
   bool quiet = false;
@@ -149,7 +149,7 @@ std::function<int()> add_locate_command(CLI::App& app) {
   cmd->add_option("--planner", a->planner,
                   "FFTW planning: measure (default; slow once, then cached) or estimate (instant, slower FFTs)")
       ->check(CLI::IsMember({"estimate", "measure"}));
-  cmd->add_option("--memory-mb", a->memory_mb, "memory budget for template spectra in MiB (default 400)")
+  cmd->add_option("--memory-mb", a->memory_mb, "memory budget for template spectra in MiB (default 320)")
       ->check(CLI::Range(16, 1 << 20));
   cmd->add_option("--cache-dir", a->cache_dir,
                   "where FFTW wisdom and FFT costs are kept (default $XDG_CACHE_HOME/godwit or ~/.cache/godwit; "

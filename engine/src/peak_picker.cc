@@ -40,7 +40,7 @@ struct PeakPicker::Impl {
     const int64_t a = std::max(seg * seg_len(), buf_start);
     const int64_t b = std::min(buf_end(), (seg + 1) * seg_len());
     std::optional<detail::SegmentStats> st;
-    if (b > a) st = detail::segment_stats(&buf[static_cast<size_t>(a - buf_start)], static_cast<size_t>(b - a), 32);
+    if (b > a) st = detail::segment_stats(&buf[static_cast<size_t>(a - buf_start)], static_cast<size_t>(b - a), 16);
     return stats.emplace(seg, st).first->second;
   }
 
@@ -108,7 +108,7 @@ struct PeakPicker::Impl {
     // Forget what no later scan needs: the span behind the next segment.
     const int64_t keep_seg = next_scan - span();
     const int64_t keep_from = std::clamp<int64_t>(keep_seg * seg_len() - 1, buf_start, buf_end());
-    if (keep_from - buf_start > static_cast<int64_t>(16 * opt.segment_samples)) {
+    if (keep_from - buf_start > static_cast<int64_t>(4 * opt.segment_samples)) {
       buf.erase(buf.begin(), buf.begin() + (keep_from - buf_start));
       buf_start = keep_from;
     }
@@ -138,9 +138,15 @@ void PeakPicker::feed(int64_t first, const float* scores, size_t n) {
   }
   // Gaps (should not happen) read as "no score".
   if (first > s.buf_end()) s.buf.resize(static_cast<size_t>(first - s.buf_start), 0.0f);
-  const int64_t skip = std::max<int64_t>(0, s.buf_end() - first);
-  if (skip < static_cast<int64_t>(n)) s.buf.insert(s.buf.end(), scores + skip, scores + n);
-  s.advance();
+  size_t i = static_cast<size_t>(std::max<int64_t>(0, s.buf_end() - first));
+  // A segment at a time, so the buffer stays a few spans long however many
+  // scores one call brings (a block can bring minutes of them).
+  while (i < n) {
+    const size_t take = std::min(n - i, s.opt.segment_samples);
+    s.buf.insert(s.buf.end(), scores + i, scores + i + take);
+    i += take;
+    s.advance();
+  }
 }
 
 void PeakPicker::finish() {

@@ -26,6 +26,7 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
   std::shared_ptr<TemplateBank> bank(new TemplateBank());
   bank->spectra_ = std::make_unique<Spectra>();
   std::vector<size_t> lens;
+  std::vector<Samples> normalized;  // released once the spectra exist
   for (auto& in : inputs) {
     const size_t m = in.samples.size();
     if (m < 16) {
@@ -53,7 +54,7 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     t.len_samples = m;
     t.rms = rms;
     bank->templates_.push_back(std::move(t));
-    bank->normalized_.push_back(std::move(norm));
+    normalized.push_back(std::move(norm));
     lens.push_back(m);
     in.samples = Samples();  // release the caller's copy early
   }
@@ -116,7 +117,7 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     const size_t L = sizes[i];
     const auto& plan = plans.get(L);
     detail::RealBuffer padded = detail::alloc_real(L);
-    const auto& norm = bank->normalized_[i];
+    Samples& norm = normalized[i];
     std::copy(norm.begin(), norm.end(), padded.get());
     std::fill(padded.get() + norm.size(), padded.get() + L, 0.0f);
     detail::ComplexBuffer spec = detail::alloc_complex(L / 2 + 1);
@@ -124,6 +125,7 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     for (size_t k = 0; k < L / 2 + 1; ++k) spec[k] = std::conj(spec[k]);
     bank->spectra_->bytes += spectrum_bytes(L);
     bank->spectra_->conj.push_back(std::move(spec));
+    norm = Samples();
   }
   return std::shared_ptr<const TemplateBank>(std::move(bank));
 }

@@ -51,25 +51,32 @@ double peak_rss_mib() {
 }
 
 struct Scenario {
-  std::map<std::string, std::shared_ptr<const Samples>> masters;  // by path
   std::vector<std::string> template_paths;
   std::vector<synth::PlantedClip> plants;
   std::vector<std::pair<std::string, double>> truth;  // id, offset_s
 };
 
-Scenario make_scenario(size_t k, double hours, bool plant, uint64_t seed) {
+// Masters are written as WAV files (so the job reads them as in real use
+// and the benchmark holds none in memory); at most `max_planted` of them
+// are planted once each, spread over the recording.
+Scenario make_scenario(size_t k, double hours, bool plant, uint64_t seed, size_t max_planted = 1000) {
   Scenario s;
   const double length_s = hours * 3600;
+  const auto dir = std::filesystem::temp_directory_path() / ("godwit-bench-masters-" + std::to_string(seed));
+  std::filesystem::create_directories(dir);
+  const size_t planted = plant ? std::min(k, max_planted) : 0;
   for (size_t i = 0; i < k; ++i) {
-    const std::string path = "bench/spot" + std::to_string(i) + ".wav";
-    auto clip = std::make_shared<const Samples>(synth::spot(30.0, kRate, seed + i));
-    s.masters[path] = clip;
+    const std::string path = (dir / ("spot" + std::to_string(i) + ".wav")).string();
+    Samples clip = synth::spot(30.0, kRate, seed + i);
+    if (auto err = synth::write_audio(path, clip, 1, kRate); !err.empty()) {
+      std::fprintf(stderr, "bench: %s\n", err.c_str());
+      std::exit(1);
+    }
     s.template_paths.push_back(path);
-    if (plant) {
-      // Spread one airing of each template over the recording.
-      const double off = (static_cast<double>(i) + 0.37) * (length_s - 40) / static_cast<double>(k);
+    if (i < planted) {
+      const double off = (static_cast<double>(i) + 0.37) * (length_s - 40) / static_cast<double>(planted);
       const int64_t at = static_cast<int64_t>(off * kRate);
-      s.plants.push_back({clip, at, 0.8f});
+      s.plants.push_back({std::make_shared<const Samples>(std::move(clip)), at, 0.8f});
       s.truth.emplace_back("spot" + std::to_string(i), static_cast<double>(at) / kRate);
     }
   }
@@ -85,10 +92,8 @@ std::shared_ptr<const synth::SegmentPool> pool_for(uint64_t seed) {
 
 SourceOpener scenario_opener(const Scenario& s, double hours, uint64_t seed, synth::Content content) {
   auto pool = pool_for(seed);
-  return [&s, hours, seed, content, pool](const std::string& path, ChannelChoice) -> Result<SourcePtr> {
-    if (auto it = s.masters.find(path); it != s.masters.end()) {
-      return SourcePtr(std::make_unique<MemorySource>(path, *it->second, 1, kRate));
-    }
+  return [&s, hours, seed, content, pool](const std::string& path, ChannelChoice c) -> Result<SourcePtr> {
+    if (std::filesystem::exists(path)) return open_audio_file(path, c);
     return SourcePtr(std::make_unique<synth::ProgrammeSource>(path, kRate, hours * 3600, seed, s.plants, content, pool));
   };
 }
@@ -240,7 +245,7 @@ int throughput(size_t k, double hours, const std::string& cache_dir, bool peers,
 int day(size_t k, double hours, const std::string& cache_dir) {
   FftCache cache(cache_dir, [](std::string_view) {});
   FftCostTable costs = cache.load();
-  Scenario s = make_scenario(k, hours, true, 2000);
+  Scenario s = make_scenario(k, hours, true, 2000, 20);
   RunStats st = run_job(s, {"day"}, hours, 11, synth::Content::programme, costs, 0);
   cache.save(costs);
   const Recall rc = score_against(s, st.result);

@@ -26,7 +26,7 @@ struct PickerOptions {
   double threshold = 0.4;
   // Default 10: ten robust standard deviations above the local floor.
   double floor_k = 10.0;
-  size_t segment_samples = 8192;  // 1.024 s at 8 kHz
+  size_t segment_samples = 4096;  // 0.512 s at 8 kHz
   size_t span_segments = 8;       // each side: about 8 s at 8 kHz
 };
 
