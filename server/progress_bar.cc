@@ -9,7 +9,8 @@ ProgressBar::ProgressBar(bool terminal)
 
 void ProgressBar::update(const Progress& p) {
   const auto now = std::chrono::steady_clock::now();
-  if (!terminal_ && now - last_ < std::chrono::seconds(10)) return;
+  // Off a terminal: one line at most every 10 s, and always the last one.
+  if (!terminal_ && p.fraction < 1.0 && now - last_ < std::chrono::seconds(10)) return;
   last_ = now;
   const double elapsed_s = std::chrono::duration<double>(now - start_).count();
   const int width = 30;
