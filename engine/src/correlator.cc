@@ -28,7 +28,6 @@ constexpr size_t kMaxSharedLengths = 8;
 struct WorkerScratch {
   detail::ComplexBuffer product;
   detail::RealBuffer output;
-  Samples scores;
   Samples inverse;
 };
 
@@ -119,16 +118,7 @@ struct Correlator::Impl {
       const std::complex<float>* tc = bank->conj_spectrum(t);
       const std::complex<float>* x = g.spectrum.get();
       std::complex<float>* p = ws.product.get();
-      // Spelled out: std::complex's operator* checks for NaN/inf (C99
-      // Annex G) and will not vectorize.
-      const float* xf = reinterpret_cast<const float*>(x);
-      const float* tf = reinterpret_cast<const float*>(tc);
-      float* pf = reinterpret_cast<float*>(p);
-      for (size_t k = 0; k < bins; ++k) {
-        const float a = xf[2 * k], b = xf[2 * k + 1], c = tf[2 * k], d = tf[2 * k + 1];
-        pf[2 * k] = a * c - b * d;
-        pf[2 * k + 1] = a * d + b * c;
-      }
+      detail::multiply_spectra(x, tc, p, bins);
       fftwf_execute_dft_c2r(g.plan->inverse, detail::as_fftw(p), ws.output.get());
       const float* inv;
       if (shared) {
@@ -139,10 +129,9 @@ struct Correlator::Impl {
         fill_inverse(m, ws.inverse.data(), n_out);
         inv = ws.inverse.data();
       }
-      ws.scores.resize(n_out);
-      const float* y = ws.output.get();
-      float* r = ws.scores.data();
-      for (size_t k = 0; k < n_out; ++k) r[k] = std::clamp(y[k] * inv_l * inv[k], -1.0f, 1.0f);
+      // Normalized in place: one pass over the inverse transform's output.
+      float* r = ws.output.get();
+      for (size_t k = 0; k < n_out; ++k) r[k] = std::clamp(r[k] * inv_l * inv[k], -1.0f, 1.0f);
       sink(t, start, r, n_out);
     });
   }

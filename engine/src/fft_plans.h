@@ -50,6 +50,21 @@ using ComplexBuffer = std::unique_ptr<std::complex<float>[], FftwFree>;
 RealBuffer alloc_real(size_t n);
 ComplexBuffer alloc_complex(size_t n);
 
+// out[k] = a[k] * b[k] over n bins. Spelled out because std::complex's
+// operator* checks for NaN and infinity (C99 Annex G) and does not vectorize.
+inline void multiply_spectra(const std::complex<float>* a, const std::complex<float>* b,
+                             std::complex<float>* out, size_t n) {
+  const float* af = reinterpret_cast<const float*>(a);
+  const float* bf = reinterpret_cast<const float*>(b);
+  float* of = reinterpret_cast<float*>(out);
+  for (size_t k = 0; k < n; ++k) {
+    const float re = af[2 * k] * bf[2 * k] - af[2 * k + 1] * bf[2 * k + 1];
+    const float im = af[2 * k] * bf[2 * k + 1] + af[2 * k + 1] * bf[2 * k];
+    of[2 * k] = re;
+    of[2 * k + 1] = im;
+  }
+}
+
 inline fftwf_complex* as_fftw(std::complex<float>* p) { return reinterpret_cast<fftwf_complex*>(p); }
 
 }  // namespace godwit::detail

@@ -108,7 +108,9 @@ struct PeakPicker::Impl {
     // Forget what no later scan needs: the span behind the next segment.
     const int64_t keep_seg = next_scan - span();
     const int64_t keep_from = std::clamp<int64_t>(keep_seg * seg_len() - 1, buf_start, buf_end());
-    if (keep_from - buf_start > static_cast<int64_t>(4 * opt.segment_samples)) {
+    // Erase only when the dead part is as long as the live one: each sample
+    // is then moved about once.
+    if (keep_from - buf_start > (2 * span() + 1) * seg_len()) {
       buf.erase(buf.begin(), buf.begin() + (keep_from - buf_start));
       buf_start = keep_from;
     }

@@ -154,7 +154,7 @@ double fft_bound_cpu_s(const std::vector<TemplateReport>& templates, double audi
       fftwf_execute_dft_r2c(plan.forward, block.get(), detail::as_fftw(spec.get()));
       for (size_t m = 0; m < g.first; ++m) {
         const auto* t = tmpl[m].get();
-        for (size_t i = 0; i < bins; ++i) prod[i] = spec[i] * t[i];
+        detail::multiply_spectra(spec.get(), t, prod.get(), bins);
         fftwf_execute_dft_c2r(plan.inverse, detail::as_fftw(prod.get()), out.get());
       }
     }
