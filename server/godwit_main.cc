@@ -1,16 +1,18 @@
-// godwit: the command line. Offline runs of the engine (locate).
+// godwit: the command line. Offline runs of the engine (locate, reconcile).
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
 #include <iostream>
 
 #include "locate_command.h"
+#include "reconcile_command.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"godwit: find where known audio clips (spots) aired in broadcast recordings"};
   app.require_subcommand(1);
   app.set_version_flag("--version", "godwit 0.1.0");
   auto locate = godwit::add_locate_command(app);
+  auto reconcile = godwit::add_reconcile_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -18,6 +20,7 @@ int main(int argc, char** argv) {
   }
   try {
     if (app.got_subcommand("locate")) return locate();
+    if (app.got_subcommand("reconcile")) return reconcile();
   } catch (const std::exception& e) {
     std::cerr << "godwit: internal error: " << e.what() << "\n";
     return 70;

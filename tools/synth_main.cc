@@ -1,9 +1,11 @@
 // godwit-synth: writes the project's own synthetic audio.
 //
 //   godwit-synth demo --out DIR
-//     The demo scenario: masters of a fictional station's spots in
-//     DIR/library, a few minutes of its aircheck in DIR/airchecks, and the
-//     truth (where each spot was planted) in DIR/truth.json.
+//     The demo scenario: masters of a fictional station's spots (with
+//     sidecar metadata and two sibling versions) in DIR/library, 14 minutes
+//     of its morning in three aircheck files in DIR/airchecks, the planned
+//     log with deliberate discrepancies in DIR/schedules, and the truth
+//     (what aired, the verdicts expected) in DIR/truth.json.
 #include <CLI/CLI.hpp>
 #include <nlohmann/json.hpp>
 
@@ -11,7 +13,10 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <map>
 
+#include "godwit/analysis_stream.h"
+#include "godwit/civil_time.h"
 #include "synth.h"
 
 namespace fs = std::filesystem;
@@ -19,69 +24,158 @@ using namespace godwit;
 
 namespace {
 
-struct DemoSpot {
+constexpr double kRate = 44100;
+
+// Speech from espeak-ng when it is installed (a clearer demo for a person
+// listening), else the project's own formant voice.
+Samples speech(const std::string& text, double duration_s, uint64_t seed, const fs::path& tmp) {
+  const std::string wav = (tmp / ("speech-" + std::to_string(seed) + ".wav")).string();
+  const std::string cmd = "espeak-ng -v en -s 165 -w '" + wav + "' \"" + text + "\" >/dev/null 2>&1";
+  Samples out;
+  if (std::system(cmd.c_str()) == 0) {
+    if (auto src = open_audio_file(wav); src) {
+      if (auto all = decode_all(*src.value(), kRate); all) out = std::move(all.value());
+    }
+    fs::remove(wav);
+  }
+  if (out.empty()) out = synth::voice(duration_s, kRate, seed);
+  out.resize(static_cast<size_t>(duration_s * kRate), 0.0f);
+  synth::set_rms(out, 0.1);
+  return out;
+}
+
+struct SpotDef {
   const char* id;
   double duration_s;
-  uint64_t seed;
+  uint64_t bed_seed;
+  const char* line;      // main voice
+  const char* tag;       // closing tag (siblings differ here), may be empty
+  double tag_at_s;
+  const char* title;
+  const char* advertiser;
+  const char* family;
 };
 
-// Kestrel FM, a fictional community station, and its advertisers.
-constexpr DemoSpot kSpots[] = {
-    {"marlow-bakery", 20.0, 11},
-    {"tidewater-tyres", 30.0, 12},
-    {"pellham-garden-centre", 15.0, 13},
-    {"kestrel-fm-id", 5.0, 14},
+// Kestrel FM, a fictional community station, and its (fictional) advertisers.
+const SpotDef kSpots[] = {
+    {"marlow-bakery", 20, 11, "Fresh bread every morning at Marlow Bakery on Quay Street. Try the seeded rye.", "", 0,
+     "Morning loaves", "Marlow Bakery", ""},
+    {"tidewater-tyres-spring", 30, 12,
+     "Tidewater Tyres. Four new tyres fitted and balanced while you wait, at the roundabout on Ferry Road.",
+     "Spring offer ends this Sunday.", 24, "Spring offer", "Tidewater Tyres", "tidewater-tyres"},
+    {"tidewater-tyres-summer", 30, 12,
+     "Tidewater Tyres. Four new tyres fitted and balanced while you wait, at the roundabout on Ferry Road.",
+     "Summer prices start in June.", 24, "Summer offer", "Tidewater Tyres", "tidewater-tyres"},
+    {"pellham-garden-centre", 15, 13, "Pellham Garden Centre. Seedlings, compost and good advice, open daily.", "", 0,
+     "Seedlings", "Pellham Garden Centre", ""},
+    {"kestrel-fm-id", 5, 14, "Kestrel F M. Your harbour, your music.", "", 0, "Station ID", "Kestrel FM", ""},
+    {"harbour-lights-cinema", 30, 15, "This week at the Harbour Lights Cinema: three premieres and a silent film night.",
+     "", 0, "Weekly listings", "Harbour Lights Cinema", ""},
 };
 
-struct Plant {
+struct Airing {
   const char* id;
-  double offset_s;
+  double at_s;        // seconds after 06:00:00
   double gain_db;
   int polarity;
+  double cut_after_s; // 0: complete
 };
 
-constexpr Plant kPlants[] = {
-    {"marlow-bakery", 37.25, 0.0, 1},
-    {"tidewater-tyres", 92.5, -3.0, 1},
-    {"pellham-garden-centre", 150.125, -1.5, 1},
-    {"marlow-bakery", 201.0, -6.0, 1},
-    {"kestrel-fm-id", 262.0, 0.0, -1},
+// What went to air. Each line's comment says what the planned log expects.
+const Airing kAired[] = {
+    {"marlow-bakery", 37.25, 0, 1, 0},            // S001 aired (+7.25 s)
+    {"tidewater-tyres-summer", 92.5, -3, 1, 0},   // S002 wrong_version (spring was ordered)
+    {"pellham-garden-centre", 150.125, -1.5, 1, 0},  // S003 late (+30.125 s, window 30 s)
+    {"marlow-bakery", 292.0, -2, 1, 0},           // S004 aired, across the 06:05 file boundary
+    {"kestrel-fm-id", 422.0, 0, -1, 0},           // S006 aired, polarity inverted
+    {"tidewater-tyres-spring", 480.5, 0, 1, 15},  // S007 partial (cut after 15 of 30 s)
+    {"pellham-garden-centre", 550.0, 0, 1, 0},    // unscheduled
+    {"marlow-bakery", 640.0, 0, 1, 0},            // S009 early (-80 s)
 };
+
+const char* kPlannedLog =
+    "slot,spot,planned,window_s\n"
+    "S001,marlow-bakery,2026-03-14T06:00:30,60\n"
+    "S002,tidewater-tyres-spring,2026-03-14T06:01:30,60\n"
+    "S003,pellham-garden-centre,2026-03-14T06:02:00,30\n"
+    "S004,marlow-bakery,2026-03-14T06:04:50,60\n"
+    "S005,harbour-lights-cinema,2026-03-14T06:06:00,60\n"
+    "S006,kestrel-fm-id,2026-03-14T06:07:00,120\n"
+    "S007,tidewater-tyres-spring,2026-03-14T06:08:00,60\n"
+    "S008,marlow-bakery,2026-03-14T25:00:00,60\n"
+    "S009,marlow-bakery,2026-03-14T06:12:00,60\n";
+
+const char* kExpected[][2] = {{"S001", "aired"}, {"S002", "wrong_version"}, {"S003", "late"}, {"S004", "aired"},
+                              {"S005", "missing"}, {"S006", "aired"}, {"S007", "partial"}, {"S009", "early"}};
 
 int make_demo(const fs::path& out) {
-  const double rate = 44100;
   fs::create_directories(out / "library");
   fs::create_directories(out / "airchecks");
+  fs::create_directories(out / "schedules");
   std::map<std::string, Samples> masters;
   for (const auto& s : kSpots) {
-    Samples x = synth::spot(s.duration_s, rate, s.seed);
-    synth::set_rms(x, 0.12);
+    Samples bed = synth::music(s.duration_s, kRate, s.bed_seed);
+    synth::set_rms(bed, 0.06);
+    Samples v = speech(s.line, s.tag[0] ? s.tag_at_s : s.duration_s, s.bed_seed * 10, out);
+    synth::mix_into(bed, v, static_cast<size_t>(0.3 * kRate), 1.0);
+    if (s.tag[0]) {
+      Samples t = speech(s.tag, s.duration_s - s.tag_at_s, std::hash<std::string>{}(s.tag), out);
+      synth::mix_into(bed, t, static_cast<size_t>(s.tag_at_s * kRate), 1.0);
+    }
+    bed.resize(static_cast<size_t>(s.duration_s * kRate));
+    synth::set_rms(bed, 0.12);
     const auto path = (out / "library" / (std::string(s.id) + ".wav")).string();
-    if (auto err = synth::write_audio(path, synth::to_stereo(x), 2, rate); !err.empty()) {
+    if (auto err = synth::write_audio(path, synth::to_stereo(bed), 2, kRate); !err.empty()) {
       std::cerr << "godwit-synth: " << err << "\n";
       return 1;
     }
-    masters[s.id] = std::move(x);
+    nlohmann::json meta{{"title", s.title}, {"advertiser", s.advertiser}};
+    if (s.family[0]) meta["family"] = s.family;
+    std::ofstream(out / "library" / (std::string(s.id) + ".meta.json")) << meta.dump(2) << "\n";
+    masters[s.id] = std::move(bed);
   }
-  const double length_s = 300;
-  Samples air = synth::programme(length_s, rate, 2026);
+  // 14 minutes of programme from 06:00:00, cut into three files.
+  const double length_s = 840;
+  Samples air = synth::programme(length_s, kRate, 2026);
   nlohmann::json truth = nlohmann::json::array();
-  for (const auto& p : kPlants) {
-    const Samples& m = masters[p.id];
-    const size_t at = static_cast<size_t>(std::llround(p.offset_s * rate));
-    // The spot replaces the programme for its duration, as on air.
-    for (size_t i = 0; i < m.size() && at + i < air.size(); ++i) air[at + i] = 0;
-    synth::mix_into(air, m, at, p.polarity * std::pow(10.0, p.gain_db / 20.0));
-    truth.push_back({{"template", p.id}, {"offset_s", static_cast<double>(at) / rate}, {"polarity", p.polarity}});
+  for (const auto& a : kAired) {
+    const Samples& m = masters[a.id];
+    const size_t at = static_cast<size_t>(std::llround(a.at_s * kRate));
+    const size_t len = a.cut_after_s > 0 ? static_cast<size_t>(a.cut_after_s * kRate) : m.size();
+    for (size_t i = 0; i < len && at + i < air.size(); ++i)
+      air[at + i] = static_cast<float>(a.polarity * std::pow(10.0, a.gain_db / 20.0) * m[i]);
+    truth.push_back({{"spot", a.id},
+                     {"aired", format_iso8601_local(parse_iso8601_local("2026-03-14T06:00:00").value() +
+                                                        static_cast<double>(at) / kRate, 6)},
+                     {"polarity", a.polarity},
+                     {"coverage", static_cast<double>(len) / static_cast<double>(m.size())}});
   }
   Samples noise = synth::white_noise(air.size(), synth::rms(air) * std::pow(10.0, -30.0 / 20.0), 7);
   for (size_t i = 0; i < air.size(); ++i) air[i] += noise[i];
-  const auto rec = (out / "airchecks" / "kestrel-fm-20260314T060000.flac").string();
-  if (auto err = synth::write_audio(rec, synth::to_stereo(air, 0.95), 2, rate); !err.empty()) {
-    std::cerr << "godwit-synth: " << err << "\n";
-    return 1;
+  nlohmann::json files = nlohmann::json::array();
+  const struct { const char* name; double from_s, to_s; } kFiles[] = {
+      {"kestrel-fm-20260314T060000.flac", 0, 300},
+      {"kestrel-fm-20260314T060500.flac", 300, 600},
+      {"kestrel-fm-20260314T061000.flac", 600, 840}};
+  for (const auto& f : kFiles) {
+    Samples part(air.begin() + static_cast<long>(f.from_s * kRate), air.begin() + static_cast<long>(f.to_s * kRate));
+    const auto rec = (out / "airchecks" / f.name).string();
+    if (auto err = synth::write_audio(rec, synth::to_stereo(part, 0.95), 2, kRate); !err.empty()) {
+      std::cerr << "godwit-synth: " << err << "\n";
+      return 1;
+    }
+    files.push_back(rec);
   }
-  std::ofstream(out / "truth.json") << nlohmann::json{{"recording", rec}, {"plants", truth}}.dump(2) << "\n";
+  std::ofstream(out / "schedules" / "kestrel-fm-2026-03-14.csv") << kPlannedLog;
+  nlohmann::json expected = nlohmann::json::object();
+  for (const auto& e : kExpected) expected[e[0]] = e[1];
+  std::ofstream(out / "truth.json") << nlohmann::json{{"recordings", files},
+                                                      {"airings", truth},
+                                                      {"expected_verdicts", expected},
+                                                      {"expected_unscheduled", {"pellham-garden-centre"}},
+                                                      {"expected_bad_log_lines", {9}}}
+                                           .dump(2)
+                                    << "\n";
   std::cerr << "godwit-synth: demo written to " << out.string() << "\n";
   return 0;
 }

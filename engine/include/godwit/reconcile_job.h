@@ -1,0 +1,92 @@
+// A reconcile job: prove the day's placements aired as ordered.
+//
+// Recordings get their wall-clock start from their file name (pattern,
+// civil_time.h) or explicitly; consecutive files form a timeline
+// (timeline.h) and each run of contiguous files is searched as one stream,
+// so spots straddling file boundaries are found. Every detection is
+// verified (verifier.h: coverage, missing parts), sibling detections of one
+// airing are resolved to a version (families.h), and placements get
+// verdicts (reconciler.h).
+//
+// Thread contract: as run_locate.
+#pragma once
+
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "godwit/families.h"
+#include "godwit/job.h"
+#include "godwit/planned_log.h"
+#include "godwit/reconciler.h"
+#include "godwit/timeline.h"
+#include "godwit/verifier.h"
+
+namespace godwit {
+
+struct SpotMeta {
+  std::string title, advertiser, family;
+};
+
+struct RecordingInput {
+  std::string path;
+  std::optional<LocalSeconds> start_s;  // empty: from the file name
+};
+
+struct ReconcileJob {
+  std::vector<std::string> masters;
+  std::map<std::string, SpotMeta> meta;  // by spot id (optional)
+  std::vector<RecordingInput> recordings;
+  PlannedLog log;
+};
+
+struct ReconcileOptions {
+  LocateOptions locate;
+  std::string name_pattern = "%Y%m%dT%H%M%S";  // Default: 20260314T060000 anywhere in the name
+  double timeline_tolerance_s = 0.5;
+  VerifyOptions verify;
+  FamilyOptions families;
+  VerdictOptions verdicts;
+};
+
+struct VersionScore {
+  std::string spot;
+  double score = 0;  // mean segment score over its distinguishing segments
+};
+
+struct AiringRecord {
+  std::string spot;       // detected version
+  std::string recording;  // file where the airing starts
+  double offset_s = 0;    // within that file
+  LocalSeconds aired_s = 0;
+  double score = 0;
+  int polarity = 1;
+  double coverage = 0;
+  std::vector<std::pair<double, double>> missing_s;
+  std::vector<VersionScore> versions;  // when siblings competed
+  Profile profile;
+};
+
+struct RecordingStatus {
+  std::string path;
+  std::optional<LocalSeconds> start_s;
+  double duration_s = 0;
+  double native_rate_hz = 0;
+  std::optional<Error> error;
+};
+
+struct ReconcileResult {
+  std::vector<Placement> placements;
+  std::vector<Verdict> verdicts;        // one per placement
+  std::vector<AiringRecord> airings;    // every verified airing, by time
+  std::vector<size_t> unscheduled;      // indices into airings
+  std::vector<LogProblem> log_problems;
+  std::vector<TimelineIssue> timeline_issues;
+  std::vector<RecordingStatus> recordings;
+  std::vector<std::vector<std::string>> families;  // sibling groups of 2 or more
+};
+
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options);
+
+}  // namespace godwit

@@ -1,0 +1,29 @@
+// Documents of a reconciliation: JSON (other tools read it; keep the
+// names) and CSV (one row per placement, then one per unscheduled airing).
+//
+// JSON: {"placements": [{"slot", "spot", "planned", "window_s", "status",
+//                        and when an airing was assigned: "aired", "deviation_s",
+//                        "score", "coverage", "detected_spot", "recording",
+//                        "offset_s", "polarity", "missing": [[from_s, to_s]],
+//                        "versions": [{"spot", "score"}]}],
+//        "unscheduled": [{"spot", "aired", "score", "coverage", "recording", "offset_s", "polarity"}],
+//        "summary": {"aired": n, "early": n, ..., "unscheduled": n},
+//        "recordings": [...], "timeline_issues": [...], "log_problems": [...],
+//        "families": [[ids]], "cautions": [text]}
+// Times are ISO 8601 local with milliseconds.
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <string>
+
+#include "godwit/reconcile_job.h"
+
+namespace godwit {
+
+nlohmann::json reconcile_to_json(const ReconcileResult& r);
+std::string reconcile_to_csv(const ReconcileResult& r);
+
+// The cautions every report carries.
+extern const char* const kEvidenceCaution;
+
+}  // namespace godwit

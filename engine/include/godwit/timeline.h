@@ -1,0 +1,53 @@
+// Timeline: consecutive airchecks of one station on the wall clock.
+//
+// Each file has a start (from its name or given) and a duration. Sorted by
+// start, consecutive files whose boundary lies within `tolerance_s` of each
+// other form a run: a run is searched as one continuous stream, so a spot
+// that straddles the boundary between two hour files is found. A larger gap
+// ends the run and is reported; an overlap is reported too, and the later
+// file's first `overlap_s` are skipped so no audio is searched twice.
+//
+// Thread contract: plain functions and values.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "godwit/civil_time.h"
+
+namespace godwit {
+
+struct TimelineFile {
+  std::string path;
+  LocalSeconds start_s = 0;
+  double duration_s = 0;
+  double native_rate_hz = 0;
+  double skip_s = 0;  // leading audio already covered by the previous file
+};
+
+struct TimelineRun {
+  std::vector<TimelineFile> files;  // consecutive, same native rate
+  LocalSeconds start_s() const { return files.front().start_s + files.front().skip_s; }
+};
+
+struct TimelineIssue {
+  enum class Kind { gap, overlap, rate_change };
+  Kind kind = Kind::gap;
+  std::string before;  // file that ends
+  std::string after;   // file that starts
+  LocalSeconds at_s = 0;
+  double seconds = 0;  // length of the gap or overlap
+};
+
+struct Timeline {
+  std::vector<TimelineRun> runs;
+  std::vector<TimelineIssue> issues;
+};
+
+// Default tolerance: 0.5 s (a logger's file boundaries jitter by a few
+// hundred milliseconds; common practice, not a standard).
+Timeline build_timeline(std::vector<TimelineFile> files, double tolerance_s = 0.5);
+
+const char* timeline_issue_name(TimelineIssue::Kind kind);
+
+}  // namespace godwit

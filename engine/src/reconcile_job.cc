@@ -1,0 +1,254 @@
+#include "godwit/reconcile_job.h"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <set>
+
+#include "godwit/analysis_stream.h"
+#include "godwit/concat_source.h"
+#include "godwit/resampler.h"
+
+namespace godwit {
+namespace {
+
+constexpr const char* kRunPrefix = "run:";
+
+// Frames of a source, decoding it when the container does not say.
+Result<int64_t> count_frames(AudioSource& src) {
+  if (src.info().native_frames) return *src.info().native_frames;
+  Samples buf(1 << 16);
+  int64_t n = 0;
+  for (;;) {
+    auto got = src.read(buf.data(), buf.size());
+    if (!got) return got.error();
+    if (got.value() == 0) return n;
+    n += static_cast<int64_t>(got.value());
+  }
+}
+
+struct Detection {
+  size_t master = 0;
+  size_t run = 0;
+  double run_offset_s = 0;
+  Match match;
+  std::string file;
+  double file_offset_s = 0;
+  LocalSeconds aired_s = 0;
+  Profile profile;
+};
+
+}  // namespace
+
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+  ReconcileResult res;
+  res.placements = job.log.placements;
+  res.log_problems = job.log.problems;
+  const SourceOpener& base = o.locate.opener;
+
+  // 1. Recordings: start, length, rate.
+  std::vector<TimelineFile> files;
+  for (const auto& r : job.recordings) {
+    RecordingStatus st;
+    st.path = r.path;
+    st.start_s = r.start_s ? r.start_s : time_from_name(std::filesystem::path(r.path).filename().string(), o.name_pattern);
+    auto src = base(r.path, o.locate.channel);
+    if (!src) {
+      st.error = src.error();
+    } else if (!st.start_s) {
+      st.error = Error{ErrorCode::usage, "no start time: the name does not match '" + o.name_pattern +
+                                             "' and none was given", r.path, std::nullopt};
+    } else {
+      auto frames = count_frames(*src.value());
+      st.native_rate_hz = src.value()->info().native_rate_hz;
+      if (!frames) {
+        st.error = frames.error();
+      } else if (frames.value() == 0) {
+        st.error = Error{ErrorCode::empty, "recording holds no audio", r.path, std::nullopt};
+      } else {
+        st.duration_s = static_cast<double>(frames.value()) / st.native_rate_hz;
+        files.push_back({r.path, *st.start_s, st.duration_s, st.native_rate_hz, 0});
+      }
+    }
+    if (st.error && o.locate.on_diagnostic) o.locate.on_diagnostic(st.error->describe());
+    res.recordings.push_back(std::move(st));
+  }
+  Timeline timeline = build_timeline(files, o.timeline_tolerance_s);
+  res.timeline_issues = timeline.issues;
+
+  // 2. Locate over runs, each one stream.
+  auto run_parts = [&](size_t i) {
+    std::vector<ConcatPart> parts;
+    for (const auto& f : timeline.runs[i].files)
+      parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz)});
+    return parts;
+  };
+  LocateOptions lo = o.locate;
+  lo.opener = [&, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
+    if (path.rfind(kRunPrefix, 0) != 0) return base(path, choice);
+    const size_t i = std::stoul(path.substr(4));
+    auto c = ConcatSource::open(path, run_parts(i), base, choice);
+    if (!c) return c.error();
+    return SourcePtr(std::move(c.value()));
+  };
+  LocateJob lj;
+  lj.templates = job.masters;
+  for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(kRunPrefix + std::to_string(i));
+  std::vector<Match> matches;
+  std::vector<TemplateReport> templates;
+  if (!lj.recordings.empty()) {
+    auto located = run_locate(lj, lo);
+    if (!located) return located.error();
+    matches = std::move(located.value().matches);
+    templates = std::move(located.value().templates);
+    for (size_t i = 0; i < located.value().recordings.size(); ++i) {
+      const auto& rr = located.value().recordings[i];
+      if (!rr.error) continue;
+      // Attach a run's failure to the file where it happened.
+      const auto& run = timeline.runs[i];
+      std::string where = run.files.front().path;
+      if (rr.error->offset_s) {
+        double t = *rr.error->offset_s;
+        for (const auto& f : run.files) {
+          where = f.path;
+          if (t < f.duration_s - f.skip_s) break;
+          t -= f.duration_s - f.skip_s;
+        }
+      }
+      for (auto& st : res.recordings)
+        if (st.path == where && !st.error) st.error = rr.error;
+    }
+  } else {
+    for (const auto& m : job.masters) templates.push_back({template_id_for(m), m, 0, 0});
+  }
+
+  // 3. Masters at the analysis rate: families.
+  std::vector<std::string> ids;
+  std::vector<Samples> analysis;
+  std::map<size_t, std::string> declared;
+  for (size_t i = 0; i < job.masters.size(); ++i) {
+    ids.push_back(template_id_for(job.masters[i]));
+    auto src = base(job.masters[i], ChannelChoice{});
+    if (!src) return src.error();
+    auto s = decode_all(*src.value(), o.locate.analysis_rate_hz);
+    if (!s) return s.error();
+    analysis.push_back(std::move(s.value()));
+    if (auto it = job.meta.find(ids.back()); it != job.meta.end() && !it->second.family.empty())
+      declared[i] = it->second.family;
+  }
+  FamilyOptions fo = o.families;
+  fo.segment_s = o.verify.segment_s;
+  const Families fam = find_families(ids, analysis, o.locate.analysis_rate_hz, declared, fo);
+  analysis.clear();
+  {
+    std::map<size_t, std::vector<std::string>> groups;
+    for (size_t i = 0; i < ids.size(); ++i) groups[fam.family_of[i]].push_back(ids[i]);
+    for (auto& [f, g] : groups)
+      if (g.size() > 1) res.families.push_back(g);
+  }
+  std::map<std::string, size_t> index_of;
+  for (size_t i = 0; i < ids.size(); ++i) index_of[ids[i]] = i;
+
+  // 4. Verify each detection at the native rate.
+  std::vector<Detection> dets;
+  std::map<std::pair<size_t, double>, Samples> native_master;
+  for (const auto& m : matches) {
+    Detection d;
+    d.master = index_of.at(m.template_id);
+    d.run = std::stoul(m.recording.substr(4));
+    d.match = m;
+    auto src_r = lo.opener(m.recording, o.locate.channel);
+    if (!src_r) continue;
+    auto* concat = dynamic_cast<ConcatSource*>(src_r.value().get());
+    const double rate = src_r.value()->info().native_rate_hz;
+    auto key = std::make_pair(d.master, rate);
+    if (!native_master.count(key)) {
+      auto ms = base(job.masters[d.master], ChannelChoice{});
+      if (!ms) continue;
+      auto s = decode_all(*ms.value(), rate);
+      if (!s) continue;
+      native_master[key] = std::move(s.value());
+    }
+    const Samples& master = native_master[key];
+    const int64_t at = std::llround(m.offset_s * rate);
+    Samples span(master.size());
+    size_t got = 0;
+    if (src_r.value()->seek(at)) {
+      while (got < span.size()) {
+        auto r = src_r.value()->read(span.data() + got, span.size() - got);
+        if (!r || r.value() == 0) break;
+        got += r.value();
+      }
+    }
+    span.resize(got);
+    d.profile = verify_airing(master, span, rate, m.polarity, o.verify);
+    const auto [part, frame] = concat->locate(m.offset_s * rate);
+    const auto& f = timeline.runs[d.run].files[part];
+    d.file = f.path;
+    d.file_offset_s = frame / rate;
+    d.aired_s = f.start_s + d.file_offset_s;
+    dets.push_back(std::move(d));
+  }
+  std::sort(dets.begin(), dets.end(), [](const Detection& a, const Detection& b) { return a.aired_s < b.aired_s; });
+
+  // 5. One airing per group of overlapping sibling detections.
+  std::vector<bool> taken(dets.size(), false);
+  for (size_t i = 0; i < dets.size(); ++i) {
+    if (taken[i]) continue;
+    std::vector<size_t> group{i};
+    taken[i] = true;
+    const double len_i = static_cast<double>(templates[dets[i].master].duration_s);
+    for (size_t j = i + 1; j < dets.size(); ++j) {
+      if (taken[j] || !fam.siblings(dets[i].master, dets[j].master)) continue;
+      const double len = std::min(len_i, templates[dets[j].master].duration_s);
+      if (std::fabs(dets[j].aired_s - dets[i].aired_s) > 0.5 * len) continue;
+      if (std::any_of(group.begin(), group.end(), [&](size_t g) { return dets[g].master == dets[j].master; })) continue;
+      group.push_back(j);
+      taken[j] = true;
+    }
+    size_t win = group[0];
+    AiringRecord a;
+    if (group.size() > 1) {
+      double best = -2;
+      for (size_t g : group) {
+        std::vector<size_t> others;
+        for (size_t h : group)
+          if (h != g) others.push_back(dets[h].master);
+        const double s = mean_over(dets[g].profile, fam.distinguishing(dets[g].master, others));
+        a.versions.push_back({ids[dets[g].master], s});
+        if (s > best || (s == best && std::fabs(dets[g].match.score) > std::fabs(dets[win].match.score))) {
+          best = s;
+          win = g;
+        }
+      }
+    }
+    const Detection& d = dets[win];
+    a.spot = ids[d.master];
+    a.recording = d.file;
+    a.offset_s = d.file_offset_s;
+    a.aired_s = d.aired_s;
+    a.score = d.match.score;
+    a.polarity = d.match.polarity;
+    a.coverage = d.profile.coverage;
+    a.missing_s = d.profile.missing_s;
+    a.profile = d.profile;
+    res.airings.push_back(std::move(a));
+  }
+
+  // 6. Verdicts.
+  std::vector<AiringRef> refs;
+  for (const auto& a : res.airings) refs.push_back({a.spot, a.aired_s, a.coverage});
+  auto siblings = [&](const std::string& x, const std::string& y) {
+    auto ix = index_of.find(x), iy = index_of.find(y);
+    return ix != index_of.end() && iy != index_of.end() && fam.siblings(ix->second, iy->second);
+  };
+  Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts);
+  res.verdicts = std::move(rec.verdicts);
+  res.unscheduled = std::move(rec.unscheduled);
+  for (const auto& p : res.placements)
+    if (!index_of.count(p.spot))
+      res.log_problems.push_back({p.line, "spot '" + p.spot + "' is not in the library; the slot can only be missing"});
+  return res;
+}
+
+}  // namespace godwit

@@ -1,0 +1,78 @@
+#include "godwit/verifier.h"
+
+#include <algorithm>
+#include <cmath>
+
+namespace godwit {
+namespace {
+
+double pearson(const float* a, const float* b, size_t n) {
+  double sa = 0, sb = 0;
+  for (size_t i = 0; i < n; ++i) {
+    sa += a[i];
+    sb += b[i];
+  }
+  const double ma = sa / static_cast<double>(n), mb = sb / static_cast<double>(n);
+  double dot = 0, ea = 0, eb = 0;
+  for (size_t i = 0; i < n; ++i) {
+    const double x = a[i] - ma, y = b[i] - mb;
+    dot += x * y;
+    ea += x * x;
+    eb += y * y;
+  }
+  // -70 dBFS RMS floor on both: silence gives no evidence either way.
+  const double floor = 1e-7 * static_cast<double>(n);
+  if (!(ea > floor) || !(eb > floor)) return 0.0;
+  return std::clamp(dot / std::sqrt(ea * eb), -1.0, 1.0);
+}
+
+}  // namespace
+
+Profile verify_airing(const Samples& master, const Samples& airing, double rate_hz, int polarity,
+                      const VerifyOptions& o) {
+  Profile p;
+  p.segment_s = o.segment_s;
+  const size_t seg = std::max<size_t>(16, static_cast<size_t>(o.segment_s * rate_hz));
+  const size_t n_seg = (master.size() + seg - 1) / seg;
+  for (size_t s = 0; s < n_seg; ++s) {
+    const size_t a = s * seg, b = std::min(master.size(), a + seg);
+    double r = 0;
+    if (b <= airing.size() && b - a >= 16) r = polarity * pearson(master.data() + a, airing.data() + a, b - a);
+    p.scores.push_back(static_cast<float>(r));
+  }
+  std::vector<float> sorted = p.scores;
+  std::sort(sorted.begin(), sorted.end());
+  const float p90 = sorted.empty() ? 0.0f : sorted[std::min(sorted.size() - 1, sorted.size() * 9 / 10)];
+  const double thr = std::max(o.min_segment_score, o.relative * p90);
+  double aired_frames = 0;
+  for (size_t s = 0; s < n_seg; ++s) {
+    const bool ok = p.scores[s] >= thr;
+    p.aired.push_back(ok);
+    const size_t a = s * seg, b = std::min(master.size(), a + seg);
+    if (ok) {
+      aired_frames += static_cast<double>(b - a);
+    } else {
+      const double from = static_cast<double>(a) / rate_hz, to = static_cast<double>(b) / rate_hz;
+      if (!p.missing_s.empty() && std::fabs(p.missing_s.back().second - from) < 1e-9)
+        p.missing_s.back().second = to;
+      else
+        p.missing_s.emplace_back(from, to);
+    }
+  }
+  p.coverage = master.empty() ? 0.0 : aired_frames / static_cast<double>(master.size());
+  return p;
+}
+
+double mean_over(const Profile& profile, const std::vector<bool>& which) {
+  double sum = 0;
+  size_t n = 0;
+  for (size_t i = 0; i < profile.scores.size(); ++i) {
+    if (!which.empty() && (i >= which.size() || !which[i])) continue;
+    sum += profile.scores[i];
+    ++n;
+  }
+  if (n == 0) return which.empty() ? 0.0 : mean_over(profile, {});
+  return sum / static_cast<double>(n);
+}
+
+}  // namespace godwit

@@ -1,0 +1,164 @@
+#include "reconcile_command.h"
+
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+
+#include "atomic_file.h"
+#include "engine_options.h"
+#include "godwit/reconcile_job.h"
+#include "godwit/reconcile_report.h"
+#include "library_scan.h"
+#include "spot_metadata.h"
+
+namespace godwit {
+namespace {
+
+struct ReconcileArgs {
+  std::string library;
+  std::string schedule;
+  std::vector<std::string> recordings;
+  std::string out;
+  std::vector<std::string> formats{"json", "csv"};
+  double window_s = 60;
+  double partial_below = 0.9;
+  double horizon_s = 3600;
+  std::string name_pattern = "%Y%m%dT%H%M%S";
+  std::string start;
+  EngineArgs engine;
+};
+
+void print_table(const ReconcileResult& r) {
+  std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6s %6s\n", "slot", "spot", "planned", "status", "aired",
+              "dev_s", "score", "cover");
+  for (const auto& v : r.verdicts) {
+    const Placement& p = r.placements[v.placement];
+    if (v.airing) {
+      const AiringRecord& a = r.airings[*v.airing];
+      std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %6.2f%s\n", p.slot.c_str(), p.spot.c_str(),
+                  p.planned.c_str(), verdict_name(v.status), format_iso8601_local(a.aired_s, 3).c_str(),
+                  v.deviation_s, a.score, a.coverage,
+                  a.spot != p.spot ? ("  aired: " + a.spot).c_str() : "");
+    } else {
+      std::printf("%-10s %-26s %-19s %-13s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
+                  verdict_name(v.status));
+    }
+  }
+  for (size_t i : r.unscheduled) {
+    const AiringRecord& a = r.airings[i];
+    std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6.3f %6.2f\n", "-", a.spot.c_str(), "-", "unscheduled",
+                format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage);
+  }
+}
+
+int run(const ReconcileArgs& a) {
+  auto fail = [](const Error& e) {
+    std::cerr << "godwit: " << e.describe() << "\n";
+    return exit_code(e.code);
+  };
+  ReconcileJob job;
+  auto masters = scan_library(a.library);
+  if (!masters) return fail(masters.error());
+  job.masters = masters.value();
+  std::vector<std::string> problems;
+  job.meta = load_spot_metadata(job.masters, problems);
+  for (const auto& p : problems) warn(p);
+
+  std::ifstream in(a.schedule, std::ios::binary);
+  if (!in) return fail({ErrorCode::not_found, "cannot open the planned log", a.schedule, {}});
+  std::ostringstream text;
+  text << in.rdbuf();
+  auto log = parse_planned_log(text.str(), a.window_s);
+  if (!log) {
+    Error e = log.error();
+    e.path = a.schedule;
+    return fail(e);
+  }
+  job.log = std::move(log.value());
+  for (const auto& p : job.log.problems)
+    warn(a.schedule + ":" + std::to_string(p.line) + ": " + p.reason + " (row skipped)");
+
+  if (!a.start.empty() && a.recordings.size() != 1)
+    return fail({ErrorCode::usage, "--start applies to a single --recording; name files with their start time", "", {}});
+  for (const auto& r : a.recordings) {
+    RecordingInput ri{r, std::nullopt};
+    if (!a.start.empty()) {
+      ri.start_s = parse_iso8601_local(a.start);
+      if (!ri.start_s) return fail({ErrorCode::usage, "--start is not an ISO 8601 local date-time", "", {}});
+    }
+    job.recordings.push_back(ri);
+  }
+
+  ReconcileOptions o;
+  EngineSetup setup;
+  if (auto msg = setup.configure(a.engine, o.locate); !msg.empty()) return fail({ErrorCode::usage, msg, "", {}});
+  o.name_pattern = a.name_pattern;
+  o.verdicts.partial_below = a.partial_below;
+  o.verdicts.horizon_s = a.horizon_s;
+  auto result = run_reconcile(job, o);
+  setup.finish();
+  if (!result) {
+    if (result.error().code == ErrorCode::cancelled) {
+      std::cerr << "godwit: interrupted; no output written\n";
+      return exit_code(ErrorCode::cancelled);
+    }
+    return fail(result.error());
+  }
+  const ReconcileResult& r = result.value();
+  std::error_code ec;
+  std::filesystem::create_directories(a.out, ec);
+  if (ec) return fail({ErrorCode::io, "cannot create the output folder: " + ec.message(), a.out, {}});
+  for (const auto& f : a.formats) {
+    const std::string path = (std::filesystem::path(a.out) / ("reconcile." + f)).string();
+    const std::string doc = f == "csv" ? reconcile_to_csv(r) : reconcile_to_json(r).dump(2) + "\n";
+    if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
+  }
+  print_table(r);
+  size_t failed = 0;
+  for (const auto& s : r.recordings) failed += s.error ? 1 : 0;
+  for (const auto& t : r.timeline_issues)
+    warn(std::string("timeline ") + timeline_issue_name(t.kind) + " of " + std::to_string(t.seconds) + " s between " +
+         t.before + " and " + t.after);
+  if (!a.engine.quiet) std::cerr << "godwit: report written to " << a.out << "\n" << kEvidenceCaution << "\n";
+  if (!r.recordings.empty() && failed == r.recordings.size()) return 3;
+  return failed ? 4 : 0;
+}
+
+}  // namespace
+
+std::function<int()> add_reconcile_command(CLI::App& app) {
+  auto a = std::make_shared<ReconcileArgs>();
+  auto* cmd = app.add_subcommand("reconcile", "give each planned placement a verdict from the airchecks");
+  cmd->description(
+      "Locate the library's masters in the airchecks (consecutive files form one timeline; spots across\n"
+      "file boundaries are found), verify each airing (coverage, version among siblings), and give each\n"
+      "placement of the planned log a verdict: aired, early, late, missing, partial or wrong_version;\n"
+      "airings matching no placement are listed as unscheduled. Writes OUT/reconcile.json and\n"
+      "OUT/reconcile.csv and prints the verdicts. Detections are evidence to verify by listening.");
+  cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
+  cmd->add_option("--schedule,-s", a->schedule, "planned log CSV: slot,spot,planned,window_s")->required();
+  cmd->add_option("--recording,-r", a->recordings, "airchecks, start time in the file name")->required();
+  cmd->add_option("--out,-o", a->out, "output folder (created if needed)")->required();
+  cmd->add_option("--format", a->formats, "documents to write: json, csv (default both)")
+      ->check(CLI::IsMember({"json", "csv"}))
+      ->delimiter(',');
+  cmd->add_option("--window-s", a->window_s, "allowed deviation when a row leaves window_s empty (default 60)")
+      ->check(CLI::Range(0.0, 86400.0));
+  cmd->add_option("--partial-below", a->partial_below, "coverage under this is a partial airing (default 0.9)")
+      ->check(CLI::Range(0.0, 1.0));
+  cmd->add_option("--horizon-s", a->horizon_s,
+                  "airings farther than this from a placement are not its (default 3600)")
+      ->check(CLI::Range(0.0, 7 * 86400.0));
+  cmd->add_option("--name-pattern", a->name_pattern,
+                  "where file names carry the start: %Y %m %d %H %M %S (default %Y%m%dT%H%M%S)");
+  cmd->add_option("--start", a->start, "start of a single recording (ISO 8601 local), instead of its name");
+  add_engine_options(cmd, a->engine);
+  cmd->footer(
+      "Exit codes: 0 done; 2 usage error (bad log header, options); 3 a master or every recording could\n"
+      "not be read; 4 done, but some recording failed; 5 a report could not be written; 130 interrupted.");
+  return [a]() -> int { return run(*a); };
+}
+
+}  // namespace godwit
