@@ -40,7 +40,7 @@ void print_table(const ReconcileResult& r) {
       std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %6.2f%s\n", p.slot.c_str(), p.spot.c_str(),
                   p.planned.c_str(), verdict_name(v.status), format_iso8601_local(a.aired_s, 3).c_str(),
                   v.deviation_s, a.score, a.coverage,
-                  a.spot != p.spot ? ("  aired: " + a.spot).c_str() : "");
+                  reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "");
     } else {
       std::printf("%-10s %-26s %-19s %-13s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
                   verdict_name(v.status));

@@ -3,10 +3,11 @@
 #include <cmath>
 #include <cstdio>
 
+#include "json_number.h"
+
 namespace godwit {
 namespace {
 
-double round_to(double v, double step) { return std::round(v / step) * step; }
 
 std::string csv_field(const std::string& s) {
   if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
@@ -23,7 +24,7 @@ std::string csv_field(const std::string& s) {
 nlohmann::json error_to_json(const Error& e) {
   nlohmann::json j{{"code", std::string(wire_name(e.code))}, {"message", e.message}};
   if (!e.path.empty()) j["path"] = e.path;
-  if (e.offset_s) j["offset_s"] = round_to(*e.offset_s, 1e-3);
+  if (e.offset_s) j["offset_s"] = detail::round_decimals(*e.offset_s, 3);
   return j;
 }
 
@@ -33,13 +34,13 @@ nlohmann::json locate_to_json(const LocateResult& r) {
   j["complete"] = r.complete();
   j["templates"] = nlohmann::json::array();
   for (const auto& t : r.templates)
-    j["templates"].push_back({{"id", t.id}, {"path", t.path}, {"duration_s", round_to(t.duration_s, 1e-6)},
+    j["templates"].push_back({{"id", t.id}, {"path", t.path}, {"duration_s", detail::round_decimals(t.duration_s, 6)},
                               {"fft_size", t.fft_size}});
   j["recordings"] = nlohmann::json::array();
   for (const auto& rec : r.recordings) {
     nlohmann::json x{{"path", rec.path},
                      {"format", rec.format},
-                     {"duration_s", round_to(rec.duration_s, 1e-6)},
+                     {"duration_s", detail::round_decimals(rec.duration_s, 6)},
                      {"native_rate_hz", rec.native_rate_hz},
                      {"channels", rec.channels}};
     if (rec.error) x["error"] = error_to_json(*rec.error);
@@ -49,8 +50,8 @@ nlohmann::json locate_to_json(const LocateResult& r) {
   for (const auto& m : r.matches)
     j["matches"].push_back({{"template", m.template_id},
                             {"recording", m.recording},
-                            {"offset_s", round_to(m.offset_s, 1e-6)},
-                            {"score", round_to(m.score, 1e-4)},
+                            {"offset_s", detail::round_decimals(m.offset_s, 6)},
+                            {"score", detail::round_decimals(m.score, 4)},
                             {"polarity", m.polarity},
                             {"refined", m.refined}});
   return j;

@@ -222,6 +222,18 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
         }
       }
     }
+    if (group.size() > 1) {
+      std::vector<double> sc;
+      for (const auto& v : a.versions) sc.push_back(v.score);
+      const double best = *std::max_element(sc.begin(), sc.end());
+      if (best < o.verify.min_segment_score) {
+        for (const auto& v : a.versions) a.undetermined_among.push_back(v.spot);
+      } else {
+        for (const auto& v : a.versions)
+          if (best - v.score < o.version_margin) a.undetermined_among.push_back(v.spot);
+        if (a.undetermined_among.size() < 2) a.undetermined_among.clear();
+      }
+    }
     const Detection& d = dets[win];
     a.spot = ids[d.master];
     a.recording = d.file;
@@ -237,7 +249,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 
   // 6. Verdicts.
   std::vector<AiringRef> refs;
-  for (const auto& a : res.airings) refs.push_back({a.spot, a.aired_s, a.coverage});
+  for (const auto& a : res.airings) refs.push_back({a.spot, a.aired_s, a.coverage, a.undetermined_among});
   auto siblings = [&](const std::string& x, const std::string& y) {
     auto ix = index_of.find(x), iy = index_of.find(y);
     return ix != index_of.end() && iy != index_of.end() && fam.siblings(ix->second, iy->second);

@@ -1,7 +1,10 @@
 #include "godwit/reconcile_report.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
+
+#include "json_number.h"
 
 #include "godwit/locate_report.h"
 
@@ -13,25 +16,25 @@ const char* const kEvidenceCaution =
 
 namespace {
 
-double round_to(double v, double step) { return std::round(v / step) * step; }
 
 nlohmann::json airing_fields(const AiringRecord& a) {
   nlohmann::json j{{"aired", format_iso8601_local(a.aired_s, 3)},
-                   {"score", round_to(a.score, 1e-4)},
-                   {"coverage", round_to(a.coverage, 1e-3)},
+                   {"score", detail::round_decimals(a.score, 4)},
+                   {"coverage", detail::round_decimals(a.coverage, 3)},
                    {"recording", a.recording},
-                   {"offset_s", round_to(a.offset_s, 1e-6)},
+                   {"offset_s", detail::round_decimals(a.offset_s, 6)},
                    {"polarity", a.polarity}};
   nlohmann::json missing = nlohmann::json::array();
-  for (const auto& [from, to] : a.missing_s) missing.push_back({round_to(from, 1e-3), round_to(to, 1e-3)});
+  for (const auto& [from, to] : a.missing_s) missing.push_back({detail::round_decimals(from, 3), detail::round_decimals(to, 3)});
   j["missing"] = missing;
+  if (!a.undetermined_among.empty()) j["version_undetermined_among"] = a.undetermined_among;
   if (!a.versions.empty()) {
     nlohmann::json v = nlohmann::json::array();
-    for (const auto& s : a.versions) v.push_back({{"spot", s.spot}, {"score", round_to(s.score, 1e-4)}});
+    for (const auto& s : a.versions) v.push_back({{"spot", s.spot}, {"score", detail::round_decimals(s.score, 4)}});
     j["versions"] = v;
   }
   nlohmann::json prof = nlohmann::json::array();
-  for (float s : a.profile.scores) prof.push_back(round_to(s, 1e-3));
+  for (float s : a.profile.scores) prof.push_back(detail::round_decimals(s, 3));
   j["profile"] = {{"segment_s", a.profile.segment_s}, {"scores", prof}};
   return j;
 }
@@ -48,6 +51,12 @@ std::string csv_field(const std::string& s) {
 
 }  // namespace
 
+const std::string& reported_spot(const AiringRecord& a, const Placement& p) {
+  const bool fits = std::find(a.undetermined_among.begin(), a.undetermined_among.end(), p.spot) !=
+                    a.undetermined_among.end();
+  return fits ? p.spot : a.spot;
+}
+
 nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   nlohmann::json j;
   nlohmann::json summary = {{"aired", 0}, {"early", 0}, {"late", 0}, {"missing", 0}, {"partial", 0}, {"wrong_version", 0}};
@@ -60,8 +69,8 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
       x.update(airing_fields(a));
-      x["deviation_s"] = round_to(v.deviation_s, 1e-3);
-      x["detected_spot"] = a.spot;
+      x["deviation_s"] = detail::round_decimals(v.deviation_s, 3);
+      x["detected_spot"] = reported_spot(a, p);
     }
     j["placements"].push_back(std::move(x));
   }
@@ -75,7 +84,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   j["summary"] = summary;
   j["recordings"] = nlohmann::json::array();
   for (const auto& s : r.recordings) {
-    nlohmann::json x{{"path", s.path}, {"duration_s", round_to(s.duration_s, 1e-6)}, {"native_rate_hz", s.native_rate_hz}};
+    nlohmann::json x{{"path", s.path}, {"duration_s", detail::round_decimals(s.duration_s, 6)}, {"native_rate_hz", s.native_rate_hz}};
     if (s.start_s) x["start"] = format_iso8601_local(*s.start_s, 3);
     if (s.error) x["error"] = error_to_json(*s.error);
     j["recordings"].push_back(std::move(x));
@@ -83,7 +92,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   j["timeline_issues"] = nlohmann::json::array();
   for (const auto& t : r.timeline_issues)
     j["timeline_issues"].push_back({{"kind", timeline_issue_name(t.kind)}, {"before", t.before}, {"after", t.after},
-                                    {"at", format_iso8601_local(t.at_s, 3)}, {"seconds", round_to(t.seconds, 1e-3)}});
+                                    {"at", format_iso8601_local(t.at_s, 3)}, {"seconds", detail::round_decimals(t.seconds, 3)}});
   j["log_problems"] = nlohmann::json::array();
   for (const auto& p : r.log_problems) j["log_problems"].push_back({{"line", p.line}, {"reason", p.reason}});
   j["families"] = r.families;
@@ -100,7 +109,7 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
       std::snprintf(num, sizeof num, ",%.3f,%.4f,%.3f,", v.deviation_s, a.score, a.coverage);
-      out += format_iso8601_local(a.aired_s, 3) + num + csv_field(a.spot) + "," + csv_field(a.recording);
+      out += format_iso8601_local(a.aired_s, 3) + num + csv_field(reported_spot(a, p)) + "," + csv_field(a.recording);
       std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
       out += num;
     } else {

@@ -34,7 +34,8 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
     const Placement& pl = placements[p];
     for (size_t a = 0; a < airings.size(); ++a) {
       const AiringRef& ar = airings[a];
-      const bool same = ar.spot == pl.spot;
+      const bool same = ar.spot == pl.spot || std::find(ar.undetermined_among.begin(), ar.undetermined_among.end(),
+                                                         pl.spot) != ar.undetermined_among.end();
       if (!same && !(siblings && siblings(pl.spot, ar.spot))) continue;
       const double dev = ar.aired_s - pl.planned_s;
       if (std::fabs(dev) > std::max(o.horizon_s, pl.window_s)) continue;

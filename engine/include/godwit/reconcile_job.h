@@ -48,6 +48,9 @@ struct ReconcileOptions {
   VerifyOptions verify;
   FamilyOptions families;
   VerdictOptions verdicts;
+  // Versions are told apart only when the best distinguishing score leads
+  // the next by this much and reaches verify.min_segment_score.
+  double version_margin = 0.1;
 };
 
 struct VersionScore {
@@ -65,6 +68,9 @@ struct AiringRecord {
   double coverage = 0;
   std::vector<std::pair<double, double>> missing_s;
   std::vector<VersionScore> versions;  // when siblings competed
+  // The distinguishing audio did not air or scored alike for several
+  // siblings: these all fit, and `spot` is only the first of them.
+  std::vector<std::string> undetermined_among;
   Profile profile;
 };
 

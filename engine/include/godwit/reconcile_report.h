@@ -23,6 +23,10 @@ namespace godwit {
 nlohmann::json reconcile_to_json(const ReconcileResult& r);
 std::string reconcile_to_csv(const ReconcileResult& r);
 
+// The spot to report as detected for a placement: the placement's own when
+// the airing's version is undetermined among siblings that include it.
+const std::string& reported_spot(const AiringRecord& airing, const Placement& placement);
+
 // The cautions every report carries.
 extern const char* const kEvidenceCaution;
 

@@ -9,7 +9,7 @@
 // serves at most one placement.
 //
 // Verdict of a placement with an airing, first that applies:
-//   wrong_version  the airing is a sibling's
+//   wrong_version  the airing is a sibling's (and not undetermined among them)
 //   partial        coverage < partial_below
 //   early / late   deviation outside -window_s .. +window_s
 //   aired
@@ -34,6 +34,10 @@ struct AiringRef {
   std::string spot;        // the version detected
   LocalSeconds aired_s = 0;
   double coverage = 1.0;
+  // When the audio that tells siblings apart did not air (a cut-off
+  // airing), every sibling that fits equally: the airing counts as the
+  // same spot for a placement of any of them.
+  std::vector<std::string> undetermined_among;
 };
 
 struct VerdictOptions {
