@@ -2,16 +2,13 @@
 
 #include <cstdio>
 #include <filesystem>
-#include <fstream>
 #include <iostream>
-#include <sstream>
 
 #include "atomic_file.h"
 #include "engine_options.h"
 #include "godwit/reconcile_job.h"
 #include "godwit/reconcile_report.h"
-#include "library_scan.h"
-#include "spot_metadata.h"
+#include "reconcile_inputs.h"
 
 namespace godwit {
 namespace {
@@ -58,38 +55,11 @@ int run(const ReconcileArgs& a) {
     std::cerr << "godwit: " << e.describe() << "\n";
     return exit_code(e.code);
   };
-  ReconcileJob job;
-  auto masters = scan_library(a.library);
-  if (!masters) return fail(masters.error());
-  job.masters = masters.value();
-  std::vector<std::string> problems;
-  job.meta = load_spot_metadata(job.masters, problems);
-  for (const auto& p : problems) warn(p);
-
-  std::ifstream in(a.schedule, std::ios::binary);
-  if (!in) return fail({ErrorCode::not_found, "cannot open the planned log", a.schedule, {}});
-  std::ostringstream text;
-  text << in.rdbuf();
-  auto log = parse_planned_log(text.str(), a.window_s);
-  if (!log) {
-    Error e = log.error();
-    e.path = a.schedule;
-    return fail(e);
-  }
-  job.log = std::move(log.value());
-  for (const auto& p : job.log.problems)
-    warn(a.schedule + ":" + std::to_string(p.line) + ": " + p.reason + " (row skipped)");
-
-  if (!a.start.empty() && a.recordings.size() != 1)
-    return fail({ErrorCode::usage, "--start applies to a single --recording; name files with their start time", "", {}});
-  for (const auto& r : a.recordings) {
-    RecordingInput ri{r, std::nullopt};
-    if (!a.start.empty()) {
-      ri.start_s = parse_iso8601_local(a.start);
-      if (!ri.start_s) return fail({ErrorCode::usage, "--start is not an ISO 8601 local date-time", "", {}});
-    }
-    job.recordings.push_back(ri);
-  }
+  std::vector<std::string> warnings;
+  auto job_r = load_reconcile_job({a.library, a.schedule, a.recordings, a.window_s, a.start}, warnings);
+  for (const auto& w : warnings) warn(w);
+  if (!job_r) return fail(job_r.error());
+  const ReconcileJob& job = job_r.value();
 
   ReconcileOptions o;
   EngineSetup setup;

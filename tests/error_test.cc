@@ -7,7 +7,9 @@ using namespace godwit;
 TEST_CASE("each error code has a distinct wire name and a documented exit code") {
   const ErrorCode all[] = {ErrorCode::usage, ErrorCode::not_found, ErrorCode::unreadable, ErrorCode::unsupported,
                            ErrorCode::empty, ErrorCode::corrupt, ErrorCode::io, ErrorCode::cancelled,
-                           ErrorCode::invalid_template, ErrorCode::internal};
+                           ErrorCode::invalid_template, ErrorCode::forbidden, ErrorCode::busy,
+                           ErrorCode::unavailable, ErrorCode::not_found_job, ErrorCode::bad_request,
+                           ErrorCode::too_large, ErrorCode::internal};
   for (auto a : all)
     for (auto b : all)
       if (a != b) CHECK(wire_name(a) != wire_name(b));

@@ -23,6 +23,12 @@ constexpr CodeRow kRows[] = {
     {ErrorCode::io, "io", 5},
     {ErrorCode::cancelled, "cancelled", 130},
     {ErrorCode::invalid_template, "invalid_template", 3},
+    {ErrorCode::forbidden, "forbidden", 6},
+    {ErrorCode::busy, "busy", 7},
+    {ErrorCode::unavailable, "unavailable", 7},
+    {ErrorCode::not_found_job, "unknown_job", 6},
+    {ErrorCode::bad_request, "bad_request", 6},
+    {ErrorCode::too_large, "too_large", 6},
     {ErrorCode::internal, "internal", 70},
 };
 

@@ -23,6 +23,12 @@ enum class ErrorCode {
   io,                // an operating-system error while reading or writing
   cancelled,         // the caller asked to stop
   invalid_template,  // a master that cannot serve as a template (too short, silent)
+  forbidden,         // a path outside the daemon's roots, or a missing or wrong token
+  busy,              // the daemon's queue is full: retry later
+  unavailable,       // the daemon is shutting down, or cannot be reached
+  not_found_job,     // no such job
+  bad_request,       // malformed JSON, unknown op, missing or mistyped field
+  too_large,         // a request line, inline spot or job over its limit
   internal,          // a bug: please report it
 };
 

@@ -1,0 +1,86 @@
+#include "daemon_config.h"
+
+#include <toml++/toml.h>
+
+#include <filesystem>
+
+namespace godwit {
+
+Status load_daemon_config(const std::string& path, DaemonConfig& c) {
+  if (!std::filesystem::exists(path)) return Error{ErrorCode::not_found, "no such config file", path, std::nullopt};
+  toml::table t;
+  try {
+    t = toml::parse_file(path);
+  } catch (const toml::parse_error& e) {
+    return Error{ErrorCode::usage,
+                 std::string(e.description()) + " (line " + std::to_string(e.source().begin.line) + ")", path,
+                 std::nullopt};
+  }
+  std::string bad;
+  auto str = [&](const toml::node_view<toml::node> n, std::string& out, const char* key) {
+    if (!n) return;
+    if (auto v = n.value<std::string>()) out = *v;
+    else bad = key;
+  };
+  auto num = [&](const toml::node_view<toml::node> n, auto& out, const char* key) {
+    if (!n) return;
+    if (auto v = n.value<double>()) out = static_cast<std::decay_t<decltype(out)>>(*v);
+    else bad = key;
+  };
+  str(t["listen"], c.listen, "listen");
+  str(t["state_dir"], c.state_dir, "state_dir");
+  str(t["library"], c.library, "library");
+  str(t["drop"], c.drop, "drop");
+  str(t["token_file"], c.token_file, "token_file");
+  str(t["log_level"], c.log_level, "log_level");
+  str(t["planner"], c.planner, "planner");
+  num(t["workers"], c.workers, "workers");
+  num(t["threads_per_job"], c.threads_per_job, "threads_per_job");
+  if (auto roots = t["roots"].as_array()) {
+    c.roots.clear();
+    for (auto& r : *roots)
+      if (auto v = r.value<std::string>()) c.roots.push_back(*v);
+      else bad = "roots";
+  }
+  num(t["limits"]["max_line_bytes"], c.max_line_bytes, "limits.max_line_bytes");
+  num(t["limits"]["max_connections"], c.max_connections, "limits.max_connections");
+  num(t["limits"]["idle_timeout_s"], c.idle_timeout_s, "limits.idle_timeout_s");
+  num(t["limits"]["read_timeout_s"], c.read_timeout_s, "limits.read_timeout_s");
+  num(t["limits"]["max_queued"], c.max_queued, "limits.max_queued");
+  num(t["limits"]["max_templates"], c.max_templates, "limits.max_templates");
+  num(t["limits"]["max_recording_h"], c.max_recording_h, "limits.max_recording_h");
+  num(t["limits"]["max_inline_mb"], c.max_inline_mb, "limits.max_inline_mb");
+  num(t["drop_folder"]["poll_s"], c.drop_poll_s, "drop_folder.poll_s");
+  num(t["drop_folder"]["stable_s"], c.drop_stable_s, "drop_folder.stable_s");
+  if (auto n = t["drop_folder"]["use_inotify"]) {
+    if (auto v = n.value<bool>()) c.drop_inotify = *v;
+    else bad = "drop_folder.use_inotify";
+  }
+  if (!bad.empty()) return Error{ErrorCode::usage, "key '" + bad + "' has the wrong type", path, std::nullopt};
+  return ok_status();
+}
+
+bool split_host_port(const std::string& s, std::string& host, unsigned short& port) {
+  std::string p;
+  if (!s.empty() && s[0] == '[') {
+    const auto close = s.find(']');
+    if (close == std::string::npos || close + 1 >= s.size() || s[close + 1] != ':') return false;
+    host = s.substr(1, close - 1);
+    p = s.substr(close + 2);
+  } else {
+    const auto colon = s.rfind(':');
+    if (colon == std::string::npos) return false;
+    host = s.substr(0, colon);
+    p = s.substr(colon + 1);
+  }
+  try {
+    const long v = std::stol(p);
+    if (v < 0 || v > 65535) return false;
+    port = static_cast<unsigned short>(v);
+  } catch (const std::exception&) {
+    return false;
+  }
+  return !host.empty();
+}
+
+}  // namespace godwit

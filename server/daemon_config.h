@@ -1,0 +1,45 @@
+// godwitd's configuration: a TOML file (config/godwitd.toml documents every
+// key), each key overridable on the command line.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "godwit/error.h"
+
+namespace godwit {
+
+struct DaemonConfig {
+  std::string listen = "127.0.0.1:7878";
+  std::string state_dir = "/var/lib/godwit";
+  std::vector<std::string> roots;
+  std::string library;
+  std::string drop;
+  size_t workers = 1;
+  int threads_per_job = 1;
+  std::string token_file;
+  std::string log_level = "info";
+  std::string planner = "measure";
+  // limits
+  size_t max_line_bytes = 1 << 20;
+  size_t max_connections = 64;
+  double idle_timeout_s = 300;
+  double read_timeout_s = 10;
+  size_t max_queued = 100;
+  size_t max_templates = 500;
+  double max_recording_h = 168;
+  size_t max_inline_mb = 16;
+  // drop folder
+  double drop_poll_s = 2;
+  double drop_stable_s = 5;
+  bool drop_inotify = true;
+};
+
+// Reads `path` over the defaults in `cfg`. Errors: not_found, usage (TOML
+// syntax or a key of the wrong type, with its line).
+Status load_daemon_config(const std::string& path, DaemonConfig& cfg);
+
+// "HOST:PORT" or "[V6]:PORT".
+bool split_host_port(const std::string& s, std::string& host, unsigned short& port);
+
+}  // namespace godwit

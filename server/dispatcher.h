@@ -1,0 +1,54 @@
+// Dispatcher: one request line in, one response object out. Knows no
+// sockets: the session frames lines and writes what this returns.
+//
+// Requests: {"op": "...", "id": any (echoed), "token": "..." (when required), ...}
+//   submit {job}            -> {"ok":true,"job":"<id>"}          errors: bad_request, forbidden, busy, too_large, ...
+//   status {job}            -> {"ok":true,"job","state","progress", "error"?}
+//   result {job}            -> {"ok":true,"job","result":{...}}  (job done)
+//   cancel {job}            -> {"ok":true,"job","cancelled":true}
+//   jobs   {state?}         -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}]}
+//   watch  {job?}           -> {"ok":true,"watching":"<id>"|"all"}, then events on the connection
+//   health                  -> {"ok":true,"version","uptime_s","queued","running","workers"}
+// Errors: {"ok":false,"error":{"code","message"}}.
+//
+// Thread contract: safe for concurrent use.
+#pragma once
+
+#include <chrono>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <string_view>
+
+#include "job_runner.h"
+#include "job_store.h"
+
+namespace godwit {
+
+struct Reply {
+  nlohmann::json response;
+  bool watch = false;
+  std::string watch_job;  // empty: all jobs
+};
+
+class Dispatcher {
+ public:
+  Dispatcher(JobStore& store, const JobRunner& runner, size_t workers);
+  // Empty token: none required.
+  void set_token(std::string token);
+  Reply handle(std::string_view line) const;
+  static nlohmann::json error_response(ErrorCode code, const std::string& message);
+
+ private:
+  Reply handle_op(const nlohmann::json& req) const;
+  JobStore& store_;
+  const JobRunner& runner_;
+  size_t workers_;
+  std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
+  mutable std::mutex token_mu_;
+  std::string token_;  // GUARDED_BY(token_mu_)
+};
+
+bool constant_time_equal(std::string_view a, std::string_view b);
+
+}  // namespace godwit

@@ -1,0 +1,161 @@
+#include "drop_folder.h"
+
+#include <poll.h>
+#include <spdlog/spdlog.h>
+#include <sys/inotify.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <filesystem>
+#include <set>
+
+#include "atomic_file.h"
+#include "godwit/locate_report.h"
+#include "library_scan.h"
+
+namespace godwit {
+namespace fs = std::filesystem;
+
+namespace {
+
+struct Seen {
+  uintmax_t size = 0;
+  fs::file_time_type mtime;
+  std::chrono::steady_clock::time_point since;
+};
+
+}  // namespace
+
+DropFolder::DropFolder(DropOptions options, const JobRunner& runner) : o_(std::move(options)), runner_(runner) {}
+
+DropFolder::~DropFolder() { stop(); }
+
+Status DropFolder::start() {
+  std::error_code ec;
+  for (const char* sub : {"incoming", "work", "results", "done", "failed"}) {
+    fs::create_directories(fs::path(o_.dir) / sub, ec);
+    if (ec) return Error{ErrorCode::io, "cannot create the drop folder: " + ec.message(), o_.dir, std::nullopt};
+  }
+  if (o_.use_inotify) {
+    inotify_fd_ = inotify_init1(IN_NONBLOCK | IN_CLOEXEC);
+    if (inotify_fd_ >= 0 &&
+        inotify_add_watch(inotify_fd_, (fs::path(o_.dir) / "incoming").c_str(), IN_CLOSE_WRITE | IN_MOVED_TO) < 0) {
+      ::close(inotify_fd_);
+      inotify_fd_ = -1;
+    }
+    if (inotify_fd_ < 0) spdlog::warn("drop folder: inotify unavailable, polling every {} s", o_.poll_s);
+  }
+  thread_ = std::thread([this] { loop(); });
+  return ok_status();
+}
+
+void DropFolder::stop() {
+  stop_ = true;
+  if (thread_.joinable()) thread_.join();
+  if (inotify_fd_ >= 0) ::close(inotify_fd_);
+  inotify_fd_ = -1;
+}
+
+void DropFolder::loop() {
+  const fs::path incoming = fs::path(o_.dir) / "incoming", work = fs::path(o_.dir) / "work";
+  // Claimed before a crash: run again.
+  std::error_code ec;
+  for (fs::directory_iterator it(work, ec), end; !ec && it != end && !stop_; it.increment(ec))
+    if (it->is_regular_file()) process(it->path().filename().string());
+
+  std::map<std::string, Seen> seen;
+  std::set<std::string> ready;
+  while (!stop_) {
+    if (inotify_fd_ >= 0) {
+      pollfd p{inotify_fd_, POLLIN, 0};
+      if (::poll(&p, 1, static_cast<int>(std::min(o_.poll_s, 0.5) * 1000)) > 0) {
+        alignas(inotify_event) char buf[8192];
+        ssize_t n;
+        while ((n = ::read(inotify_fd_, buf, sizeof buf)) > 0) {
+          for (char* q = buf; q < buf + n;) {
+            auto* ev = reinterpret_cast<inotify_event*>(q);
+            if (ev->len) ready.insert(ev->name);
+            q += sizeof(inotify_event) + ev->len;
+          }
+        }
+      }
+    } else {
+      std::this_thread::sleep_for(std::chrono::milliseconds(static_cast<int>(o_.poll_s * 1000)));
+    }
+    const auto now = std::chrono::steady_clock::now();
+    std::set<std::string> present;
+    for (fs::directory_iterator it(incoming, ec), end; !ec && it != end; it.increment(ec)) {
+      if (!it->is_regular_file(ec)) continue;
+      const std::string name = it->path().filename().string();
+      if (name.empty() || name[0] == '.') continue;  // temporaries of atomic writers
+      present.insert(name);
+      const auto size = it->file_size(ec);
+      const auto mtime = it->last_write_time(ec);
+      auto s = seen.find(name);
+      if (s == seen.end() || s->second.size != size || s->second.mtime != mtime) {
+        seen[name] = {size, mtime, now};
+        continue;
+      }
+      if (std::chrono::duration<double>(now - s->second.since).count() >= o_.stable_s) ready.insert(name);
+    }
+    for (auto it = seen.begin(); it != seen.end();) it = present.count(it->first) ? std::next(it) : seen.erase(it);
+    for (const auto& name : ready) {
+      if (stop_) break;
+      if (!present.count(name)) continue;
+      std::error_code rc;
+      fs::rename(incoming / name, work / name, rc);  // the claim
+      if (rc) {
+        spdlog::warn("drop folder: cannot claim {}: {}", name, rc.message());
+        continue;
+      }
+      seen.erase(name);
+      process(name);
+    }
+    ready.clear();
+  }
+}
+
+void DropFolder::process(const std::string& name) {
+  const fs::path base(o_.dir);
+  const std::string path = (base / "work" / name).string();
+  spdlog::info("drop folder: processing {}", name);
+  Result<nlohmann::json> doc = Error{ErrorCode::internal, "not run", path, std::nullopt};
+  auto lib = scan_library(runner_.config().default_library);
+  if (!lib) {
+    doc = lib.error();
+  } else {
+    nlohmann::json spec{{"kind", "locate"}, {"templates", lib.value()}, {"recordings", {path}}};
+    doc = runner_.run(spec, [](double) {}, [this] { return stop_.load(); },
+                      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); });
+  }
+  std::error_code ec;
+  if (!doc && doc.error().code == ErrorCode::cancelled) return;  // stays in work/ for the next start
+  bool failed = !doc;
+  std::string reason;
+  if (doc) {
+    // A recording that broke part way is a failure for the drop folder too.
+    for (const auto& r : doc.value().value("recordings", nlohmann::json::array()))
+      if (r.contains("error")) {
+        failed = true;
+        reason = r["error"].value("message", "");
+      }
+  }
+  if (doc) {
+    if (auto st = write_file_atomically((base / "results" / (name + ".json")).string(), doc.value().dump(2) + "\n"); !st) {
+      failed = true;
+      reason = st.error().describe();
+    }
+  }
+  if (!failed) {
+    fs::rename(path, base / "done" / name, ec);
+    spdlog::info("drop folder: {} done", name);
+    return;
+  }
+  nlohmann::json err = doc ? nlohmann::json{{"code", "corrupt"}, {"message", reason}} : error_to_json(doc.error());
+  err["file"] = name;
+  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), err.dump(2) + "\n");
+  fs::rename(path, base / "failed" / name, ec);
+  spdlog::warn("drop folder: {} failed: {}", name, err.value("message", ""));
+}
+
+}  // namespace godwit

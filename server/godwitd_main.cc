@@ -1,0 +1,198 @@
+// godwitd: the daemon. JSON Lines over TCP (PROTOCOL.md), a job journal,
+// a worker pool, and the drop folder.
+#include <spdlog/sinks/stdout_color_sinks.h>
+#include <spdlog/spdlog.h>
+
+#include <CLI/CLI.hpp>
+#include <utility>  // before Asio: Boost 1.74 awaitable.hpp uses std::exchange without it
+#include <boost/asio.hpp>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+
+#include "cache_dir.h"
+#include "daemon_config.h"
+#include "dispatcher.h"
+#include "drop_folder.h"
+#include "job_runner.h"
+#include "job_store.h"
+#include "path_guard.h"
+#include "server.h"
+#include "worker_pool.h"
+
+using namespace godwit;
+
+namespace {
+
+std::string read_token(const std::string& path, std::string& err) {
+  if (path.empty()) return {};
+  std::ifstream in(path);
+  if (!in) {
+    err = "cannot read the token file " + path;
+    return {};
+  }
+  std::string t;
+  std::getline(in, t);
+  while (!t.empty() && (t.back() == '\r' || t.back() == ' ')) t.pop_back();
+  if (t.size() < 16) err = "the token in " + path + " is shorter than 16 characters";
+  return t;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  CLI::App app{"godwitd: the godwit daemon (JSON Lines over TCP, drop folder)"};
+  std::string config_path;
+  DaemonConfig cfg;
+  app.add_option("--config,-c", config_path, "TOML configuration (see config/godwitd.toml)");
+  // Overrides: parsed after the file is read.
+  std::string listen, state_dir, library, drop, token_file, log_level;
+  std::vector<std::string> roots;
+  size_t workers = 0;
+  double stable_s = -1, poll_s = -1;
+  bool no_inotify = false;
+  std::string planner;
+  app.add_option("--listen", listen, "HOST:PORT to listen on (default 127.0.0.1:7878; [::1]:PORT for IPv6)");
+  app.add_option("--state-dir", state_dir, "journal, results, inline spots, FFTW wisdom");
+  app.add_option("--root", roots, "a folder requests may read (repeatable); paths elsewhere are forbidden");
+  app.add_option("--library", library, "default library of masters (and the drop folder's)");
+  app.add_option("--drop", drop, "drop folder (incoming, work, results, done, failed)");
+  app.add_option("--workers", workers, "jobs run at once (default 1)");
+  app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
+  app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
+  app.add_option("--planner", planner, "FFTW planning: measure or estimate");
+  app.add_option("--drop-stable-s", stable_s, "polling: a file is complete when unchanged this long (default 5)");
+  app.add_option("--drop-poll-s", poll_s, "drop folder polling period (default 2)");
+  app.add_flag("--no-inotify", no_inotify, "poll the drop folder instead of using inotify (network shares)");
+  CLI11_PARSE(app, argc, argv);
+
+  auto apply_overrides = [&](DaemonConfig& c) {
+    if (!listen.empty()) c.listen = listen;
+    if (!state_dir.empty()) c.state_dir = state_dir;
+    if (!roots.empty()) c.roots = roots;
+    if (!library.empty()) c.library = library;
+    if (!drop.empty()) c.drop = drop;
+    if (workers) c.workers = workers;
+    if (!token_file.empty()) c.token_file = token_file;
+    if (!log_level.empty()) c.log_level = log_level;
+    if (!planner.empty()) c.planner = planner;
+    if (stable_s >= 0) c.drop_stable_s = stable_s;
+    if (poll_s > 0) c.drop_poll_s = poll_s;
+    if (no_inotify) c.drop_inotify = false;
+  };
+  if (!config_path.empty()) {
+    if (auto st = load_daemon_config(config_path, cfg); !st) {
+      std::cerr << "godwitd: " << st.error().describe() << "\n";
+      return 2;
+    }
+  }
+  apply_overrides(cfg);
+  // Logs go to stderr; stdout carries only the machine-readable first line.
+  spdlog::set_default_logger(spdlog::stderr_color_mt("godwitd"));
+  spdlog::set_level(spdlog::level::from_str(cfg.log_level));
+
+  std::string host;
+  unsigned short port = 0;
+  if (!split_host_port(cfg.listen, host, port)) {
+    std::cerr << "godwitd: --listen must be HOST:PORT, got '" << cfg.listen << "'\n";
+    return 2;
+  }
+  boost::system::error_code ec;
+  const auto address = boost::asio::ip::make_address(host, ec);
+  if (ec) {
+    std::cerr << "godwitd: not an IP address: " << host << "\n";
+    return 2;
+  }
+  std::string token_err;
+  std::string token = read_token(cfg.token_file, token_err);
+  if (!token_err.empty()) {
+    std::cerr << "godwitd: " << token_err << "\n";
+    return 2;
+  }
+  if (!address.is_loopback() && token.empty()) {
+    std::cerr << "godwitd: listening on " << host << " (beyond loopback) needs --token-file\n";
+    return 2;
+  }
+  if (cfg.roots.empty() && !cfg.library.empty()) cfg.roots.push_back(cfg.library);
+
+  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued);
+  if (!store_r) {
+    std::cerr << "godwitd: " << store_r.error().describe() << "\n";
+    return 5;
+  }
+  JobStore& store = *store_r.value();
+  FftCache cache(cfg.state_dir, [](std::string_view s) { spdlog::warn("{}", s); });
+  PathGuard guard(cfg.roots);
+  RunnerConfig rc;
+  rc.default_library = cfg.library;
+  rc.inline_dir = cfg.state_dir + "/inline";
+  rc.max_templates = cfg.max_templates;
+  rc.max_recording_s = cfg.max_recording_h * 3600;
+  rc.max_inline_bytes = cfg.max_inline_mb << 20;
+  rc.threads_per_job = cfg.threads_per_job;
+  rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
+  rc.costs = cache.load();
+  JobRunner runner(rc, guard);
+  Dispatcher dispatcher(store, runner, cfg.workers);
+  dispatcher.set_token(token);
+
+  boost::asio::io_context io;
+  std::unique_ptr<Server> server;
+  try {
+    server = std::make_unique<Server>(io, boost::asio::ip::tcp::endpoint(address, port), dispatcher, store,
+                                      ServerLimits{cfg.max_line_bytes, cfg.max_connections, cfg.idle_timeout_s,
+                                                   cfg.read_timeout_s});
+  } catch (const std::exception& e) {
+    std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
+    return 5;
+  }
+  WorkerPool pool(store, runner, cfg.workers);
+  std::unique_ptr<DropFolder> dropper;
+  if (!cfg.drop.empty()) {
+    dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify},
+                                           runner);
+    if (auto st = dropper->start(); !st) {
+      std::cerr << "godwitd: " << st.error().describe() << "\n";
+      return 5;
+    }
+  }
+  // Machine-readable first line for supervisors and tests.
+  std::cout << nlohmann::json{{"listening", host}, {"port", server->port()}}.dump() << std::endl;
+  spdlog::info("godwitd listening on {}:{} (state {}, {} worker(s), {} root(s))", host, server->port(), cfg.state_dir,
+               cfg.workers, cfg.roots.size());
+
+  boost::asio::signal_set signals(io, SIGTERM, SIGINT, SIGHUP);
+  std::function<void(const boost::system::error_code&, int)> on_signal = [&](const boost::system::error_code& e,
+                                                                            int sig) {
+    if (e) return;
+    if (sig == SIGHUP) {
+      DaemonConfig fresh;
+      if (!config_path.empty()) {
+        if (auto st = load_daemon_config(config_path, fresh); !st) {
+          spdlog::error("reload failed, keeping the old config: {}", st.error().describe());
+          signals.async_wait(on_signal);
+          return;
+        }
+      }
+      apply_overrides(fresh);
+      std::string err;
+      const std::string t = read_token(fresh.token_file, err);
+      if (err.empty()) dispatcher.set_token(t);
+      spdlog::set_level(spdlog::level::from_str(fresh.log_level));
+      spdlog::info("configuration reloaded (token, log level; the library is read afresh for every job)");
+      signals.async_wait(on_signal);
+      return;
+    }
+    spdlog::info("draining: no new connections or jobs; running jobs finish");
+    server->stop_accepting();
+    io.stop();
+  };
+  signals.async_wait(on_signal);
+  io.run();
+  if (dropper) dropper->stop();
+  pool.drain();
+  cache.save(rc.costs);
+  spdlog::info("godwitd stopped");
+  return 0;
+}

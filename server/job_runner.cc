@@ -1,0 +1,191 @@
+#include "job_runner.h"
+
+#include <filesystem>
+#include <random>
+
+#include "atomic_file.h"
+#include "base64.h"
+#include "godwit/job.h"
+#include "godwit/locate_report.h"
+#include "godwit/reconcile_job.h"
+#include "godwit/reconcile_report.h"
+#include "library_scan.h"
+#include "reconcile_inputs.h"
+
+namespace godwit {
+namespace {
+
+Error bad(const std::string& msg) { return Error{ErrorCode::bad_request, msg, "", std::nullopt}; }
+
+Result<std::string> guarded(const PathGuard& g, const nlohmann::json& v, const char* field) {
+  if (!v.is_string()) return bad(std::string("'") + field + "' must be a string path");
+  auto r = g.resolve(v.get<std::string>());
+  if (!r) return Error{ErrorCode::forbidden, "path outside the allowed roots: " + v.get<std::string>(), "", std::nullopt};
+  return *r;
+}
+
+Result<std::vector<std::string>> guarded_list(const PathGuard& g, const nlohmann::json& job, const char* field,
+                                              bool required) {
+  std::vector<std::string> out;
+  if (!job.contains(field)) {
+    if (required) return bad(std::string("'") + field + "' is required");
+    return out;
+  }
+  const auto& a = job[field];
+  if (!a.is_array()) return bad(std::string("'") + field + "' must be an array of paths");
+  for (const auto& v : a) {
+    auto p = guarded(g, v, field);
+    if (!p) return p.error();
+    out.push_back(p.value());
+  }
+  if (required && out.empty()) return bad(std::string("'") + field + "' is empty");
+  return out;
+}
+
+std::string random_name() {
+  std::random_device rd;
+  char buf[24];
+  std::snprintf(buf, sizeof buf, "%08x%08x", rd(), rd());
+  return buf;
+}
+
+Result<double> number_in(const nlohmann::json& job, const char* field, double lo, double hi, double dflt) {
+  if (!job.contains(field)) return dflt;
+  if (!job[field].is_number()) return bad(std::string("'") + field + "' must be a number");
+  const double v = job[field].get<double>();
+  if (!(v >= lo && v <= hi))
+    return bad(std::string("'") + field + "' must lie in " + std::to_string(lo) + ".." + std::to_string(hi));
+  return v;
+}
+
+}  // namespace
+
+Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
+  if (!job.is_object()) return bad("'job' must be an object");
+  const std::string kind = job.value("kind", "");
+  nlohmann::json out{{"kind", kind}};
+  auto recs = guarded_list(guard_, job, "recordings", true);
+  if (!recs) return recs.error();
+  double total_s = 0;
+  for (const auto& r : recs.value()) {
+    auto src = open_audio_file(r);
+    if (!src) return src.error();
+    if (auto d = src.value()->info().duration_s()) total_s += *d;
+  }
+  if (total_s > config_.max_recording_s)
+    return Error{ErrorCode::too_large,
+                 "recordings total " + std::to_string(total_s) + " s, over the limit of " +
+                     std::to_string(config_.max_recording_s) + " s per job",
+                 "", std::nullopt};
+  out["recordings"] = recs.value();
+
+  if (kind == "reconcile") {
+    if (!job.contains("library") || !job.contains("schedule")) return bad("a reconcile job needs 'library' and 'schedule'");
+    auto lib = guarded(guard_, job["library"], "library");
+    if (!lib) return lib.error();
+    auto sched = guarded(guard_, job["schedule"], "schedule");
+    if (!sched) return sched.error();
+    auto w = number_in(job, "window_s", 0, 86400, 60);
+    if (!w) return w.error();
+    out["library"] = lib.value();
+    out["schedule"] = sched.value();
+    out["window_s"] = w.value();
+    return out;
+  }
+  if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
+
+  auto tmpl = guarded_list(guard_, job, "templates", false);
+  if (!tmpl) return tmpl.error();
+  std::vector<std::string> templates = tmpl.value();
+  std::string library;
+  if (job.contains("library")) {
+    auto lib = guarded(guard_, job["library"], "library");
+    if (!lib) return lib.error();
+    library = lib.value();
+  }
+  if (job.contains("inline")) {
+    if (!job["inline"].is_array()) return bad("'inline' must be an array");
+    const std::string dir = config_.inline_dir + "/" + random_name();
+    std::error_code ec;
+    std::filesystem::create_directories(dir, ec);
+    if (ec) return Error{ErrorCode::io, "cannot store inline spots: " + ec.message(), dir, std::nullopt};
+    for (const auto& s : job["inline"]) {
+      if (!s.is_object() || !s.contains("id") || !s["id"].is_string() || !s.contains("audio_base64") ||
+          !s["audio_base64"].is_string())
+        return bad("each inline spot needs 'id' and 'audio_base64' strings");
+      const std::string id = s["id"].get<std::string>();
+      if (id.empty() || id.find_first_of("/\\.") != std::string::npos || id.size() > 128)
+        return bad("inline spot id must be a plain name (no '/', '\\\\' or '.')");
+      const std::string fmt = s.value("format", "wav");
+      if (!has_audio_extension("x." + fmt)) return bad("inline spot format must be wav, flac, ogg, opus or mp3");
+      const auto& b64 = s["audio_base64"].get_ref<const std::string&>();
+      if (b64.size() / 4 * 3 > config_.max_inline_bytes)
+        return Error{ErrorCode::too_large, "inline spot '" + id + "' is over " +
+                                               std::to_string(config_.max_inline_bytes >> 20) + " MiB", "", std::nullopt};
+      auto bytes = base64_decode(b64);
+      if (!bytes) return bad("inline spot '" + id + "' is not valid base64");
+      const std::string path = dir + "/" + id + "." + fmt;
+      if (auto st = write_file_atomically(path, *bytes); !st) return st.error();
+      auto probe = open_audio_file(path);
+      if (!probe) return probe.error();
+      templates.push_back(path);
+    }
+  }
+  if (templates.empty() && library.empty()) library = config_.default_library;
+  if (!library.empty()) {
+    auto files = scan_library(library);
+    if (!files) return files.error();
+    templates.insert(templates.end(), files.value().begin(), files.value().end());
+  }
+  if (templates.empty()) return bad("no templates: give 'templates', 'library' or 'inline'");
+  if (templates.size() > config_.max_templates)
+    return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
+                                           std::to_string(config_.max_templates) + " per job", "", std::nullopt};
+  out["templates"] = templates;
+  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.4}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
+    auto v = number_in(job, field, lo, hi, dflt);
+    if (!v) return v.error();
+    out[field] = v.value();
+  }
+  auto fft = number_in(job, "fft_size", 0, double(1 << 24), 0);
+  if (!fft) return fft.error();
+  const auto fs = static_cast<size_t>(fft.value());
+  if (fs & (fs - 1)) return bad("'fft_size' must be a power of two");
+  out["fft_size"] = fs;
+  return out;
+}
+
+Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
+                                      const std::function<bool()>& should_stop,
+                                      const std::function<void(std::string_view)>& warn) const {
+  LocateOptions lo;
+  lo.correlator.threads = config_.threads_per_job;
+  lo.correlator.planner = config_.planner;
+  FftCostTable costs = config_.costs;
+  lo.bank.costs = &costs;
+  lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
+  lo.should_stop = should_stop;
+  lo.on_diagnostic = warn;
+  const auto recs = spec.at("recordings").get<std::vector<std::string>>();
+  if (spec.at("kind") == "reconcile") {
+    std::vector<std::string> warnings;
+    auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"), recs, spec.value("window_s", 60.0), ""},
+                                  warnings);
+    for (const auto& w : warnings) warn(w);
+    if (!job) return job.error();
+    ReconcileOptions ro;
+    ro.locate = lo;
+    auto r = run_reconcile(job.value(), ro);
+    if (!r) return r.error();
+    return reconcile_to_json(r.value());
+  }
+  lo.picker.threshold = spec.value("threshold", 0.4);
+  lo.picker.floor_k = spec.value("floor_k", 10.0);
+  lo.bank.fixed_fft_size = spec.value("fft_size", size_t{0});
+  LocateJob job{spec.at("templates").get<std::vector<std::string>>(), recs};
+  auto r = run_locate(job, lo);
+  if (!r) return r.error();
+  return locate_to_json(r.value());
+}
+
+}  // namespace godwit

@@ -1,0 +1,55 @@
+// JobRunner: turns a request's job object into an engine run.
+//
+// prepare() checks and normalizes a submitted job before it is journaled:
+// kind, fields and types, every path resolved under the roots
+// (path_guard.h), inline spots decoded and saved under the state folder,
+// the library expanded, and the limits (templates per job, recording length
+// per job). run() executes a prepared job and returns the same document as
+// `godwit locate --format json` (or the reconcile JSON).
+//
+// Job object:
+//   {"kind": "locate", "templates": [paths], "library": "DIR", "recordings": [paths],
+//    "threshold": 0.4, "floor_k": 10, "fft_size": 0,
+//    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
+//   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60}
+//
+// Thread contract: safe for concurrent use (run() from several workers).
+#pragma once
+
+#include <functional>
+#include <nlohmann/json.hpp>
+#include <string>
+
+#include "godwit/error.h"
+#include "godwit/fft_size_chooser.h"
+#include "path_guard.h"
+
+namespace godwit {
+
+struct RunnerConfig {
+  std::string default_library;   // used when a locate job names no templates
+  std::string inline_dir;        // where inline spots are saved
+  size_t max_templates = 500;
+  double max_recording_s = 7 * 24 * 3600.0;  // per job, all recordings together
+  size_t max_inline_bytes = 16u << 20;       // decoded, per spot
+  int threads_per_job = 1;
+  Planner planner = Planner::measure;
+  FftCostTable costs;  // copied per job
+};
+
+class JobRunner {
+ public:
+  JobRunner(RunnerConfig config, const PathGuard& guard) : config_(std::move(config)), guard_(guard) {}
+
+  Result<nlohmann::json> prepare(const nlohmann::json& job) const;
+  Result<nlohmann::json> run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
+                             const std::function<bool()>& should_stop,
+                             const std::function<void(std::string_view)>& warn) const;
+  const RunnerConfig& config() const { return config_; }
+
+ private:
+  RunnerConfig config_;
+  const PathGuard& guard_;
+};
+
+}  // namespace godwit

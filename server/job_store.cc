@@ -1,0 +1,309 @@
+#include "job_store.h"
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <cstring>
+#include <ctime>
+#include <filesystem>
+#include <fstream>
+#include <random>
+#include <sstream>
+
+#include "atomic_file.h"
+
+namespace godwit {
+namespace {
+
+std::string utc_now() {
+  const std::time_t t = std::time(nullptr);
+  std::tm tm{};
+  gmtime_r(&t, &tm);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return buf;
+}
+
+std::string new_job_id() {
+  static std::mutex mu;
+  static std::mt19937_64 rng{std::random_device{}()};
+  std::lock_guard lock(mu);
+  char buf[24];
+  std::snprintf(buf, sizeof buf, "j%015llx", static_cast<unsigned long long>(rng() >> 4));
+  return buf;
+}
+
+double now_s() {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now().time_since_epoch()).count();
+}
+
+}  // namespace
+
+const char* job_state_name(JobState s) {
+  switch (s) {
+    case JobState::queued: return "queued";
+    case JobState::running: return "running";
+    case JobState::done: return "done";
+    case JobState::failed: return "failed";
+    case JobState::cancelled: return "cancelled";
+  }
+  return "queued";
+}
+
+std::optional<JobState> job_state_from(const std::string& n) {
+  for (JobState s : {JobState::queued, JobState::running, JobState::done, JobState::failed, JobState::cancelled})
+    if (n == job_state_name(s)) return s;
+  return std::nullopt;
+}
+
+Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  fs::create_directories(fs::path(dir) / "results", ec);
+  if (ec) return Error{ErrorCode::io, "cannot create the state folder: " + ec.message(), dir, std::nullopt};
+  std::unique_ptr<JobStore> s(new JobStore());
+  s->dir_ = dir;
+  s->max_queued_ = max_queued;
+  const std::string journal = dir + "/journal.jsonl";
+  // Replay.
+  std::vector<std::string> order;
+  {
+    std::ifstream in(journal);
+    std::string line;
+    while (std::getline(in, line)) {
+      nlohmann::json j;
+      try {
+        j = nlohmann::json::parse(line);
+      } catch (const std::exception&) {
+        continue;  // a torn last line after a crash
+      }
+      const std::string ev = j.value("event", ""), id = j.value("job", "");
+      if (id.empty()) continue;
+      if (ev == "submit") {
+        JobInfo info;
+        info.id = id;
+        info.spec = j.value("spec", nlohmann::json::object());
+        info.submitted = j.value("submitted", "");
+        if (!s->jobs_.count(id)) order.push_back(id);
+        s->jobs_[id] = info;
+      } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
+        if (auto st = job_state_from(ev)) it->second.state = *st;
+        if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
+      }
+    }
+  }
+  for (const auto& id : order) {
+    JobInfo& info = s->jobs_[id];
+    const bool have_result = fs::exists(fs::path(dir) / "results" / (id + ".json"));
+    if (info.state == JobState::done && !have_result) info.state = JobState::queued;
+    if (info.state == JobState::queued || info.state == JobState::running) {
+      info.state = JobState::queued;
+      info.progress = 0;
+      s->queue_.push_back(id);
+    }
+    if (info.state == JobState::done) info.progress = 1;
+  }
+  s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
+  if (s->journal_fd_ < 0)
+    return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
+  return s;
+}
+
+Status JobStore::append(const nlohmann::json& line) {
+  const std::string text = line.dump() + "\n";
+  size_t done = 0;
+  while (done < text.size()) {
+    const ssize_t n = ::write(journal_fd_, text.data() + done, text.size() - done);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      return Error{ErrorCode::io, std::string("journal write failed: ") + std::strerror(errno), dir_, std::nullopt};
+    }
+    done += static_cast<size_t>(n);
+  }
+  if (::fsync(journal_fd_) != 0)
+    return Error{ErrorCode::io, std::string("journal fsync failed: ") + std::strerror(errno), dir_, std::nullopt};
+  return ok_status();
+}
+
+Result<std::string> JobStore::submit(const nlohmann::json& spec) {
+  const std::string id = new_job_id();
+  {
+    std::lock_guard lock(mu_);
+    if (stopping_) return Error{ErrorCode::unavailable, "the daemon is shutting down", "", std::nullopt};
+    if (queue_.size() >= max_queued_)
+      return Error{ErrorCode::busy, "the queue is full (" + std::to_string(max_queued_) + " jobs); retry later", "",
+                   std::nullopt};
+  }
+  JobInfo info;
+  info.id = id;
+  info.spec = spec;
+  info.submitted = utc_now();
+  {
+    std::lock_guard jl(journal_mu_);
+    if (auto st = append({{"event", "submit"}, {"job", id}, {"spec", spec}, {"submitted", info.submitted}}); !st)
+      return st.error();
+  }
+  {
+    std::lock_guard lock(mu_);
+    jobs_[id] = info;
+    queue_.push_back(id);
+  }
+  cv_.notify_one();
+  emit({{"event", "state"}, {"job", id}, {"state", "queued"}});
+  return id;
+}
+
+std::optional<JobInfo> JobStore::get(const std::string& id) const {
+  std::lock_guard lock(mu_);
+  auto it = jobs_.find(id);
+  if (it == jobs_.end()) return std::nullopt;
+  return it->second;
+}
+
+std::vector<JobInfo> JobStore::list(std::optional<JobState> state) const {
+  std::lock_guard lock(mu_);
+  std::vector<JobInfo> out;
+  for (const auto& [id, j] : jobs_)
+    if (!state || j.state == *state) out.push_back(j);
+  std::sort(out.begin(), out.end(), [](const JobInfo& a, const JobInfo& b) { return a.submitted < b.submitted; });
+  return out;
+}
+
+bool JobStore::cancel(const std::string& id) {
+  bool queued = false;
+  {
+    std::lock_guard lock(mu_);
+    auto it = jobs_.find(id);
+    if (it == jobs_.end()) return false;
+    if (it->second.state == JobState::running) {
+      cancel_[id] = true;
+      return true;
+    }
+    if (it->second.state != JobState::queued) return false;
+    queue_.erase(std::remove(queue_.begin(), queue_.end(), id), queue_.end());
+    queued = true;
+  }
+  if (queued) mark_cancelled(id);
+  return true;
+}
+
+std::optional<std::string> JobStore::result_text(const std::string& id) const {
+  std::ifstream in(dir_ + "/results/" + id + ".json", std::ios::binary);
+  if (!in) return std::nullopt;
+  std::ostringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+std::optional<JobInfo> JobStore::take() {
+  std::unique_lock lock(mu_);
+  cv_.wait(lock, [&] { return stopping_ || !queue_.empty(); });
+  if (stopping_) return std::nullopt;
+  const std::string id = queue_.front();
+  queue_.pop_front();
+  JobInfo& j = jobs_[id];
+  j.state = JobState::running;
+  ++running_;
+  JobInfo copy = j;
+  lock.unlock();
+  emit({{"event", "state"}, {"job", id}, {"state", "running"}});
+  return copy;
+}
+
+bool JobStore::cancel_requested(const std::string& id) const {
+  std::lock_guard lock(mu_);
+  auto it = cancel_.find(id);
+  return it != cancel_.end() && it->second;
+}
+
+void JobStore::set_progress(const std::string& id, double fraction) {
+  bool send = false;
+  {
+    std::lock_guard lock(mu_);
+    auto it = jobs_.find(id);
+    if (it == jobs_.end()) return;
+    it->second.progress = fraction;
+    const double t = now_s();
+    if (t - last_emit_[id] >= 0.25) {
+      last_emit_[id] = t;
+      send = true;
+    }
+  }
+  if (send) emit({{"event", "progress"}, {"job", id}, {"progress", fraction}});
+}
+
+void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json& extra) {
+  nlohmann::json line{{"event", job_state_name(s)}, {"job", id}};
+  line.update(extra);
+  {
+    std::lock_guard jl(journal_mu_);
+    (void)append(line);  // a lost terminal line only means the job runs again after a restart
+  }
+  {
+    std::lock_guard lock(mu_);
+    JobInfo& j = jobs_[id];
+    if (j.state == JobState::running && running_ > 0) --running_;
+    j.state = s;
+    if (s == JobState::done) j.progress = 1;
+    if (s == JobState::failed) j.error = extra.value("error", nlohmann::json());
+    cancel_.erase(id);
+    last_emit_.erase(id);
+  }
+  nlohmann::json ev{{"event", "state"}, {"job", id}, {"state", job_state_name(s)}};
+  emit(ev);
+}
+
+void JobStore::finish(const std::string& id, const nlohmann::json& result) {
+  if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", result.dump() + "\n"); !st) {
+    fail(id, {{"code", "io"}, {"message", st.error().describe()}});
+    return;
+  }
+  set_state(id, JobState::done, nlohmann::json::object());
+}
+
+void JobStore::fail(const std::string& id, const nlohmann::json& error) {
+  set_state(id, JobState::failed, {{"error", error}});
+}
+
+void JobStore::mark_cancelled(const std::string& id) { set_state(id, JobState::cancelled, nlohmann::json::object()); }
+
+void JobStore::stop() {
+  {
+    std::lock_guard lock(mu_);
+    stopping_ = true;
+  }
+  cv_.notify_all();
+}
+
+size_t JobStore::queued() const {
+  std::lock_guard lock(mu_);
+  return queue_.size();
+}
+
+size_t JobStore::running() const {
+  std::lock_guard lock(mu_);
+  return running_;
+}
+
+size_t JobStore::subscribe(Listener l) {
+  std::lock_guard lock(listeners_mu_);
+  listeners_[next_listener_] = std::move(l);
+  return next_listener_++;
+}
+
+void JobStore::unsubscribe(size_t handle) {
+  std::lock_guard lock(listeners_mu_);
+  listeners_.erase(handle);
+}
+
+void JobStore::emit(const nlohmann::json& event) {
+  std::vector<Listener> ls;
+  {
+    std::lock_guard lock(listeners_mu_);
+    for (const auto& [h, l] : listeners_) ls.push_back(l);
+  }
+  for (const auto& l : ls) l(event);
+}
+
+}  // namespace godwit

@@ -1,0 +1,98 @@
+// JobStore: the daemon's jobs, durable across crashes.
+//
+// Journal (STATE/journal.jsonl): one JSON object per line, appended and
+// fsync'ed before a submit is acknowledged: {"event":"submit","job",
+// "spec"}, {"event":"done"|"failed"|"cancelled","job",...}. Results
+// (STATE/results/<id>.json) are written atomically (temp, fsync, rename)
+// before their "done" line. On open the journal is replayed: a job whose
+// last event is submit (it was queued or running at a crash), or whose
+// result file is missing, is queued again; a torn last line is ignored.
+//
+// Thread contract: safe for concurrent use; no lock is held over an fsync
+// of a result or over a job.
+#pragma once
+
+#include <condition_variable>
+#include <deque>
+#include <functional>
+#include <map>
+#include <memory>
+#include <mutex>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "godwit/error.h"
+
+namespace godwit {
+
+enum class JobState { queued, running, done, failed, cancelled };
+const char* job_state_name(JobState s);
+std::optional<JobState> job_state_from(const std::string& name);
+
+struct JobInfo {
+  std::string id;
+  JobState state = JobState::queued;
+  double progress = 0;
+  nlohmann::json spec;
+  nlohmann::json error;  // null unless failed
+  std::string submitted;  // ISO 8601 UTC
+};
+
+class JobStore {
+ public:
+  static Result<std::unique_ptr<JobStore>> open(const std::string& state_dir, size_t max_queued);
+
+  // Errors: busy (queue full), io (journal write failed; nothing recorded).
+  Result<std::string> submit(const nlohmann::json& spec);
+  std::optional<JobInfo> get(const std::string& id) const;
+  std::vector<JobInfo> list(std::optional<JobState> state) const;
+  // Queued jobs are cancelled at once; running ones when they next poll.
+  // False when the job is unknown or already over.
+  bool cancel(const std::string& id);
+  std::optional<std::string> result_text(const std::string& id) const;
+
+  // Worker side. Blocks until a job is queued or stop() is called.
+  std::optional<JobInfo> take();
+  bool cancel_requested(const std::string& id) const;
+  void set_progress(const std::string& id, double fraction);
+  void finish(const std::string& id, const nlohmann::json& result);
+  void fail(const std::string& id, const nlohmann::json& error);
+  void mark_cancelled(const std::string& id);
+  // Wakes take() callers with nothing; they return empty from then on.
+  void stop();
+
+  size_t queued() const;
+  size_t running() const;
+
+  // Events (state changes and throttled progress) for `watch`; called on
+  // the worker's thread. Returns a handle for unsubscribe().
+  using Listener = std::function<void(const nlohmann::json& event)>;
+  size_t subscribe(Listener l);
+  void unsubscribe(size_t handle);
+
+ private:
+  JobStore() = default;
+  Status append(const nlohmann::json& line);  // REQUIRES: journal_mu_ held
+  void emit(const nlohmann::json& event);
+  void set_state(const std::string& id, JobState s, const nlohmann::json& extra);
+
+  std::string dir_;
+  size_t max_queued_ = 0;
+  int journal_fd_ = -1;
+  std::mutex journal_mu_;  // serializes journal appends (held over their fsync only)
+  mutable std::mutex mu_;
+  std::condition_variable cv_;
+  std::map<std::string, JobInfo> jobs_;             // GUARDED_BY(mu_)
+  std::deque<std::string> queue_;                   // GUARDED_BY(mu_)
+  std::map<std::string, bool> cancel_;              // GUARDED_BY(mu_)
+  std::map<std::string, double> last_emit_;         // GUARDED_BY(mu_)
+  bool stopping_ = false;                           // GUARDED_BY(mu_)
+  size_t running_ = 0;                              // GUARDED_BY(mu_)
+  mutable std::mutex listeners_mu_;
+  std::map<size_t, Listener> listeners_;            // GUARDED_BY(listeners_mu_)
+  size_t next_listener_ = 1;
+};
+
+}  // namespace godwit

@@ -1,0 +1,47 @@
+#include "reconcile_inputs.h"
+
+#include <fstream>
+#include <sstream>
+
+#include "library_scan.h"
+#include "spot_metadata.h"
+
+namespace godwit {
+
+Result<ReconcileJob> load_reconcile_job(const ReconcileInputs& in, std::vector<std::string>& warnings) {
+  ReconcileJob job;
+  auto masters = scan_library(in.library);
+  if (!masters) return masters.error();
+  job.masters = masters.value();
+  job.meta = load_spot_metadata(job.masters, warnings);
+
+  std::ifstream f(in.schedule, std::ios::binary);
+  if (!f) return Error{ErrorCode::not_found, "cannot open the planned log", in.schedule, std::nullopt};
+  std::ostringstream text;
+  text << f.rdbuf();
+  auto log = parse_planned_log(text.str(), in.window_s);
+  if (!log) {
+    Error e = log.error();
+    e.path = in.schedule;
+    return e;
+  }
+  job.log = std::move(log.value());
+  for (const auto& p : job.log.problems)
+    warnings.push_back(in.schedule + ":" + std::to_string(p.line) + ": " + p.reason + " (row skipped)");
+
+  if (!in.start.empty() && in.recordings.size() != 1)
+    return Error{ErrorCode::usage, "a start time applies to a single recording; name files with their start time", "",
+                 std::nullopt};
+  for (const auto& r : in.recordings) {
+    RecordingInput ri{r, std::nullopt};
+    if (!in.start.empty()) {
+      ri.start_s = parse_iso8601_local(in.start);
+      if (!ri.start_s) return Error{ErrorCode::usage, "the start is not an ISO 8601 local date-time", "", std::nullopt};
+    }
+    job.recordings.push_back(ri);
+  }
+  if (job.recordings.empty()) return Error{ErrorCode::usage, "no recordings given", "", std::nullopt};
+  return job;
+}
+
+}  // namespace godwit

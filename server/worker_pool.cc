@@ -1,0 +1,41 @@
+#include "worker_pool.h"
+
+#include <spdlog/spdlog.h>
+
+#include "godwit/locate_report.h"
+
+namespace godwit {
+
+WorkerPool::WorkerPool(JobStore& store, const JobRunner& runner, size_t workers) : store_(store), runner_(runner) {
+  for (size_t i = 0; i < std::max<size_t>(1, workers); ++i) threads_.emplace_back([this] { loop(); });
+}
+
+WorkerPool::~WorkerPool() { drain(); }
+
+void WorkerPool::drain() {
+  store_.stop();
+  for (auto& t : threads_)
+    if (t.joinable()) t.join();
+}
+
+void WorkerPool::loop() {
+  while (auto job = store_.take()) {
+    const std::string id = job->id;
+    spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));
+    auto result = runner_.run(
+        job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
+        [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); });
+    if (result) {
+      store_.finish(id, result.value());
+      spdlog::info("job {} done", id);
+    } else if (result.error().code == ErrorCode::cancelled) {
+      store_.mark_cancelled(id);
+      spdlog::info("job {} cancelled", id);
+    } else {
+      store_.fail(id, error_to_json(result.error()));
+      spdlog::warn("job {} failed: {}", id, result.error().describe());
+    }
+  }
+}
+
+}  // namespace godwit
