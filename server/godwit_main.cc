@@ -1,9 +1,11 @@
-// godwit: the command line. Offline runs of the engine (locate, reconcile).
+// godwit: the command line. Offline runs of the engine (locate, reconcile)
+// and a client of godwitd (submit, status, result, cancel, jobs, watch, health).
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
 #include <iostream>
 
+#include "client_command.h"
 #include "locate_command.h"
 #include "reconcile_command.h"
 
@@ -13,6 +15,7 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", "godwit 0.1.0");
   auto locate = godwit::add_locate_command(app);
   auto reconcile = godwit::add_reconcile_command(app);
+  auto client = godwit::add_client_commands(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -21,6 +24,7 @@ int main(int argc, char** argv) {
   try {
     if (app.got_subcommand("locate")) return locate();
     if (app.got_subcommand("reconcile")) return reconcile();
+    return client();
   } catch (const std::exception& e) {
     std::cerr << "godwit: internal error: " << e.what() << "\n";
     return 70;

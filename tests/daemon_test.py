@@ -1,0 +1,312 @@
+#!/usr/bin/python3
+"""godwitd end to end: a real daemon process on a loopback port, real TCP clients.
+
+Run by CTest: daemon_test.py --godwit PATH --godwitd PATH --synth PATH
+"""
+import argparse
+import json
+import os
+import shutil
+import signal
+import socket
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+import unittest
+import warnings
+
+ARGS = None
+DEMO = None  # shared demo data, made once
+
+
+class Daemon:
+    """A godwitd started for one test; ended by PID."""
+
+    def __init__(self, tmp, extra_config="", args=(), state=None):
+        self.tmp = tmp
+        self.state = state or os.path.join(tmp, "state")
+        self.config = os.path.join(tmp, "godwitd.toml")
+        with open(self.config, "w") as f:
+            f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{self.state}"\nroots = ["{DEMO}", "{tmp}/root"]\n'
+                    f'library = "{DEMO}/library"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
+                    + extra_config)
+        self.proc = subprocess.Popen([ARGS.godwitd, "--config", self.config, *args], stdout=subprocess.PIPE,
+                                     stderr=open(os.path.join(tmp, "godwitd.log"), "a"), text=True)
+        line = self.proc.stdout.readline()
+        if not line:
+            raise AssertionError("godwitd did not start: " + open(os.path.join(tmp, "godwitd.log")).read())
+        self.port = json.loads(line)["port"]
+
+    def connect(self):
+        return Client(self.port)
+
+    def stop(self, sig=signal.SIGTERM):
+        if self.proc.poll() is None:
+            self.proc.send_signal(sig)
+            self.proc.wait(timeout=60)
+
+
+class Client:
+    def __init__(self, port, timeout=30):
+        self.sock = socket.create_connection(("127.0.0.1", port), timeout=timeout)
+        self.f = self.sock.makefile("rwb")
+
+    def send_raw(self, data):
+        self.f.write(data)
+        self.f.flush()
+
+    def read(self):
+        line = self.f.readline()
+        return json.loads(line) if line else None
+
+    def req(self, obj):
+        self.send_raw((json.dumps(obj) + "\n").encode())
+        return self.read()
+
+    def close(self):
+        self.sock.close()
+
+
+def wait_state(c, job, states=("done", "failed", "cancelled"), timeout=120):
+    end = time.time() + timeout
+    while time.time() < end:
+        st = c.req({"op": "status", "job": job})
+        if st["state"] in states:
+            return st
+        time.sleep(0.1)
+    raise AssertionError(f"job {job} did not reach {states}")
+
+
+def long_job():
+    # The three demo files, many times over: tens of seconds of work.
+    return {"kind": "locate", "recordings": DEMO_RECS * 12}
+
+
+class DaemonTests(unittest.TestCase):
+    def setUp(self):
+        self.tmp = tempfile.mkdtemp(prefix="godwitd-test-")
+        os.makedirs(os.path.join(self.tmp, "root"))
+        self.daemons = []
+
+    def tearDown(self):
+        for d in self.daemons:
+            d.stop(signal.SIGKILL)
+        shutil.rmtree(self.tmp, ignore_errors=True)
+
+    def start(self, **kw):
+        d = Daemon(self.tmp, **kw)
+        self.daemons.append(d)
+        return d
+
+    def test_submit_result_equals_the_cli_output(self):
+        d = self.start()
+        c = d.connect()
+        r = c.req({"op": "submit", "id": "a1", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]], "fft_size": 1048576}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(r["id"], "a1")
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+        res = c.req({"op": "result", "job": r["job"]})["result"]
+        cli = subprocess.run([ARGS.godwit, "locate", "--library", f"{DEMO}/library", "--recording", DEMO_RECS[0],
+                              "--planner", "estimate", "--cache-dir", "", "--fft-size", "1048576", "-q"],
+                             capture_output=True, text=True, check=True)
+        ref = json.loads(cli.stdout)
+        self.assertEqual(res["matches"], ref["matches"])
+        self.assertEqual(res["recordings"], ref["recordings"])
+        self.assertGreaterEqual(len(res["matches"]), 3)
+
+    def test_fifty_concurrent_clients(self):
+        d = self.start()
+        errors = []
+
+        def one(i):
+            try:
+                c = d.connect()
+                for _ in range(20):
+                    h = c.req({"op": "health", "id": i})
+                    if not h["ok"] or h["id"] != i:
+                        errors.append(h)
+                c.close()
+            except Exception as e:  # noqa: BLE001 - collected and asserted below
+                errors.append(repr(e))
+
+        threads = [threading.Thread(target=one, args=(i,)) for i in range(50)]
+        [t.start() for t in threads]
+        [t.join(60) for t in threads]
+        self.assertEqual(errors, [])
+
+    def test_malformed_oversized_and_unknown_requests_keep_the_connection(self):
+        d = self.start(extra_config="[limits]\nmax_line_bytes = 4096\n")
+        c = d.connect()
+        c.send_raw(b"{this is not json\n")
+        self.assertEqual(c.read()["error"]["code"], "bad_request")
+        c.send_raw(b'{"op": "' + b"x" * 10000 + b'"}\n')
+        self.assertEqual(c.read()["error"]["code"], "too_large")
+        self.assertEqual(c.req({"op": "frobnicate"})["error"]["code"], "bad_request")
+        self.assertEqual(c.req([1, 2])["error"]["code"], "bad_request")
+        self.assertEqual(c.req({"op": "status", "job": "nope"})["error"]["code"], "unknown_job")
+        self.assertEqual(c.req({"op": "submit", "job": {"kind": "locate", "recordings": "x"}})["error"]["code"],
+                         "bad_request")
+        self.assertTrue(c.req({"op": "health"})["ok"])
+
+    def test_slow_client_is_dropped_and_others_are_not(self):
+        d = self.start(extra_config="[limits]\nread_timeout_s = 1\n")
+        slow = d.connect()
+        slow.send_raw(b'{"op": "hea')
+        other = d.connect()
+        time.sleep(2.0)
+        self.assertTrue(other.req({"op": "health"})["ok"])
+        slow.sock.settimeout(3)
+        self.assertEqual(slow.sock.recv(100), b"")  # closed by the daemon
+
+    def test_paths_outside_the_roots_are_forbidden(self):
+        d = self.start()
+        c = d.connect()
+        os.symlink("/etc", os.path.join(self.tmp, "root", "escape"))
+        for bad in ["/etc/passwd", f"{DEMO}/../../etc/passwd", os.path.join(self.tmp, "root", "escape", "passwd")]:
+            r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [bad]}})
+            self.assertEqual(r["error"]["code"], "forbidden", (bad, r))
+        r = c.req({"op": "submit", "job": {"kind": "locate", "templates": ["/etc/hostname"], "recordings": [DEMO_RECS[0]]}})
+        self.assertEqual(r["error"]["code"], "forbidden")
+
+    def test_token_required_when_configured(self):
+        tok = os.path.join(self.tmp, "token")
+        with open(tok, "w") as f:
+            f.write("correct-horse-battery-staple\n")
+        d = self.start(args=("--token-file", tok))
+        c = d.connect()
+        self.assertEqual(c.req({"op": "health"})["error"]["code"], "forbidden")
+        self.assertEqual(c.req({"op": "health", "token": "correct-horse-battery-stapl"})["error"]["code"], "forbidden")
+        self.assertTrue(c.req({"op": "health", "token": "correct-horse-battery-staple"})["ok"])
+
+    def test_beyond_loopback_without_token_refuses_to_start(self):
+        p = subprocess.run([ARGS.godwitd, "--listen", "0.0.0.0:0", "--state-dir", os.path.join(self.tmp, "s")],
+                           capture_output=True, text=True, timeout=30)
+        self.assertEqual(p.returncode, 2)
+        self.assertIn("token", p.stderr)
+
+    def test_cancel_takes_effect_within_a_second(self):
+        d = self.start()
+        c = d.connect()
+        job = c.req({"op": "submit", "job": long_job()})["job"]
+        wait_state(c, job, ("running",))
+        time.sleep(0.5)
+        t0 = time.time()
+        self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
+        self.assertEqual(wait_state(c, job, timeout=5)["state"], "cancelled")
+        self.assertLess(time.time() - t0, 1.5)
+
+    def test_full_queue_answers_busy(self):
+        d = self.start(extra_config="[limits]\nmax_queued = 2\n")
+        c = d.connect()
+        codes = []
+        for _ in range(6):
+            r = c.req({"op": "submit", "job": long_job()})
+            codes.append("ok" if r["ok"] else r["error"]["code"])
+        self.assertIn("busy", codes)
+        self.assertLessEqual(codes.count("ok"), 3)  # one running, two queued
+        jobs = c.req({"op": "jobs", "state": "queued"})["jobs"]
+        self.assertLessEqual(len(jobs), 2)
+
+    def test_kill_minus_nine_mid_job_then_restart_loses_nothing(self):
+        d = self.start()
+        c = d.connect()
+        first = c.req({"op": "submit", "job": long_job()})["job"]
+        second = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[1]]}})["job"]
+        wait_state(c, first, ("running",))
+        time.sleep(1.0)
+        d.stop(signal.SIGKILL)
+        d2 = self.start(state=d.state)
+        c2 = d2.connect()
+        for job in (first, second):
+            self.assertEqual(wait_state(c2, job, timeout=300)["state"], "done", job)
+            self.assertIn("matches", c2.req({"op": "result", "job": job})["result"])
+        leftovers = [n for n in os.listdir(os.path.join(d.state, "results")) if not n.endswith(".json")]
+        self.assertEqual(leftovers, [])
+        # After another restart the results are still served.
+        d2.stop()
+        d3 = self.start(state=d.state)
+        self.assertTrue(d3.connect().req({"op": "result", "job": second})["ok"])
+
+    def test_watch_streams_progress_and_the_end(self):
+        d = self.start()
+        w = d.connect()
+        self.assertTrue(w.req({"op": "watch"})["ok"])
+        c = d.connect()
+        job = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS}})["job"]
+        states = []
+        while True:
+            ev = w.read()
+            if ev.get("job") == job and ev.get("event") == "state":
+                states.append(ev["state"])
+                if ev["state"] == "done":
+                    break
+        self.assertEqual(states, ["queued", "running", "done"])
+
+    def test_client_subcommands(self):
+        d = self.start()
+        addr = f"127.0.0.1:{d.port}"
+        p = subprocess.run([ARGS.godwit, "submit", "--connect", addr, "--recording", DEMO_RECS[0], "--wait"],
+                           capture_output=True, text=True, timeout=120)
+        self.assertEqual(p.returncode, 0, p.stderr)
+        self.assertGreaterEqual(len(json.loads(p.stdout)["matches"]), 3)
+        h = subprocess.run([ARGS.godwit, "health", "--connect", addr], capture_output=True, text=True, timeout=30)
+        self.assertEqual(json.loads(h.stdout)["workers"], 1)
+        bad = subprocess.run([ARGS.godwit, "status", "nope", "--connect", addr], capture_output=True, text=True)
+        self.assertEqual(bad.returncode, 6)
+        down = subprocess.run([ARGS.godwit, "health", "--connect", "127.0.0.1:1"], capture_output=True, text=True)
+        self.assertEqual(down.returncode, 7)
+
+    def test_drop_folder(self):
+        drop = os.path.join(self.tmp, "drop")
+        os.makedirs(os.path.join(drop, "work"))
+        # Claimed before a "crash": picked up again at start.
+        shutil.copy(DEMO_RECS[2], os.path.join(drop, "work", "h0610.flac"))
+        d = self.start(args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        # A file still being written is not taken early.
+        src = open(DEMO_RECS[0], "rb").read()
+        part = os.path.join(drop, "incoming", "h0600.flac")
+        with open(part, "wb") as f:
+            f.write(src[: len(src) // 2])
+            f.flush()
+            time.sleep(2.5)
+            self.assertTrue(os.path.exists(part), "taken while still open for writing")
+            f.write(src[len(src) // 2:])
+        # A corrupt file lands in failed/ with its reason.
+        with open(os.path.join(drop, "incoming", "broken.flac"), "wb") as f:
+            f.write(b"fLaC" + b"\x00" * 5000)
+        end = time.time() + 120
+        want = [os.path.join(drop, "results", "h0600.flac.json"), os.path.join(drop, "results", "h0610.flac.json"),
+                os.path.join(drop, "failed", "broken.flac.error.json")]
+        while time.time() < end and not all(os.path.exists(w) for w in want):
+            time.sleep(0.2)
+        for w in want:
+            self.assertTrue(os.path.exists(w), w)
+        self.assertTrue(os.path.exists(os.path.join(drop, "done", "h0600.flac")))
+        self.assertTrue(os.path.exists(os.path.join(drop, "done", "h0610.flac")))
+        self.assertTrue(os.path.exists(os.path.join(drop, "failed", "broken.flac")))
+        with open(want[0]) as f:
+            self.assertGreaterEqual(len(json.load(f)["matches"]), 3)
+        with open(want[2]) as f:
+            self.assertTrue(json.load(f)["message"])
+
+
+if __name__ == "__main__":
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--godwit", required=True)
+    parser.add_argument("--godwitd", required=True)
+    parser.add_argument("--synth", required=True)
+    ARGS, rest = parser.parse_known_args()
+    warnings.simplefilter("ignore", ResourceWarning)  # sockets left to the daemon to close are the point of some tests
+    tmp = tempfile.mkdtemp(prefix="godwitd-demo-")
+    try:
+        DEMO = os.path.join(tmp, "demo")
+        subprocess.run([ARGS.synth, "demo", "--out", DEMO], check=True, capture_output=True)
+        with open(os.path.join(DEMO, "truth.json")) as f:
+            DEMO_RECS = json.load(f)["recordings"]
+        prog = unittest.main(argv=[sys.argv[0], "-v", *rest], exit=False)
+        code = 0 if prog.result.wasSuccessful() else 1
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    sys.exit(code)
