@@ -8,3 +8,4 @@ B=build/tests/bench/godwit_bench
 $B throughput --templates 20 --hours 1
 $B false-alarms
 $B day --templates 100 --hours 24
+/usr/bin/python3 tests/bench/daemon_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth
