@@ -15,13 +15,14 @@ struct DaemonConfig {
   std::vector<std::string> roots;
   std::string library;
   std::string drop;
+  std::string schedules;  // planned logs for the drop folder's daily reconciliation
   size_t workers = 1;
   int threads_per_job = 1;
   std::string token_file;
   std::string log_level = "info";
   std::string planner = "measure";
   // limits
-  size_t max_line_bytes = 1 << 20;
+  size_t max_line_bytes = 24u << 20;  // room for one inline spot of max_inline_mb in base64
   size_t max_connections = 64;
   double idle_timeout_s = 300;
   double read_timeout_s = 10;

@@ -5,11 +5,13 @@
 #include <sys/inotify.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <filesystem>
 #include <set>
 
 #include "atomic_file.h"
+#include "godwit/civil_time.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
 
@@ -45,6 +47,9 @@ Status DropFolder::start() {
     }
     if (inotify_fd_ < 0) spdlog::warn("drop folder: inotify unavailable, polling every {} s", o_.poll_s);
   }
+  // Listed after the watch is in place, so nothing falls between the two.
+  for (fs::directory_iterator it(fs::path(o_.dir) / "incoming", ec), end; !ec && it != end; it.increment(ec))
+    preexisting_.insert(it->path().filename().string());
   thread_ = std::thread([this] { loop(); });
   return ok_status();
 }
@@ -65,6 +70,10 @@ void DropFolder::loop() {
 
   std::map<std::string, Seen> seen;
   std::set<std::string> ready;
+  // With inotify, a file is complete when closed after writing or moved in;
+  // the stable-size rule is kept for files already there before the watch
+  // began (no event will come for them). Without inotify it is the rule.
+  std::set<std::string> preexisting = std::move(preexisting_);
   while (!stop_) {
     if (inotify_fd_ >= 0) {
       pollfd p{inotify_fd_, POLLIN, 0};
@@ -96,7 +105,8 @@ void DropFolder::loop() {
         seen[name] = {size, mtime, now};
         continue;
       }
-      if (std::chrono::duration<double>(now - s->second.since).count() >= o_.stable_s) ready.insert(name);
+      const bool by_size = inotify_fd_ < 0 || preexisting.count(name);
+      if (by_size && std::chrono::duration<double>(now - s->second.since).count() >= o_.stable_s) ready.insert(name);
     }
     for (auto it = seen.begin(); it != seen.end();) it = present.count(it->first) ? std::next(it) : seen.erase(it);
     for (const auto& name : ready) {
@@ -109,6 +119,7 @@ void DropFolder::loop() {
         continue;
       }
       seen.erase(name);
+      preexisting.erase(name);
       process(name);
     }
     ready.clear();
@@ -149,6 +160,7 @@ void DropFolder::process(const std::string& name) {
   if (!failed) {
     fs::rename(path, base / "done" / name, ec);
     spdlog::info("drop folder: {} done", name);
+    if (!o_.schedules.empty()) reconcile_day(name);
     return;
   }
   nlohmann::json err = doc ? nlohmann::json{{"code", "corrupt"}, {"message", reason}} : error_to_json(doc.error());
@@ -156,6 +168,44 @@ void DropFolder::process(const std::string& name) {
   (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), err.dump(2) + "\n");
   fs::rename(path, base / "failed" / name, ec);
   spdlog::warn("drop folder: {} failed: {}", name, err.value("message", ""));
+}
+
+void DropFolder::reconcile_day(const std::string& name) {
+  const auto start = time_from_name(name, o_.name_pattern);
+  if (!start) {
+    spdlog::warn("drop folder: {} has no start time in its name; not reconciled", name);
+    return;
+  }
+  const std::string day = format_iso8601_local(*start, 0).substr(0, 10);  // YYYY-MM-DD
+  std::string compact = day;
+  compact.erase(std::remove(compact.begin(), compact.end(), '-'), compact.end());
+  std::error_code ec;
+  std::string schedule;
+  for (fs::directory_iterator it(o_.schedules, ec), end; !ec && it != end; it.increment(ec)) {
+    const std::string n = it->path().filename().string();
+    if (it->path().extension() == ".csv" && (n.find(day) != std::string::npos || n.find(compact) != std::string::npos))
+      schedule = it->path().string();
+  }
+  if (schedule.empty()) return;
+  std::vector<std::string> recordings;
+  for (fs::directory_iterator it(fs::path(o_.dir) / "done", ec), end; !ec && it != end; it.increment(ec)) {
+    const auto t = time_from_name(it->path().filename().string(), o_.name_pattern);
+    if (t && format_iso8601_local(*t, 0).substr(0, 10) == day) recordings.push_back(it->path().string());
+  }
+  std::sort(recordings.begin(), recordings.end());
+  nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
+                      {"recordings", recordings}, {"window_s", 60.0}};
+  auto doc = runner_.run(spec, [](double) {}, [this] { return stop_.load(); },
+                         [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); });
+  if (!doc) {
+    spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());
+    return;
+  }
+  const std::string out = (fs::path(o_.dir) / "results" / (fs::path(schedule).stem().string() + ".reconcile.json")).string();
+  if (auto st = write_file_atomically(out, doc.value().dump(2) + "\n"); !st)
+    spdlog::warn("drop folder: {}", st.error().describe());
+  else
+    spdlog::info("drop folder: {} reconciled over {} recording(s)", day, recordings.size());
 }
 
 }  // namespace godwit

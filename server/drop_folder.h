@@ -7,16 +7,19 @@
 //   DROP/failed    recordings that could not be processed, each with <name>.error.json
 //
 // A file is taken when it is complete: inotify reported it closed after
-// writing or moved in, or (polling, for network shares) its size and
+// writing or moved in; or, when polling (network shares, use_inotify
+// false) and for files already present at start, its size and
 // modification time have not changed for `stable_s`. Files left in work/ by
 // a crash are processed again at start. The library is scanned afresh for
-// every file, so changes to it apply to the next recording.
+// every file, so changes to it apply to the next recording. With a
+// schedules folder, each day's report is rebuilt as its hours arrive.
 //
 // Thread contract: owns one thread; start() once, stop() joins it.
 #pragma once
 
 #include <atomic>
 #include <map>
+#include <set>
 #include <string>
 #include <thread>
 
@@ -29,6 +32,12 @@ struct DropOptions {
   double poll_s = 2;
   double stable_s = 5;
   bool use_inotify = true;
+  // When set: after each recording, the day's planned log found here (a
+  // CSV whose name holds the date as YYYY-MM-DD or YYYYMMDD) is reconciled
+  // against every recording of that day in done/, into
+  // results/<log stem>.reconcile.json, so the day's report grows hour by hour.
+  std::string schedules;
+  std::string name_pattern = "%Y%m%dT%H%M%S";
 };
 
 class DropFolder {
@@ -41,11 +50,13 @@ class DropFolder {
  private:
   void loop();
   void process(const std::string& name);
+  void reconcile_day(const std::string& name);
   DropOptions o_;
   const JobRunner& runner_;
   std::thread thread_;
   std::atomic<bool> stop_{false};
   int inotify_fd_ = -1;
+  std::set<std::string> preexisting_;  // in incoming/ when the watch began
 };
 
 }  // namespace godwit

@@ -47,7 +47,7 @@ int main(int argc, char** argv) {
   DaemonConfig cfg;
   app.add_option("--config,-c", config_path, "TOML configuration (see config/godwitd.toml)");
   // Overrides: parsed after the file is read.
-  std::string listen, state_dir, library, drop, token_file, log_level;
+  std::string listen, state_dir, library, drop, schedules, token_file, log_level;
   std::vector<std::string> roots;
   size_t workers = 0;
   double stable_s = -1, poll_s = -1;
@@ -58,6 +58,7 @@ int main(int argc, char** argv) {
   app.add_option("--root", roots, "a folder requests may read (repeatable); paths elsewhere are forbidden");
   app.add_option("--library", library, "default library of masters (and the drop folder's)");
   app.add_option("--drop", drop, "drop folder (incoming, work, results, done, failed)");
+  app.add_option("--schedules", schedules, "planned logs (<...YYYY-MM-DD...>.csv): the drop folder reconciles each day");
   app.add_option("--workers", workers, "jobs run at once (default 1)");
   app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
   app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
@@ -73,6 +74,7 @@ int main(int argc, char** argv) {
     if (!roots.empty()) c.roots = roots;
     if (!library.empty()) c.library = library;
     if (!drop.empty()) c.drop = drop;
+    if (!schedules.empty()) c.schedules = schedules;
     if (workers) c.workers = workers;
     if (!token_file.empty()) c.token_file = token_file;
     if (!log_level.empty()) c.log_level = log_level;
@@ -150,7 +152,7 @@ int main(int argc, char** argv) {
   WorkerPool pool(store, runner, cfg.workers);
   std::unique_ptr<DropFolder> dropper;
   if (!cfg.drop.empty()) {
-    dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify},
+    dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, cfg.schedules},
                                            runner);
     if (auto st = dropper->start(); !st) {
       std::cerr << "godwitd: " << st.error().describe() << "\n";

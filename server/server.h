@@ -25,7 +25,7 @@
 namespace godwit {
 
 struct ServerLimits {
-  size_t max_line_bytes = 1 << 20;
+  size_t max_line_bytes = 24u << 20;  // room for one inline spot of max_inline_mb in base64
   size_t max_connections = 64;
   double idle_timeout_s = 300;
   double read_timeout_s = 10;

@@ -19,6 +19,8 @@ import warnings
 
 ARGS = None
 DEMO = None  # shared demo data, made once
+DEMO_TRUTH = None
+DEMO_RECS = None
 
 
 class Daemon:
@@ -291,6 +293,58 @@ class DaemonTests(unittest.TestCase):
         with open(want[2]) as f:
             self.assertTrue(json.load(f)["message"])
 
+    def test_reconcile_job_over_tcp_gives_the_demo_verdicts(self):
+        d = self.start()
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": f"{DEMO}/library",
+                                           "schedule": f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv",
+                                           "recordings": DEMO_RECS}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
+
+    def test_inline_spot_is_located(self):
+        import base64
+        d = self.start()
+        c = d.connect()
+        wav = open(f"{DEMO}/library/marlow-bakery.wav", "rb").read()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]],
+                                           "inline": [{"id": "inline-marlow", "format": "wav",
+                                                       "audio_base64": base64.b64encode(wav).decode()}]}})
+        self.assertTrue(r["ok"], r)
+        wait_state(c, r["job"])
+        m = c.req({"op": "result", "job": r["job"]})["result"]["matches"]
+        self.assertEqual([x["offset_s"] for x in m if x["template"] == "inline-marlow"], [37.25])
+        bad = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]],
+                                             "inline": [{"id": "../x", "audio_base64": "AAAA"}]}})
+        self.assertEqual(bad["error"]["code"], "bad_request")
+        junk = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]],
+                                              "inline": [{"id": "x", "audio_base64": "not base64!"}]}})
+        self.assertEqual(junk["error"]["code"], "bad_request")
+
+    def test_drop_folder_reconciles_the_day_as_hours_arrive(self):
+        drop = os.path.join(self.tmp, "drop")
+        d = self.start(args=("--drop", drop, "--schedules", f"{DEMO}/schedules", "--drop-stable-s", "1",
+                             "--drop-poll-s", "0.2"))
+        os.makedirs(os.path.join(drop, "incoming"), exist_ok=True)
+        report = os.path.join(drop, "results", "kestrel-fm-2026-03-14.reconcile.json")
+        for rec in DEMO_RECS:
+            tmpname = os.path.join(drop, "incoming", "." + os.path.basename(rec))
+            shutil.copy(rec, tmpname)
+            os.rename(tmpname, os.path.join(drop, "incoming", os.path.basename(rec)))  # moved in: complete
+        end = time.time() + 180
+        while time.time() < end:
+            if len(os.listdir(os.path.join(drop, "done"))) == 3 and os.path.exists(report):
+                with open(report) as f:
+                    doc = json.load(f)
+                if len(doc["recordings"]) == 3:
+                    break
+            time.sleep(0.3)
+        with open(report) as f:
+            doc = json.load(f)
+        self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
@@ -304,7 +358,8 @@ if __name__ == "__main__":
         DEMO = os.path.join(tmp, "demo")
         subprocess.run([ARGS.synth, "demo", "--out", DEMO], check=True, capture_output=True)
         with open(os.path.join(DEMO, "truth.json")) as f:
-            DEMO_RECS = json.load(f)["recordings"]
+            DEMO_TRUTH = json.load(f)
+        DEMO_RECS = DEMO_TRUTH["recordings"]
         prog = unittest.main(argv=[sys.argv[0], "-v", *rest], exit=False)
         code = 0 if prog.result.wasSuccessful() else 1
     finally:
