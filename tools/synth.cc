@@ -4,6 +4,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 #include <numbers>
 
 namespace godwit::synth {
@@ -200,6 +202,19 @@ std::string write_audio(const std::string& path, const Samples& interleaved, int
                         double mp3_bitrate_kbps) {
   const auto dot = path.rfind('.');
   const std::string ext = dot == std::string::npos ? "" : path.substr(dot + 1);
+  if (ext == "mp3" && std::system("command -v lame >/dev/null 2>&1") == 0) {
+    // Through the lame encoder, which writes the LAME/Xing info tag that lets
+    // decoders remove the encoder delay (libsndfile's own MP3 writer omits
+    // it, leaving the decoded stream about 1105 samples late).
+    const std::string wav = path + ".tmp.wav";
+    if (auto err = write_audio(wav, interleaved, channels, rate_hz); !err.empty()) return err;
+    char kbps[16];
+    std::snprintf(kbps, sizeof kbps, "%d", static_cast<int>(mp3_bitrate_kbps));
+    const std::string cmd = std::string("lame --quiet -b ") + kbps + " '" + wav + "' '" + path + "'";
+    const int rc = std::system(cmd.c_str());
+    std::remove(wav.c_str());
+    return rc == 0 ? std::string() : "lame failed to encode " + path;
+  }
   SF_INFO info{};
   info.channels = channels;
   info.samplerate = static_cast<int>(rate_hz);

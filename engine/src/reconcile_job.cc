@@ -182,6 +182,16 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     }
     span.resize(got);
     d.profile = verify_airing(master, span, rate, m.polarity, o.verify);
+    {
+      double sum = 0;
+      size_t n = 0;
+      for (size_t s = 0; s < d.profile.scores.size(); ++s)
+        if (d.profile.aired[s]) sum += d.profile.scores[s], ++n;
+      if (n == 0 || sum / static_cast<double>(n) < o.min_airing_score) {
+        ++res.rejected_weak;
+        continue;
+      }
+    }
     const auto [part, frame] = concat->locate(m.offset_s * rate);
     const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;

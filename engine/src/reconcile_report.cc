@@ -96,6 +96,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   j["log_problems"] = nlohmann::json::array();
   for (const auto& p : r.log_problems) j["log_problems"].push_back({{"line", p.line}, {"reason", p.reason}});
   j["families"] = r.families;
+  j["rejected_weak_detections"] = r.rejected_weak;
   j["cautions"] = {kEvidenceCaution};
   return j;
 }

@@ -43,8 +43,8 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
     }
   }
   std::sort(cands.begin(), cands.end(), [](const Candidate& x, const Candidate& y) {
-    return std::tie(x.sibling, x.outside, x.abs_dev, x.planned_s, *x.slot, x.aired_s, x.a) <
-           std::tie(y.sibling, y.outside, y.abs_dev, y.planned_s, *y.slot, y.aired_s, y.a);
+    return std::tie(x.outside, x.sibling, x.abs_dev, x.planned_s, *x.slot, x.aired_s, x.a) <
+           std::tie(y.outside, y.sibling, y.abs_dev, y.planned_s, *y.slot, y.aired_s, y.a);
   });
   Reconciliation r;
   r.verdicts.resize(placements.size());

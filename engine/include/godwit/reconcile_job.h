@@ -51,6 +51,12 @@ struct ReconcileOptions {
   // Versions are told apart only when the best distinguishing score leads
   // the next by this much and reaches verify.min_segment_score.
   double version_margin = 0.1;
+  // A detection whose aired seconds score under this on average matches
+  // only part of the master's audio (its music bed under other speech, a
+  // shared jingle) or lies under noise louder than the spot (0.65 is about
+  // -1.4 dB SNR: r^2 / (1 - r^2)); it is not reported as an airing.
+  // Default 0.65.
+  double min_airing_score = 0.65;
 };
 
 struct VersionScore {
@@ -91,6 +97,7 @@ struct ReconcileResult {
   std::vector<TimelineIssue> timeline_issues;
   std::vector<RecordingStatus> recordings;
   std::vector<std::vector<std::string>> families;  // sibling groups of 2 or more
+  size_t rejected_weak = 0;  // detections under min_airing_score
 };
 
 Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options);

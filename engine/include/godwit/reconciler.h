@@ -3,8 +3,8 @@
 // Assignment (stable, documented in README "Verdicts"): every pair of a
 // placement and an airing of the same spot or of a sibling, with the airing
 // within `horizon_s` of the planned time, is a candidate. Candidates are
-// taken greedily in this order: same spot before sibling, inside the window
-// before outside, smaller |deviation|, earlier planned time, slot id,
+// taken greedily in this order: inside the window before outside, same
+// spot before sibling, smaller |deviation|, earlier planned time, slot id,
 // earlier airing. Each placement takes at most one airing and each airing
 // serves at most one placement.
 //
