@@ -70,6 +70,18 @@ class FileSource final : public AudioSource {
     return n;
   }
 
+  Result<size_t> read_interleaved(float* out, size_t max_frames) override {
+    if (failed_) return failure();
+    const sf_count_t got = sf_readf_float(sf_, out, static_cast<sf_count_t>(max_frames));
+    if (got < 0 || sf_error(sf_) != SF_ERR_NO_ERROR) {
+      failed_ = true;
+      reason_ = sf_strerror(sf_);
+      return failure();
+    }
+    pos_ += got;
+    return static_cast<size_t>(got);
+  }
+
   Status seek(int64_t frame) override {
     if (frame < 0) return Error{ErrorCode::usage, "negative seek", info_.path, std::nullopt};
     if (sf_seek(sf_, static_cast<sf_count_t>(frame), SEEK_SET) < 0)

@@ -38,7 +38,14 @@ Status ConcatSource::open_part(size_t i) {
   return ok_status();
 }
 
-Result<size_t> ConcatSource::read(float* out, size_t max_frames) {
+Result<size_t> ConcatSource::read(float* out, size_t max_frames) { return read_impl(out, max_frames, false); }
+
+Result<size_t> ConcatSource::read_interleaved(float* out, size_t max_frames) {
+  return read_impl(out, max_frames, true);
+}
+
+Result<size_t> ConcatSource::read_impl(float* out, size_t max_frames, bool interleaved) {
+  const size_t width = interleaved ? static_cast<size_t>(std::max(1, info_.channels)) : 1;
   while (pos_ < total_) {
     const int64_t part_end = index_ + 1 < starts_.size() ? starts_[index_ + 1] : total_;
     if (pos_ >= part_end) {
@@ -46,12 +53,12 @@ Result<size_t> ConcatSource::read(float* out, size_t max_frames) {
       continue;
     }
     const size_t want = static_cast<size_t>(std::min<int64_t>(static_cast<int64_t>(max_frames), part_end - pos_));
-    auto got = current_->read(out, want);
+    auto got = interleaved ? current_->read_interleaved(out, want) : current_->read(out, want);
     if (!got) return got.error();
     size_t n = got.value();
     if (n == 0) {  // shorter than stated: silence up to the stated length
       n = want;
-      std::fill(out, out + n, 0.0f);
+      std::fill(out, out + n * width, 0.0f);
     }
     pos_ += static_cast<int64_t>(n);
     return n;

@@ -39,6 +39,14 @@ Result<size_t> MemorySource::read(float* out, size_t max_frames) {
   return static_cast<size_t>(std::max<int64_t>(0, n));
 }
 
+Result<size_t> MemorySource::read_interleaved(float* out, size_t max_frames) {
+  const int64_t n = std::min<int64_t>(static_cast<int64_t>(max_frames), frames_ - pos_);
+  const size_t ch = static_cast<size_t>(channels_);
+  std::copy_n(data_.data() + static_cast<size_t>(pos_) * ch, static_cast<size_t>(std::max<int64_t>(0, n)) * ch, out);
+  pos_ += std::max<int64_t>(0, n);
+  return static_cast<size_t>(std::max<int64_t>(0, n));
+}
+
 Status MemorySource::seek(int64_t frame) {
   if (frame < 0 || frame > frames_)
     return Error{ErrorCode::usage, "seek beyond the end", info_.path, std::nullopt};

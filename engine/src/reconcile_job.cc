@@ -182,15 +182,13 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     }
     span.resize(got);
     d.profile = verify_airing(master, span, rate, m.polarity, o.verify);
-    {
-      double sum = 0;
-      size_t n = 0;
-      for (size_t s = 0; s < d.profile.scores.size(); ++s)
-        if (d.profile.aired[s]) sum += d.profile.scores[s], ++n;
-      if (n == 0 || sum / static_cast<double>(n) < o.min_airing_score) {
-        ++res.rejected_weak;
-        continue;
-      }
+    // Match quality of the part that aired: a cut-off airing of coverage c
+    // scores about q * sqrt(c) overall, q being how well its aired part
+    // matches.
+    if (d.profile.coverage <= 0 ||
+        std::fabs(m.score) / std::sqrt(std::max(d.profile.coverage, 0.05)) < o.min_airing_score) {
+      ++res.rejected_weak;
+      continue;
     }
     const auto [part, frame] = concat->locate(m.offset_s * rate);
     const auto& f = timeline.runs[d.run].files[part];
@@ -254,10 +252,34 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
     a.profile = d.profile;
+    a.run = d.run;
+    a.run_offset_s = d.match.offset_s;
+    a.length_s = templates[d.master].duration_s;
     res.airings.push_back(std::move(a));
   }
 
-  // 6. Verdicts.
+  // 6. Loudness of each airing and of the programme before it.
+  if (o.loudness.enabled) {
+    for (auto& a : res.airings) {
+      auto src = lo.opener(kRunPrefix + std::to_string(a.run), o.locate.channel);
+      if (!src) continue;
+      const double rate = src.value()->info().native_rate_hz;
+      // The aired part: up to the first missing range that reaches the end.
+      double aired_s = a.length_s;
+      if (!a.missing_s.empty() && a.missing_s.back().second >= a.length_s - 1e-6) aired_s = a.missing_s.back().first;
+      if (aired_s > 0.4) {
+        auto l = measure_span_lufs(*src.value(), std::llround(a.run_offset_s * rate), std::llround(aired_s * rate));
+        if (l) a.spot_lufs = l.value();
+      }
+      const double from_s = std::max(0.0, a.run_offset_s - o.loudness.programme_s);
+      if (a.run_offset_s - from_s > 0.4) {
+        auto l = measure_span_lufs(*src.value(), std::llround(from_s * rate), std::llround((a.run_offset_s - from_s) * rate));
+        if (l) a.programme_lufs = l.value();
+      }
+    }
+  }
+
+  // 7. Verdicts.
   std::vector<AiringRef> refs;
   for (const auto& a : res.airings) refs.push_back({a.spot, a.aired_s, a.coverage, a.undetermined_among});
   auto siblings = [&](const std::string& x, const std::string& y) {

@@ -14,10 +14,30 @@ const char* const kEvidenceCaution =
     "Detections are evidence to verify by listening: play the recording at the reported offset before relying on "
     "a verdict in a dispute.";
 
+const char* const kLoudnessCaution =
+    "Loudness figures are indicative (ITU-R BS.1770 integrated loudness through libebur128 on the aircheck as "
+    "recorded), not a certified measurement; local regulation and certified meters decide.";
+
 namespace {
 
+nlohmann::json loudness_fields(const AiringRecord& a, const LoudnessOptions& o) {
+  nlohmann::json l = nlohmann::json::object();
+  if (a.spot_lufs) {
+    l["spot_lufs"] = detail::round_decimals(*a.spot_lufs, 1);
+    l["target_lufs"] = o.target_lufs;
+    l["spot_vs_target_lu"] = detail::round_decimals(*a.spot_lufs - o.target_lufs, 1);
+  }
+  if (a.programme_lufs) l["programme_lufs"] = detail::round_decimals(*a.programme_lufs, 1);
+  if (a.spot_lufs && a.programme_lufs) {
+    const double d = *a.spot_lufs - *a.programme_lufs;
+    l["spot_vs_programme_lu"] = detail::round_decimals(d, 1);
+    l["louder_than_programme"] = d > o.louder_margin_lu;
+    l["margin_lu"] = o.louder_margin_lu;
+  }
+  return l;
+}
 
-nlohmann::json airing_fields(const AiringRecord& a) {
+nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
   nlohmann::json j{{"aired", format_iso8601_local(a.aired_s, 3)},
                    {"score", detail::round_decimals(a.score, 4)},
                    {"coverage", detail::round_decimals(a.coverage, 3)},
@@ -36,6 +56,7 @@ nlohmann::json airing_fields(const AiringRecord& a) {
   nlohmann::json prof = nlohmann::json::array();
   for (float s : a.profile.scores) prof.push_back(detail::round_decimals(s, 3));
   j["profile"] = {{"segment_s", a.profile.segment_s}, {"scores", prof}};
+  j["loudness"] = loudness_fields(a, o);
   return j;
 }
 
@@ -57,7 +78,7 @@ const std::string& reported_spot(const AiringRecord& a, const Placement& p) {
   return fits ? p.spot : a.spot;
 }
 
-nlohmann::json reconcile_to_json(const ReconcileResult& r) {
+nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& lo) {
   nlohmann::json j;
   nlohmann::json summary = {{"aired", 0}, {"early", 0}, {"late", 0}, {"missing", 0}, {"partial", 0}, {"wrong_version", 0}};
   j["placements"] = nlohmann::json::array();
@@ -68,7 +89,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
     summary[verdict_name(v.status)] = summary[verdict_name(v.status)].get<int>() + 1;
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
-      x.update(airing_fields(a));
+      x.update(airing_fields(a, lo));
       x["deviation_s"] = detail::round_decimals(v.deviation_s, 3);
       x["detected_spot"] = reported_spot(a, p);
     }
@@ -77,7 +98,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   j["unscheduled"] = nlohmann::json::array();
   for (size_t i : r.unscheduled) {
     nlohmann::json x{{"spot", r.airings[i].spot}};
-    x.update(airing_fields(r.airings[i]));
+    x.update(airing_fields(r.airings[i], lo));
     j["unscheduled"].push_back(std::move(x));
   }
   summary["unscheduled"] = r.unscheduled.size();
@@ -97,12 +118,22 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r) {
   for (const auto& p : r.log_problems) j["log_problems"].push_back({{"line", p.line}, {"reason", p.reason}});
   j["families"] = r.families;
   j["rejected_weak_detections"] = r.rejected_weak;
-  j["cautions"] = {kEvidenceCaution};
+  j["cautions"] = {kEvidenceCaution, kLoudnessCaution};
   return j;
 }
 
 std::string reconcile_to_csv(const ReconcileResult& r) {
-  std::string out = "slot,spot,planned,status,aired,deviation_s,score,coverage,detected_spot,recording,offset_s\r\n";
+  std::string out =
+      "slot,spot,planned,status,aired,deviation_s,score,coverage,detected_spot,recording,offset_s,spot_lufs,"
+      "programme_lufs\r\n";
+  auto lufs = [](const AiringRecord& a) {
+    char b[64];
+    std::string s = ",";
+    if (a.spot_lufs) std::snprintf(b, sizeof b, "%.1f", *a.spot_lufs), s += b;
+    s += ",";
+    if (a.programme_lufs) std::snprintf(b, sizeof b, "%.1f", *a.programme_lufs), s += b;
+    return s;
+  };
   char num[128];
   for (const auto& v : r.verdicts) {
     const Placement& p = r.placements[v.placement];
@@ -112,9 +143,9 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
       std::snprintf(num, sizeof num, ",%.3f,%.4f,%.3f,", v.deviation_s, a.score, a.coverage);
       out += format_iso8601_local(a.aired_s, 3) + num + csv_field(reported_spot(a, p)) + "," + csv_field(a.recording);
       std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
-      out += num;
+      out += num + lufs(a);
     } else {
-      out += ",,,,,,";
+      out += ",,,,,,,,";
     }
     out += "\r\n";
   }
@@ -124,8 +155,8 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
     std::snprintf(num, sizeof num, ",,%.4f,%.3f,", a.score, a.coverage);
     out += "," + csv_field(a.spot) + ",,unscheduled," + format_iso8601_local(a.aired_s, 3) + num + csv_field(a.spot) +
            "," + csv_field(a.recording);
-    std::snprintf(num, sizeof num, ",%.6f\r\n", a.offset_s);
-    out += num;
+    std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
+    out += num + lufs(a) + "\r\n";
   }
   return out;
 }

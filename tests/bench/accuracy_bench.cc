@@ -213,10 +213,24 @@ int main(int argc, char** argv) {
   for (const auto& t : truth)
     if (!t.slot.empty()) log += t.slot + "," + t.planned_spot + "," + format_iso8601_local(t.planned_s, 0) + ",60\n";
   std::vector<std::pair<std::string, std::string>> never;
+  const double horizon_s = ReconcileOptions{}.verdicts.horizon_s;
   for (int m = 0; m < hours * 2; ++m) {
-    const std::string slot = "N" + std::to_string(m);
-    never.emplace_back(slot, spots[rng.next() % spots.size()].id);
-    log += slot + "," + never.back().second + "," + format_iso8601_local(day0 + m * 1800.0 + 75, 0) + ",30\n";
+    // A placement that never aired: of a spot with no airing of its family
+    // within the horizon, so that the truth is unambiguous.
+    const LocalSeconds at = day0 + m * 1800.0 + 75;
+    for (int tries = 0; tries < 20; ++tries) {
+      const std::string& id = spots[rng.next() % spots.size()].id;
+      const bool near = std::any_of(truth.begin(), truth.end(), [&](const Truth& t) {
+        const bool fam = t.spot == id || ((id == "bench-spot-4" || id == "bench-spot-5") &&
+                                          (t.spot == "bench-spot-4" || t.spot == "bench-spot-5"));
+        return fam && t.kind != Kind::hard_negative && std::fabs(t.aired_s - at) <= horizon_s + 60;
+      });
+      if (near) continue;
+      const std::string slot = "N" + std::to_string(m);
+      never.emplace_back(slot, id);
+      log += slot + "," + id + "," + format_iso8601_local(at, 0) + ",30\n";
+      break;
+    }
   }
   std::ofstream(dir / "planned.csv") << log;
 
@@ -256,6 +270,13 @@ int main(int argc, char** argv) {
       if (best >= 0) {
         used[best] = true;
         ++hard_neg_hits;
+        const auto& a = r.airings[best];
+        double sum = 0;
+        int n = 0;
+        for (size_t q = 0; q < a.profile.scores.size(); ++q)
+          if (a.profile.aired[q]) sum += a.profile.scores[q], ++n;
+        std::printf("  hard negative detected: bed of %s at %s, score %.3f, aired-seconds mean %.3f\n", t.spot.c_str(),
+                    format_iso8601_local(t.aired_s, 3).c_str(), a.score, n ? sum / n : 0.0);
       }
       by_kind[kind_name(t.kind)].second++;
       if (best < 0) by_kind[kind_name(t.kind)].first++;  // "found" = correctly rejected
@@ -300,7 +321,14 @@ int main(int argc, char** argv) {
     }
     ++verdict_n;
     if (want == verdict_name(v.status)) ++verdict_ok;
-    else if (wrong.size() < 8) wrong.push_back(p.slot + " want " + want + " got " + verdict_name(v.status));
+    else if (wrong.size() < 8) {
+      std::string detail = p.slot + " (" + p.spot + " planned " + format_iso8601_local(p.planned_s, 0) + ") want " + want +
+                           " got " + verdict_name(v.status);
+      if (v.airing) detail += " with the airing at " + format_iso8601_local(r.airings[*v.airing].aired_s, 3);
+      if (auto it = by_slot.find(p.slot); it != by_slot.end())
+        detail += "; truth aired " + format_iso8601_local(it->second->aired_s, 3) + " " + kind_name(it->second->kind);
+      wrong.push_back(detail);
+    }
   }
 
   rusage ru{};

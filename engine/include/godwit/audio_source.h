@@ -52,6 +52,14 @@ class AudioSource {
   virtual Status seek(int64_t frame) = 0;
   // Native frame index of the next read.
   virtual int64_t position_frames() const = 0;
+  // Like read(), but every channel, interleaved (out holds max_frames *
+  // info().channels values): for loudness, which weighs channels itself.
+  // Default: unsupported.
+  virtual Result<size_t> read_interleaved(float* out, size_t max_frames) {
+    (void)out;
+    (void)max_frames;
+    return Error{ErrorCode::unsupported, "this source cannot read all channels", info().path, std::nullopt};
+  }
 };
 
 using SourcePtr = std::unique_ptr<AudioSource>;

@@ -31,6 +31,7 @@ class ConcatSource final : public AudioSource {
   const AudioInfo& info() const override { return info_; }
   Result<size_t> read(float* out, size_t max_frames) override;
   Status seek(int64_t frame) override;
+  Result<size_t> read_interleaved(float* out, size_t max_frames) override;
   int64_t position_frames() const override { return pos_; }
 
   // Where stream frame `frame` lies: part index and frame within that file
@@ -42,6 +43,7 @@ class ConcatSource final : public AudioSource {
  private:
   ConcatSource() = default;
   Status open_part(size_t i);
+  Result<size_t> read_impl(float* out, size_t max_frames, bool interleaved);
   AudioInfo info_;
   std::vector<ConcatPart> parts_;
   SourceOpener opener_;

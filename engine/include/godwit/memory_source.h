@@ -28,6 +28,7 @@ class MemorySource final : public AudioSource {
   const AudioInfo& info() const override { return info_; }
   Result<size_t> read(float* out, size_t max_frames) override;
   Status seek(int64_t frame) override;
+  Result<size_t> read_interleaved(float* out, size_t max_frames) override;
   int64_t position_frames() const override { return pos_; }
 
  private:

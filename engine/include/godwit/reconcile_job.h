@@ -17,6 +17,7 @@
 #include <vector>
 
 #include "godwit/families.h"
+#include "godwit/loudness.h"
 #include "godwit/job.h"
 #include "godwit/planned_log.h"
 #include "godwit/reconciler.h"
@@ -41,7 +42,15 @@ struct ReconcileJob {
   PlannedLog log;
 };
 
+struct LoudnessOptions {
+  bool enabled = true;
+  double programme_s = 300;      // the programme measured before each airing. Default: 5 minutes
+  double louder_margin_lu = 2.0; // flag a spot louder than its programme by more. Default 2 LU (ours)
+  double target_lufs = -23.0;    // EBU R128 programme target; ATSC A/85 uses -24 LKFS
+};
+
 struct ReconcileOptions {
+  LoudnessOptions loudness;
   LocateOptions locate;
   std::string name_pattern = "%Y%m%dT%H%M%S";  // Default: 20260314T060000 anywhere in the name
   double timeline_tolerance_s = 0.5;
@@ -51,11 +60,11 @@ struct ReconcileOptions {
   // Versions are told apart only when the best distinguishing score leads
   // the next by this much and reaches verify.min_segment_score.
   double version_margin = 0.1;
-  // A detection whose aired seconds score under this on average matches
-  // only part of the master's audio (its music bed under other speech, a
-  // shared jingle) or lies under noise louder than the spot (0.65 is about
-  // -1.4 dB SNR: r^2 / (1 - r^2)); it is not reported as an airing.
-  // Default 0.65.
+  // A detection whose aired part matches under this (|score| /
+  // sqrt(coverage)) shares only part of the master's audio (its music bed
+  // under other speech, a shared jingle) or lies under noise louder than
+  // the spot (0.65 is about -1.4 dB SNR: r^2 / (1 - r^2)); it is not
+  // reported as an airing. Default 0.65.
   double min_airing_score = 0.65;
 };
 
@@ -78,6 +87,12 @@ struct AiringRecord {
   // siblings: these all fit, and `spot` is only the first of them.
   std::vector<std::string> undetermined_among;
   Profile profile;
+  // ITU-R BS.1770 integrated loudness (indicative): of the aired part of
+  // the spot, and of the programme before it in the same run.
+  std::optional<double> spot_lufs, programme_lufs;
+  size_t run = 0;
+  double run_offset_s = 0;
+  double length_s = 0;  // the master's length
 };
 
 struct RecordingStatus {

@@ -20,7 +20,7 @@
 
 namespace godwit {
 
-nlohmann::json reconcile_to_json(const ReconcileResult& r);
+nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& loudness = {});
 std::string reconcile_to_csv(const ReconcileResult& r);
 
 // The spot to report as detected for a placement: the placement's own when
@@ -29,5 +29,6 @@ const std::string& reported_spot(const AiringRecord& airing, const Placement& pl
 
 // The cautions every report carries.
 extern const char* const kEvidenceCaution;
+extern const char* const kLoudnessCaution;
 
 }  // namespace godwit
