@@ -9,3 +9,5 @@ $B throughput --templates 20 --hours 1
 $B false-alarms
 $B day --templates 100 --hours 24
 /usr/bin/python3 tests/bench/daemon_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth
+build/tests/bench/accuracy_bench --hours 3 --seed 1
+build/tests/bench/accuracy_bench --hours 6 --seed 2

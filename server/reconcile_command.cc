@@ -27,16 +27,25 @@ struct ReconcileArgs {
   EngineArgs engine;
 };
 
+std::string loudness_cell(const AiringRecord& a) {
+  char b[48] = "";
+  if (a.spot_lufs && a.programme_lufs)
+    std::snprintf(b, sizeof b, "%6.1f %+5.1f", *a.spot_lufs, *a.spot_lufs - *a.programme_lufs);
+  else if (a.spot_lufs)
+    std::snprintf(b, sizeof b, "%6.1f     -", *a.spot_lufs);
+  return b;
+}
+
 void print_table(const ReconcileResult& r) {
-  std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6s %6s\n", "slot", "spot", "planned", "status", "aired",
-              "dev_s", "score", "cover");
+  std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6s %5s %12s\n", "slot", "spot", "planned", "status", "aired",
+              "dev_s", "score", "cover", "LUFS vs_prog");
   for (const auto& v : r.verdicts) {
     const Placement& p = r.placements[v.placement];
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
-      std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %6.2f%s\n", p.slot.c_str(), p.spot.c_str(),
+      std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %5.2f %12s%s\n", p.slot.c_str(), p.spot.c_str(),
                   p.planned.c_str(), verdict_name(v.status), format_iso8601_local(a.aired_s, 3).c_str(),
-                  v.deviation_s, a.score, a.coverage,
+                  v.deviation_s, a.score, a.coverage, loudness_cell(a).c_str(),
                   reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "");
     } else {
       std::printf("%-10s %-26s %-19s %-13s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
@@ -45,8 +54,8 @@ void print_table(const ReconcileResult& r) {
   }
   for (size_t i : r.unscheduled) {
     const AiringRecord& a = r.airings[i];
-    std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6.3f %6.2f\n", "-", a.spot.c_str(), "-", "unscheduled",
-                format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage);
+    std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6.3f %5.2f %12s\n", "-", a.spot.c_str(), "-", "unscheduled",
+                format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage, loudness_cell(a).c_str());
   }
 }
 
@@ -91,7 +100,8 @@ int run(const ReconcileArgs& a) {
   for (const auto& t : r.timeline_issues)
     warn(std::string("timeline ") + timeline_issue_name(t.kind) + " of " + std::to_string(t.seconds) + " s between " +
          t.before + " and " + t.after);
-  if (!a.engine.quiet) std::cerr << "godwit: report written to " << a.out << "\n" << kEvidenceCaution << "\n";
+  if (!a.engine.quiet)
+    std::cerr << "godwit: report written to " << a.out << "\n" << kEvidenceCaution << "\n" << kLoudnessCaution << "\n";
   if (!r.recordings.empty() && failed == r.recordings.size()) return 3;
   return failed ? 4 : 0;
 }

@@ -202,6 +202,22 @@ class DemoReconcile(unittest.TestCase):
     def test_printed_table_and_caution(self):
         self.assertIn("wrong_version", self.proc.stdout)
         self.assertIn("evidence to verify by listening", self.proc.stderr)
+        self.assertIn("indicative", self.proc.stderr)
+        self.assertTrue(any("indicative" in c for c in self.doc["cautions"]))
+
+    def test_loudness_of_each_airing_and_its_programme(self):
+        # The demo's spots are mastered at the same RMS as its programme: their
+        # BS.1770 loudness lies within a few LU of it, and a recorded airing reads
+        # a plausible broadcast level (common practice: -30..-10 LUFS).
+        for p in self.doc["placements"]:
+            if "aired" not in p:
+                continue
+            l = p["loudness"]
+            self.assertTrue(-30 < l["spot_lufs"] < -10, p)
+            self.assertTrue(-30 < l["programme_lufs"] < -10, p)
+            self.assertAlmostEqual(l["spot_vs_programme_lu"], l["spot_lufs"] - l["programme_lufs"], delta=0.11)
+            self.assertEqual(l["louder_than_programme"], l["spot_vs_programme_lu"] > l["margin_lu"])
+            self.assertEqual(l["target_lufs"], -23.0)
         self.assertIn("line", json.dumps(self.doc["log_problems"]))
 
     def test_bad_planned_log_header_is_a_usage_error(self):
