@@ -7,6 +7,7 @@
 #include "atomic_file.h"
 #include "engine_options.h"
 #include "godwit/reconcile_job.h"
+#include "godwit/html_report.h"
 #include "godwit/reconcile_report.h"
 #include "reconcile_inputs.h"
 
@@ -18,7 +19,7 @@ struct ReconcileArgs {
   std::string schedule;
   std::vector<std::string> recordings;
   std::string out;
-  std::vector<std::string> formats{"json", "csv"};
+  std::vector<std::string> formats{"json", "csv", "html"};
   double window_s = 60;
   double partial_below = 0.9;
   double horizon_s = 3600;
@@ -91,7 +92,10 @@ int run(const ReconcileArgs& a) {
   if (ec) return fail({ErrorCode::io, "cannot create the output folder: " + ec.message(), a.out, {}});
   for (const auto& f : a.formats) {
     const std::string path = (std::filesystem::path(a.out) / ("reconcile." + f)).string();
-    const std::string doc = f == "csv" ? reconcile_to_csv(r) : reconcile_to_json(r).dump(2) + "\n";
+    std::string doc;
+    if (f == "csv") doc = reconcile_to_csv(r);
+    else if (f == "html") doc = reconcile_to_html(r, {std::filesystem::path(a.schedule).stem().string(), o.loudness});
+    else doc = reconcile_to_json(r, o.loudness).dump(2) + "\n";
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
@@ -116,13 +120,13 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
       "file boundaries are found), verify each airing (coverage, version among siblings), and give each\n"
       "placement of the planned log a verdict: aired, early, late, missing, partial or wrong_version;\n"
       "airings matching no placement are listed as unscheduled. Writes OUT/reconcile.json and\n"
-      "OUT/reconcile.csv and prints the verdicts. Detections are evidence to verify by listening.");
+      "OUT/reconcile.csv and OUT/reconcile.html (a self-contained page) and prints the verdicts. Detections are evidence to verify by listening.");
   cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
   cmd->add_option("--schedule,-s", a->schedule, "planned log CSV: slot,spot,planned,window_s")->required();
   cmd->add_option("--recording,-r", a->recordings, "airchecks, start time in the file name")->required();
   cmd->add_option("--out,-o", a->out, "output folder (created if needed)")->required();
-  cmd->add_option("--format", a->formats, "documents to write: json, csv (default both)")
-      ->check(CLI::IsMember({"json", "csv"}))
+  cmd->add_option("--format", a->formats, "documents to write: json, csv, html (default all three)")
+      ->check(CLI::IsMember({"json", "csv", "html"}))
       ->delimiter(',');
   cmd->add_option("--window-s", a->window_s, "allowed deviation when a row leaves window_s empty (default 60)")
       ->check(CLI::Range(0.0, 86400.0));

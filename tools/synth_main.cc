@@ -17,6 +17,7 @@
 
 #include "godwit/analysis_stream.h"
 #include "godwit/civil_time.h"
+#include "godwit/html_report.h"
 #include "synth.h"
 
 namespace fs = std::filesystem;
@@ -180,6 +181,51 @@ int make_demo(const fs::path& out) {
   return 0;
 }
 
+// A day of reconciliation results for rendering tests: `placements` slots
+// over 24 h with every verdict represented. The evidence is made up (a
+// rendering fixture, not a detection); it never leaves the test.
+int make_report_fixture(const std::string& out, int placements) {
+  ReconcileResult r;
+  const LocalSeconds day = *parse_iso8601_local("2026-03-14T00:00:00");
+  synth::Rng rng(42);
+  const VerdictStatus statuses[] = {VerdictStatus::aired, VerdictStatus::aired, VerdictStatus::aired, VerdictStatus::early,
+                                    VerdictStatus::late, VerdictStatus::partial, VerdictStatus::wrong_version,
+                                    VerdictStatus::missing};
+  for (int i = 0; i < placements; ++i) {
+    Placement p;
+    p.slot = "L" + std::to_string(i + 1);
+    p.spot = kSpots[static_cast<size_t>(i) % 6].id;
+    p.planned_s = day + 86400.0 * (i + 0.5) / placements;
+    p.planned = format_iso8601_local(p.planned_s, 0);
+    p.window_s = 60;
+    p.line = static_cast<size_t>(i + 2);
+    Verdict v;
+    v.placement = static_cast<size_t>(i);
+    v.status = statuses[rng.next() % 8];
+    if (v.status != VerdictStatus::missing) {
+      AiringRecord a;
+      a.spot = p.spot;
+      v.deviation_s = v.status == VerdictStatus::early ? -120 : v.status == VerdictStatus::late ? 150 : rng.uniform(-30, 30);
+      a.aired_s = p.planned_s + v.deviation_s;
+      a.recording = "kestrel-fm-" + format_iso8601_local(a.aired_s, 0).substr(0, 13) + ".flac";
+      a.offset_s = std::fmod(a.aired_s - day, 3600.0);
+      a.score = rng.uniform(0.7, 1.0);
+      a.coverage = v.status == VerdictStatus::partial ? 0.6 : 1.0;
+      a.length_s = 30;
+      a.profile.segment_s = 1;
+      for (int k = 0; k < 30; ++k) a.profile.scores.push_back(static_cast<float>(k < 30 * a.coverage ? a.score : 0.02));
+      a.spot_lufs = rng.uniform(-20, -14);
+      a.programme_lufs = rng.uniform(-20, -16);
+      v.airing = r.airings.size();
+      r.airings.push_back(std::move(a));
+    }
+    r.placements.push_back(p);
+    r.verdicts.push_back(v);
+  }
+  std::ofstream(out) << reconcile_to_html(r, {"fixture: 24 h, " + std::to_string(placements) + " placements", {}});
+  return 0;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -188,7 +234,13 @@ int main(int argc, char** argv) {
   std::string out;
   auto* demo = app.add_subcommand("demo", "write the demo scenario (masters, aircheck, truth)");
   demo->add_option("--out", out, "output folder")->required();
+  int placements = 300;
+  std::string fixture_out;
+  auto* fixture = app.add_subcommand("report-fixture", "an HTML report of a made-up 24 h day, for rendering tests");
+  fixture->add_option("--placements", placements, "placements over the day (default 300)");
+  fixture->add_option("--out", fixture_out, "output HTML file")->required();
   CLI11_PARSE(app, argc, argv);
   if (*demo) return make_demo(out);
+  if (*fixture) return make_report_fixture(fixture_out, placements);
   return 0;
 }
