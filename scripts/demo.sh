@@ -11,4 +11,4 @@ build/server/godwit reconcile --library build/demo/library \
   --schedule build/demo/schedules/kestrel-fm-2026-03-14.csv \
   --recording build/demo/airchecks/kestrel-fm-20260314T06*.flac \
   --out build/demo/report
-echo "demo: reports in build/demo/report (reconcile.json, reconcile.csv); what was planted: build/demo/truth.json" >&2
+echo "demo: reports in build/demo/report (reconcile.json, reconcile.csv, reconcile.html); what was planted: build/demo/truth.json" >&2
