@@ -25,6 +25,9 @@ struct ReconcileArgs {
   double horizon_s = 3600;
   std::string name_pattern = "%Y%m%dT%H%M%S";
   std::string start;
+  double loudness_margin_lu = 2.0;
+  double loudness_target_lufs = -23.0;
+  bool no_loudness = false;
   EngineArgs engine;
 };
 
@@ -77,6 +80,9 @@ int run(const ReconcileArgs& a) {
   o.name_pattern = a.name_pattern;
   o.verdicts.partial_below = a.partial_below;
   o.verdicts.horizon_s = a.horizon_s;
+  o.loudness.enabled = !a.no_loudness;
+  o.loudness.louder_margin_lu = a.loudness_margin_lu;
+  o.loudness.target_lufs = a.loudness_target_lufs;
   auto result = run_reconcile(job, o);
   setup.finish();
   if (!result) {
@@ -138,6 +144,13 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_option("--name-pattern", a->name_pattern,
                   "where file names carry the start: %Y %m %d %H %M %S (default %Y%m%dT%H%M%S)");
   cmd->add_option("--start", a->start, "start of a single recording (ISO 8601 local), instead of its name");
+  cmd->add_option("--loudness-margin-lu", a->loudness_margin_lu,
+                  "flag a spot louder than the 5 minutes of programme before it by more than this (default 2 LU)")
+      ->check(CLI::Range(0.0, 40.0));
+  cmd->add_option("--loudness-target-lufs", a->loudness_target_lufs,
+                  "target to report each spot's gap to (default -23, EBU R128; ATSC A/85: -24)")
+      ->check(CLI::Range(-70.0, 0.0));
+  cmd->add_flag("--no-loudness", a->no_loudness, "skip the loudness measurements");
   add_engine_options(cmd, a->engine);
   cmd->footer(
       "Exit codes: 0 done; 2 usage error (bad log header, options); 3 a master or every recording could\n"

@@ -220,6 +220,21 @@ class DemoReconcile(unittest.TestCase):
             self.assertEqual(l["target_lufs"], -23.0)
         self.assertIn("line", json.dumps(self.doc["log_problems"]))
 
+    def test_loudness_margin_and_target_are_configurable(self):
+        out = os.path.join(self.tmp.name, "loud")
+        run("reconcile", "--library", os.path.join(self.demo, "library"),
+            "--schedule", os.path.join(self.demo, "schedules", "kestrel-fm-2026-03-14.csv"),
+            "--recording", *self.truth["recordings"], "--out", out, "--format", "json",
+            "--loudness-margin-lu", "10", "--loudness-target-lufs", "-24", "--planner", "estimate", "--cache-dir", "",
+            check=0)
+        doc = json.load(open(os.path.join(out, "reconcile.json")))
+        aired = [p for p in doc["placements"] if "aired" in p]
+        self.assertTrue(aired)
+        for p in aired:
+            self.assertEqual(p["loudness"]["target_lufs"], -24.0)
+            self.assertFalse(p["loudness"]["louder_than_programme"])  # no demo spot is 10 LU louder
+        self.assertFalse(os.path.exists(os.path.join(out, "reconcile.csv")))
+
     def test_bad_planned_log_header_is_a_usage_error(self):
         bad = os.path.join(self.tmp.name, "bad.csv")
         with open(bad, "w") as f:
