@@ -195,13 +195,17 @@ void DropFolder::reconcile_day(const std::string& name) {
   std::sort(recordings.begin(), recordings.end());
   nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
                       {"recordings", recordings}, {"window_s", 60.0}};
-  auto doc = runner_.run(spec, [](double) {}, [this] { return stop_.load(); },
-                         [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); });
+  std::string html;
+  auto doc = runner_.run(
+      spec, [](double) {}, [this] { return stop_.load(); },
+      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &html);
   if (!doc) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());
     return;
   }
   const std::string out = (fs::path(o_.dir) / "results" / (fs::path(schedule).stem().string() + ".reconcile.json")).string();
+  const std::string out_html = out.substr(0, out.size() - 5) + ".html";
+  if (auto st = write_file_atomically(out_html, html); !st) spdlog::warn("drop folder: {}", st.error().describe());
   if (auto st = write_file_atomically(out, doc.value().dump(2) + "\n"); !st)
     spdlog::warn("drop folder: {}", st.error().describe());
   else

@@ -5,6 +5,7 @@
 
 #include "atomic_file.h"
 #include "base64.h"
+#include "godwit/html_report.h"
 #include "godwit/job.h"
 #include "godwit/locate_report.h"
 #include "godwit/reconcile_job.h"
@@ -157,7 +158,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
 
 Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
-                                      const std::function<void(std::string_view)>& warn) const {
+                                      const std::function<void(std::string_view)>& warn, std::string* html) const {
   LocateOptions lo;
   lo.correlator.threads = config_.threads_per_job;
   lo.correlator.planner = config_.planner;
@@ -177,7 +178,10 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     ro.locate = lo;
     auto r = run_reconcile(job.value(), ro);
     if (!r) return r.error();
-    return reconcile_to_json(r.value());
+    if (html)
+      *html = reconcile_to_html(r.value(), {std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string(),
+                                            ro.loudness});
+    return reconcile_to_json(r.value(), ro.loudness);
   }
   lo.picker.threshold = spec.value("threshold", 0.4);
   lo.picker.floor_k = spec.value("floor_k", 10.0);

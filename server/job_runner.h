@@ -42,9 +42,10 @@ class JobRunner {
   JobRunner(RunnerConfig config, const PathGuard& guard) : config_(std::move(config)), guard_(guard) {}
 
   Result<nlohmann::json> prepare(const nlohmann::json& job) const;
+  // For a reconcile job, `html` (when given) receives the HTML report too.
   Result<nlohmann::json> run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
                              const std::function<bool()>& should_stop,
-                             const std::function<void(std::string_view)>& warn) const;
+                             const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
   const RunnerConfig& config() const { return config_; }
 
  private:

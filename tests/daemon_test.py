@@ -344,6 +344,8 @@ class DaemonTests(unittest.TestCase):
         with open(report) as f:
             doc = json.load(f)
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
+        with open(report[: -len(".json")] + ".html") as f:
+            self.assertEqual(f.read().count('class="placement"'), len(doc["placements"]))
 
 
 if __name__ == "__main__":
