@@ -129,10 +129,15 @@ struct Correlator::Impl {
         fill_inverse(m, ws.inverse.data(), n_out);
         inv = ws.inverse.data();
       }
-      // Normalized in place: one pass over the inverse transform's output.
+      // Normalized in place and handed on a cache-sized chunk at a time, so
+      // the sink reads what was just written from cache, not memory.
       float* r = ws.output.get();
-      for (size_t k = 0; k < n_out; ++k) r[k] = std::clamp(r[k] * inv_l * inv[k], -1.0f, 1.0f);
-      sink(t, start, r, n_out);
+      constexpr size_t kChunk = 8192;
+      for (size_t c = 0; c < n_out; c += kChunk) {
+        const size_t e = std::min(n_out, c + kChunk);
+        for (size_t k = c; k < e; ++k) r[k] = std::clamp(r[k] * inv_l * inv[k], -1.0f, 1.0f);
+        sink(t, start + static_cast<int64_t>(c), r + c, e - c);
+      }
     });
   }
 
