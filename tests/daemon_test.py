@@ -293,6 +293,38 @@ class DaemonTests(unittest.TestCase):
         with open(want[2]) as f:
             self.assertTrue(json.load(f)["message"])
 
+    def test_connection_limit_answers_busy_and_others_continue(self):
+        d = self.start(extra_config="[limits]\nmax_connections = 3\n")
+        held = [d.connect() for _ in range(3)]
+        for c in held:
+            self.assertTrue(c.req({"op": "health"})["ok"])
+        extra = d.connect()
+        self.assertEqual(extra.read()["error"]["code"], "busy")
+        self.assertTrue(held[0].req({"op": "health"})["ok"])
+
+    def test_ipv6_loopback(self):
+        try:
+            probe = socket.socket(socket.AF_INET6)
+            probe.bind(("::1", 0))
+            probe.close()
+        except OSError:
+            self.skipTest("no IPv6 loopback on this machine")
+        p = subprocess.Popen([ARGS.godwitd, "--listen", "[::1]:0", "--state-dir", os.path.join(self.tmp, "s6"),
+                              "--planner", "estimate"], stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
+        try:
+            port = json.loads(p.stdout.readline())["port"]
+            s6 = socket.create_connection(("::1", port), timeout=10)
+            f = s6.makefile("rwb")
+            f.write(b'{"op":"health","id":6}\n')
+            f.flush()
+            r = json.loads(f.readline())
+            self.assertTrue(r["ok"])
+            self.assertEqual(r["id"], 6)
+            s6.close()
+        finally:
+            p.terminate()
+            p.wait(timeout=30)
+
     def test_reconcile_job_over_tcp_gives_the_demo_verdicts(self):
         d = self.start()
         c = d.connect()
