@@ -147,10 +147,14 @@ Result<std::string> JobStore::submit(const nlohmann::json& spec) {
   {
     std::lock_guard lock(mu_);
     jobs_[id] = info;
+  }
+  // Announced before a worker can take it, so watchers see queued, then running.
+  emit({{"event", "state"}, {"job", id}, {"state", "queued"}});
+  {
+    std::lock_guard lock(mu_);
     queue_.push_back(id);
   }
   cv_.notify_one();
-  emit({{"event", "state"}, {"job", id}, {"state", "queued"}});
   return id;
 }
 
@@ -198,10 +202,14 @@ std::optional<std::string> JobStore::result_text(const std::string& id) const {
 
 std::optional<JobInfo> JobStore::take() {
   std::unique_lock lock(mu_);
-  cv_.wait(lock, [&] { return stopping_ || !queue_.empty(); });
-  if (stopping_) return std::nullopt;
-  const std::string id = queue_.front();
-  queue_.pop_front();
+  std::string id;
+  for (;;) {
+    cv_.wait(lock, [&] { return stopping_ || !queue_.empty(); });
+    if (stopping_) return std::nullopt;
+    id = queue_.front();
+    queue_.pop_front();
+    if (jobs_[id].state == JobState::queued) break;  // cancelled between submit and enqueue
+  }
   JobInfo& j = jobs_[id];
   j.state = JobState::running;
   ++running_;

@@ -14,7 +14,6 @@ Result<bool> AnalysisStream::next(Samples& out) {
   if (!got) {
     // Keep what the filter holds: those samples are real audio.
     resampler_.flush(out);
-    delivered_ += static_cast<int64_t>(out.size());
     done_ = true;
     return got.error();
   }
@@ -26,8 +25,21 @@ Result<bool> AnalysisStream::next(Samples& out) {
   } else {
     resampler_.process(native_.data(), n, out);
   }
-  delivered_ += static_cast<int64_t>(out.size());
   return !done_ || !out.empty();
+}
+
+Samples read_native_span(AudioSource& source, int64_t start, size_t frames) {
+  Samples span(frames);
+  size_t got = 0;
+  if (source.seek(start)) {
+    while (got < frames) {
+      auto r = source.read(span.data() + got, frames - got);
+      if (!r || r.value() == 0) break;
+      got += r.value();
+    }
+  }
+  span.resize(got);
+  return span;
 }
 
 Result<Samples> decode_all(AudioSource& source, double rate_hz) {

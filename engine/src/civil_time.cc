@@ -84,8 +84,6 @@ std::string format_iso8601_local(LocalSeconds t, int decimals) {
   return out;
 }
 
-LocalSeconds day_start(LocalSeconds t) { return std::floor(t / 86400.0) * 86400.0; }
-
 std::optional<LocalSeconds> time_from_name(std::string_view name, std::string_view pattern) {
   for (size_t start = 0; start < name.size(); ++start) {
     int f[6] = {1970, 1, 1, 0, 0, 0};  // Y m d H M S

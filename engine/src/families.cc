@@ -6,6 +6,7 @@
 
 #include "godwit/correlator.h"
 #include "godwit/template_bank.h"
+#include "pearson.h"
 
 namespace godwit {
 namespace {
@@ -17,17 +18,6 @@ struct UnionFind {
   void join(size_t a, size_t b) { parent[find(b)] = find(a); }
 };
 
-double pearson(const float* a, const float* b, size_t n) {
-  double sa = 0, sb = 0;
-  for (size_t i = 0; i < n; ++i) sa += a[i], sb += b[i];
-  const double ma = sa / static_cast<double>(n), mb = sb / static_cast<double>(n);
-  double dot = 0, ea = 0, eb = 0;
-  for (size_t i = 0; i < n; ++i) {
-    const double x = a[i] - ma, y = b[i] - mb;
-    dot += x * y, ea += x * x, eb += y * y;
-  }
-  return ea > 0 && eb > 0 ? dot / std::sqrt(ea * eb) : 0.0;
-}
 
 // Best |r| of `t` against `x` zero-padded by |t| on both sides; the lag is
 // where t's first sample falls in x (may be negative).
@@ -62,7 +52,7 @@ std::vector<bool> distinct_segments(const Samples& a, const Samples& b, double l
     const size_t from = s * seg, to = std::min(a.size(), from + seg);
     const long bf = static_cast<long>(from) - lag, bt = static_cast<long>(to) - lag;
     if (bf < 0 || bt > static_cast<long>(b.size()) || to - from < 16) continue;
-    d[s] = pearson(a.data() + from, b.data() + bf, to - from) < below;
+    d[s] = detail::pearson(a.data() + from, b.data() + bf, to - from, 0.0) < below;
   }
   return d;
 }

@@ -101,13 +101,14 @@ FftCostTable cost_table_from_json(const std::string& text) {
 }
 
 std::vector<size_t> candidate_fft_sizes(size_t len_samples, size_t max_size) {
+  // At least one candidate, even when the template needs more than max_size.
   std::vector<size_t> sizes;
   size_t size = 1024;
   while (size <= len_samples) size *= 2;
-  for (; size <= std::max(max_size, size); size *= 2) {
+  do {
     sizes.push_back(size);
-    if (size >= max_size) break;
-  }
+    size *= 2;
+  } while (size <= max_size);
   return sizes;
 }
 

@@ -74,15 +74,7 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
       int64_t start = static_cast<int64_t>(std::floor(coarse)) - radius;
       if (start < 0) start = 0;
       const size_t want = tmpl.size() + static_cast<size_t>(2 * radius + 1);
-      Samples span(want);
-      if (!src.seek(start)) continue;
-      size_t got = 0;
-      while (got < want) {
-        auto r = src.read(span.data() + got, want - got);
-        if (!r || r.value() == 0) break;
-        got += r.value();
-      }
-      span.resize(got);
+      const Samples span = read_native_span(src, start, want);
       auto refined = refine_offset(tmpl, span, m.polarity);
       if (!refined) continue;
       const double off_s = (static_cast<double>(start) + refined->offset_frames) / native;

@@ -3,23 +3,10 @@
 #include <cmath>
 #include <cstdio>
 
+#include "csv_field.h"
 #include "json_number.h"
 
 namespace godwit {
-namespace {
-
-
-std::string csv_field(const std::string& s) {
-  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
-  std::string q = "\"";
-  for (char c : s) {
-    if (c == '"') q += '"';
-    q += c;
-  }
-  return q + "\"";
-}
-
-}  // namespace
 
 nlohmann::json error_to_json(const Error& e) {
   nlohmann::json j{{"code", std::string(wire_name(e.code))}, {"message", e.message}};
@@ -62,7 +49,7 @@ std::string locate_to_csv(const LocateResult& r) {
   char num[96];
   for (const auto& m : r.matches) {
     std::snprintf(num, sizeof num, ",%.6f,%.4f,%d\r\n", m.offset_s, m.score, m.polarity);
-    out += csv_field(m.template_id) + "," + csv_field(m.recording) + num;
+    out += detail::csv_field(m.template_id) + "," + detail::csv_field(m.recording) + num;
   }
   return out;
 }

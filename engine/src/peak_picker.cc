@@ -86,7 +86,6 @@ struct PeakPicker::Impl {
       Candidate c;
       c.index = i;
       c.polarity = at(i) < 0 ? -1 : 1;
-      c.floor = thr;
       double delta = 0, peak = v;
       if (i > buf_start && has_next) {
         const double y0 = prev, y1 = v, y2 = next;

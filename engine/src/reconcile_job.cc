@@ -149,6 +149,17 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
   std::map<std::string, size_t> index_of;
   for (size_t i = 0; i < ids.size(); ++i) index_of[ids[i]] = i;
 
+  // One stream per run, opened once, for verification and loudness.
+  std::map<size_t, std::unique_ptr<ConcatSource>> run_sources;
+  auto run_source = [&](size_t run) -> ConcatSource* {
+    auto it = run_sources.find(run);
+    if (it == run_sources.end()) {
+      auto c = ConcatSource::open(kRunPrefix + std::to_string(run), run_parts(run), base, o.locate.channel);
+      it = run_sources.emplace(run, c ? std::move(c.value()) : nullptr).first;
+    }
+    return it->second.get();
+  };
+
   // 4. Verify each detection at the native rate.
   std::vector<Detection> dets;
   std::map<std::pair<size_t, double>, Samples> native_master;
@@ -157,10 +168,9 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     d.master = index_of.at(m.template_id);
     d.run = std::stoul(m.recording.substr(4));
     d.match = m;
-    auto src_r = lo.opener(m.recording, o.locate.channel);
-    if (!src_r) continue;
-    auto* concat = dynamic_cast<ConcatSource*>(src_r.value().get());
-    const double rate = src_r.value()->info().native_rate_hz;
+    ConcatSource* concat = run_source(d.run);
+    if (!concat) continue;
+    const double rate = concat->info().native_rate_hz;
     auto key = std::make_pair(d.master, rate);
     if (!native_master.count(key)) {
       auto ms = base(job.masters[d.master], ChannelChoice{});
@@ -170,17 +180,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
       native_master[key] = std::move(s.value());
     }
     const Samples& master = native_master[key];
-    const int64_t at = std::llround(m.offset_s * rate);
-    Samples span(master.size());
-    size_t got = 0;
-    if (src_r.value()->seek(at)) {
-      while (got < span.size()) {
-        auto r = src_r.value()->read(span.data() + got, span.size() - got);
-        if (!r || r.value() == 0) break;
-        got += r.value();
-      }
-    }
-    span.resize(got);
+    const Samples span = read_native_span(*concat, std::llround(m.offset_s * rate), master.size());
     d.profile = verify_airing(master, span, rate, m.polarity, o.verify);
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
@@ -261,19 +261,19 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
   // 6. Loudness of each airing and of the programme before it.
   if (o.loudness.enabled) {
     for (auto& a : res.airings) {
-      auto src = lo.opener(kRunPrefix + std::to_string(a.run), o.locate.channel);
+      ConcatSource* src = run_source(a.run);
       if (!src) continue;
-      const double rate = src.value()->info().native_rate_hz;
+      const double rate = src->info().native_rate_hz;
       // The aired part: up to the first missing range that reaches the end.
       double aired_s = a.length_s;
       if (!a.missing_s.empty() && a.missing_s.back().second >= a.length_s - 1e-6) aired_s = a.missing_s.back().first;
       if (aired_s > 0.4) {
-        auto l = measure_span_lufs(*src.value(), std::llround(a.run_offset_s * rate), std::llround(aired_s * rate));
+        auto l = measure_span_lufs(*src, std::llround(a.run_offset_s * rate), std::llround(aired_s * rate));
         if (l) a.spot_lufs = l.value();
       }
       const double from_s = std::max(0.0, a.run_offset_s - o.loudness.programme_s);
       if (a.run_offset_s - from_s > 0.4) {
-        auto l = measure_span_lufs(*src.value(), std::llround(from_s * rate), std::llround((a.run_offset_s - from_s) * rate));
+        auto l = measure_span_lufs(*src, std::llround(from_s * rate), std::llround((a.run_offset_s - from_s) * rate));
         if (l) a.programme_lufs = l.value();
       }
     }

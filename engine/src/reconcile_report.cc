@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "csv_field.h"
 #include "json_number.h"
 
 #include "godwit/locate_report.h"
@@ -60,15 +61,6 @@ nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
   return j;
 }
 
-std::string csv_field(const std::string& s) {
-  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
-  std::string q = "\"";
-  for (char c : s) {
-    if (c == '"') q += '"';
-    q += c;
-  }
-  return q + "\"";
-}
 
 }  // namespace
 
@@ -137,11 +129,11 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
   char num[128];
   for (const auto& v : r.verdicts) {
     const Placement& p = r.placements[v.placement];
-    out += csv_field(p.slot) + "," + csv_field(p.spot) + "," + csv_field(p.planned) + "," + verdict_name(v.status) + ",";
+    out += detail::csv_field(p.slot) + "," + detail::csv_field(p.spot) + "," + detail::csv_field(p.planned) + "," + verdict_name(v.status) + ",";
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
       std::snprintf(num, sizeof num, ",%.3f,%.4f,%.3f,", v.deviation_s, a.score, a.coverage);
-      out += format_iso8601_local(a.aired_s, 3) + num + csv_field(reported_spot(a, p)) + "," + csv_field(a.recording);
+      out += format_iso8601_local(a.aired_s, 3) + num + detail::csv_field(reported_spot(a, p)) + "," + detail::csv_field(a.recording);
       std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
       out += num + lufs(a);
     } else {
@@ -153,8 +145,8 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
     const AiringRecord& a = r.airings[i];
     // slot and planned empty; status "unscheduled"; no deviation.
     std::snprintf(num, sizeof num, ",,%.4f,%.3f,", a.score, a.coverage);
-    out += "," + csv_field(a.spot) + ",,unscheduled," + format_iso8601_local(a.aired_s, 3) + num + csv_field(a.spot) +
-           "," + csv_field(a.recording);
+    out += "," + detail::csv_field(a.spot) + ",,unscheduled," + format_iso8601_local(a.aired_s, 3) + num + detail::csv_field(a.spot) +
+           "," + detail::csv_field(a.recording);
     std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
     out += num + lufs(a) + "\r\n";
   }

@@ -10,7 +10,6 @@ namespace godwit {
 
 struct TemplateBank::Spectra {
   std::vector<detail::ComplexBuffer> conj;
-  size_t bytes = 0;
 };
 
 TemplateBank::~TemplateBank() = default;
@@ -18,8 +17,6 @@ TemplateBank::~TemplateBank() = default;
 const std::complex<float>* TemplateBank::conj_spectrum(size_t i) const {
   return spectra_->conj[i].get();
 }
-
-size_t TemplateBank::spectra_bytes() const { return spectra_->bytes; }
 
 Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<TemplateInput> inputs,
                                                                 const BankOptions& options) {
@@ -123,7 +120,6 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     detail::ComplexBuffer spec = detail::alloc_complex(L / 2 + 1);
     fftwf_execute_dft_r2c(plan.forward, padded.get(), detail::as_fftw(spec.get()));
     for (size_t k = 0; k < L / 2 + 1; ++k) spec[k] = std::conj(spec[k]);
-    bank->spectra_->bytes += spectrum_bytes(L);
     bank->spectra_->conj.push_back(std::move(spec));
     norm = Samples();
   }

@@ -1,30 +1,15 @@
 #include "godwit/verifier.h"
 
+#include "pearson.h"
+
 #include <algorithm>
 #include <cmath>
 
 namespace godwit {
 namespace {
 
-double pearson(const float* a, const float* b, size_t n) {
-  double sa = 0, sb = 0;
-  for (size_t i = 0; i < n; ++i) {
-    sa += a[i];
-    sb += b[i];
-  }
-  const double ma = sa / static_cast<double>(n), mb = sb / static_cast<double>(n);
-  double dot = 0, ea = 0, eb = 0;
-  for (size_t i = 0; i < n; ++i) {
-    const double x = a[i] - ma, y = b[i] - mb;
-    dot += x * y;
-    ea += x * x;
-    eb += y * y;
-  }
-  // -70 dBFS RMS floor on both: silence gives no evidence either way.
-  const double floor = 1e-7 * static_cast<double>(n);
-  if (!(ea > floor) || !(eb > floor)) return 0.0;
-  return std::clamp(dot / std::sqrt(ea * eb), -1.0, 1.0);
-}
+// -70 dBFS RMS on both spans: silence gives no evidence either way.
+constexpr double kSilentEnergy = 1e-7;
 
 }  // namespace
 
@@ -37,7 +22,7 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   for (size_t s = 0; s < n_seg; ++s) {
     const size_t a = s * seg, b = std::min(master.size(), a + seg);
     double r = 0;
-    if (b <= airing.size() && b - a >= 16) r = polarity * pearson(master.data() + a, airing.data() + a, b - a);
+    if (b <= airing.size() && b - a >= 16) r = polarity * detail::pearson(master.data() + a, airing.data() + a, b - a, kSilentEnergy);
     p.scores.push_back(static_cast<float>(r));
   }
   std::vector<float> sorted = p.scores;
@@ -53,7 +38,7 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   for (size_t a = 0; a < master.size(); a += fine) {
     const size_t b = std::min(master.size(), a + fine);
     double r = 0;
-    if (b <= airing.size() && b - a >= 16) r = polarity * pearson(master.data() + a, airing.data() + a, b - a);
+    if (b <= airing.size() && b - a >= 16) r = polarity * detail::pearson(master.data() + a, airing.data() + a, b - a, kSilentEnergy);
     if (r >= thr) {
       aired_frames += static_cast<double>(b - a);
       continue;

@@ -120,6 +120,7 @@ int main(int argc, char** argv) {
   const Kind kinds[] = {Kind::clean, Kind::gain, Kind::eq, Kind::compression, Kind::noise, Kind::polarity,
                         Kind::truncated, Kind::sibling, Kind::hard_negative, Kind::noise};
   size_t slot_no = 0;
+  Samples carry;  // tail of a spot straddling into the next hour
   for (int h = 0; h < hours; ++h) {
     const bool mp3 = h % 3 == 2;
     Samples air = synth::programme(3600, kRate, seed * 10 + static_cast<uint64_t>(h));
@@ -186,8 +187,7 @@ int main(int argc, char** argv) {
     name.erase(std::remove(name.begin() + 9, name.end(), '-'), name.end());
     const std::string path = (dir / "air" / (name + (mp3 ? ".mp3" : ".flac"))).string();
     files.push_back(path);
-    // Straddle tail: write it into the next hour when that hour is made.
-    static Samples carry;
+    // The tail of the previous hour's straddling spot opens this hour.
     if (!carry.empty()) {
       for (size_t i = 0; i < carry.size() && i < air.size(); ++i) air[i] = carry[i];
       carry.clear();

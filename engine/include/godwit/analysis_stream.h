@@ -26,17 +26,18 @@ class AnalysisStream {
 
   // Native frames read so far.
   int64_t native_frames_read() const { return native_read_; }
-  // Analysis samples delivered so far.
-  int64_t samples_delivered() const { return delivered_; }
 
  private:
   AudioSource& source_;
   Resampler resampler_;
   Samples native_;
   int64_t native_read_ = 0;
-  int64_t delivered_ = 0;
   bool done_ = false;
 };
+
+// Mono native frames [start, start + frames) of `source`; fewer when the
+// source ends or fails first (a span that cannot be read is empty).
+Samples read_native_span(AudioSource& source, int64_t start, size_t frames);
 
 // Decodes a whole (short) source to mono at `rate_hz` (the native rate when
 // rate_hz <= 0). For masters; errors as AudioSource::read.

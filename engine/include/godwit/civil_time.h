@@ -26,9 +26,6 @@ std::optional<LocalSeconds> parse_iso8601_local(std::string_view text);
 // `YYYY-MM-DDTHH:MM:SS.mmm` (decimals 0..6; rounding carries into seconds).
 std::string format_iso8601_local(LocalSeconds t, int decimals = 3);
 
-// Seconds of `YYYY-MM-DD` at midnight, for grouping by day.
-LocalSeconds day_start(LocalSeconds t);
-
 // The first match of a strftime-style `pattern` (%Y %m %d %H %M %S and
 // literal characters; %% is a percent sign) anywhere in `name`. Empty when
 // nothing in the name matches or the date is invalid.

@@ -37,8 +37,6 @@ class ConcatSource final : public AudioSource {
   // Where stream frame `frame` lies: part index and frame within that file
   // (counting from the file's own start, skipped frames included).
   std::pair<size_t, double> locate(double frame) const;
-  // Stream frame at which each part begins.
-  const std::vector<int64_t>& part_starts() const { return starts_; }
 
  private:
   ConcatSource() = default;

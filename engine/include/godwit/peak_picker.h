@@ -35,7 +35,6 @@ struct Candidate {
   double offset = 0;      // index + parabolic correction, in (index-0.5, index+0.5)
   double score = 0;       // interpolated signed peak value, in [-1, 1]
   int polarity = 1;       // +1, or -1 for a polarity-inverted airing
-  double floor = 0;       // the relative threshold that applied there
 };
 
 class PeakPicker {

@@ -70,7 +70,6 @@ class TemplateBank {
   // Spectrum of the normalized template zero-padded to its fft_size,
   // fft_size/2+1 bins, already conjugated (multiply, don't conjugate again).
   const std::complex<float>* conj_spectrum(size_t i) const;
-  size_t spectra_bytes() const;
 
   TemplateBank(const TemplateBank&) = delete;
   TemplateBank& operator=(const TemplateBank&) = delete;
