@@ -8,12 +8,17 @@
 
 #include "godwit/analysis_stream.h"
 #include "godwit/native_refiner.h"
+#include "godwit/resampler.h"
+#include "speed_pass.h"
+#include "speed_refiner.h"
 
 namespace godwit {
 namespace {
 
 Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, const LocateOptions& o,
-                                                      std::vector<TemplateReport>& reports) {
+                                                      std::vector<TemplateReport>& reports,
+                                                      std::vector<detail::WarpTemplate>* warp) {
+  detail::FftPlans env_plans(Planner::estimate);
   if (job.templates.empty()) return Error{ErrorCode::usage, "no templates given", "", std::nullopt};
   std::vector<TemplateInput> inputs;
   std::map<std::string, std::string> seen;
@@ -37,6 +42,13 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
     in.path = path;
     in.native_rate_hz = src.value()->info().native_rate_hz;
     in.samples = std::move(samples.value());
+    if (warp) {
+      detail::WarpTemplate w;
+      const detail::WarpLayout l = detail::warp_layout(o.analysis_rate_hz);
+      w.envelope = detail::envelope_of(env_plans, in.samples, o.analysis_rate_hz, l.window, l.hop, l.hop,
+                                       detail::EnvelopeBands{}, w.frames);
+      warp->push_back(std::move(w));
+    }
     inputs.push_back(std::move(in));
   }
   auto bank = TemplateBank::build(std::move(inputs), o.bank);
@@ -59,17 +71,19 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
   const double native = src.info().native_rate_hz;
   const double ratio = native / o.analysis_rate_hz;
   const int64_t radius = static_cast<int64_t>(std::ceil(1.5 * ratio)) + 2;
-  std::set<size_t> templates;
-  for (const auto& f : found) templates.insert(f.first);
-  for (size_t t : templates) {
+  // A master once per speed it aired at: decoded at native / speed, it
+  // plays at the native rate as it aired.
+  std::set<std::pair<size_t, double>> versions;
+  for (const auto& f : found) versions.insert({f.first, f.second.speed});
+  for (const auto& [t, speed] : versions) {
     const auto& info = bank.at(t);
     auto msrc = o.opener(info.path, ChannelChoice{});
     if (!msrc) continue;
-    auto master = decode_all(*msrc.value(), native);
+    auto master = decode_all(*msrc.value(), native / speed);
     if (!master) continue;
     const Samples& tmpl = master.value();
     for (auto& [ti, m] : found) {
-      if (ti != t) continue;
+      if (ti != t || m.speed != speed) continue;
       const double coarse = m.offset_s * native;
       int64_t start = static_cast<int64_t>(std::floor(coarse)) - radius;
       if (start < 0) start = 0;
@@ -85,6 +99,66 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
       }
     }
   }
+}
+
+// Step 2 and 3 of the speed search for the coarse peaks of one recording.
+std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string& path, const TemplateBank& bank,
+                                                              const LocateOptions& o,
+                                                              const std::vector<detail::SpeedCandidate>& cands) {
+  std::vector<std::pair<size_t, Match>> out;
+  if (cands.empty()) return out;
+  auto rec = o.opener(path, o.channel);
+  if (!rec) {
+    if (o.on_diagnostic) o.on_diagnostic(path + ": cannot reopen for the speed search: " + rec.error().message);
+    return out;
+  }
+  AudioSource& src = *rec.value();
+  const double native = src.info().native_rate_hz;
+  const double fs = o.analysis_rate_hz;
+  detail::FftPlans plans(Planner::estimate);
+  std::map<size_t, Samples> masters;  // analysis rate, decoded when first needed
+  const double margin_s = 0.5;
+  const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
+  for (const auto& c : cands) {
+    if (o.should_stop && o.should_stop()) break;
+    auto it = masters.find(c.template_index);
+    if (it == masters.end()) {
+      Samples m;
+      if (auto ms = o.opener(bank.at(c.template_index).path, ChannelChoice{})) {
+        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
+      }
+      it = masters.emplace(c.template_index, std::move(m)).first;
+    }
+    const Samples& master = it->second;
+    if (master.empty()) continue;
+    const double from_s = std::max(0.0, c.offset / fs - margin_s);
+    const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
+    const auto start = static_cast<int64_t>(std::floor(from_s * native));
+    const Samples span_native = read_native_span(src, start, static_cast<size_t>(std::ceil(len_s * native)));
+    if (span_native.empty()) continue;
+    const Samples span = resample_all(span_native, native, fs);
+    const double span_start = static_cast<double>(start) / native * fs;  // analysis samples
+    detail::SpeedSeed seed{c.speed, c.offset - span_start, c.speed_step};
+    const auto fit = detail::refine_speed(plans, master, span, fs, seed, detail::EnvelopeBands{});
+    if (getenv("GODWIT_DEBUG")) fprintf(stderr, "cand t=%zu off=%.3f score=%.3f speed=%.4f -> %s %.4f %.6f %.4f\n", c.template_index, c.offset/fs, c.score, c.speed, fit?"fit":"nofit", fit?fit->score:0.0, fit?fit->speed:0.0, fit?(span_start+fit->offset)/fs:0.0);
+    if (!fit || std::fabs(fit->score) < o.picker.threshold) continue;
+    if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) continue;
+    Match m;
+    m.template_id = bank.at(c.template_index).id;
+    m.recording = path;
+    m.offset_s = (span_start + fit->offset) / fs;
+    m.score = fit->score;
+    m.polarity = fit->polarity;
+    m.speed = fit->speed;
+    // Two coarse peaks may settle on one airing: keep the better.
+    const double half_s = 0.25 * static_cast<double>(master.size()) / fs;
+    auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
+      return f.first == c.template_index && std::fabs(f.second.offset_s - m.offset_s) < half_s;
+    });
+    if (same == out.end()) out.emplace_back(c.template_index, std::move(m));
+    else if (std::fabs(m.score) > std::fabs(same->second.score)) same->second = std::move(m);
+  }
+  return out;
 }
 
 }  // namespace
@@ -104,10 +178,14 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
   bopt.planner = copt.planner;
   LocateOptions lo = o;
   lo.bank = bopt;
-  auto bank_r = load_bank(job, lo, result.templates);
+  const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
+  std::vector<detail::WarpTemplate> envelopes;
+  auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
   if (!bank_r) return bank_r.error();
   std::shared_ptr<const TemplateBank> bank = bank_r.value();
   Correlator correlator(bank, copt);
+  std::unique_ptr<detail::SpeedPass> speed_pass;
+  if (speed_search) speed_pass = std::make_unique<detail::SpeedPass>(std::move(envelopes), o.analysis_rate_hz, o.speed, copt.threads);
   const size_t nrec = job.recordings.size();
 
   for (size_t ri = 0; ri < nrec; ++ri) {
@@ -126,6 +204,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     report.native_rate_hz = src.info().native_rate_hz;
     report.channels = src.info().channels;
     correlator.reset();
+    if (speed_pass) speed_pass->reset();
     std::vector<PeakPicker> pickers;
     for (const auto& t : bank->templates()) pickers.emplace_back(t.len_samples, o.picker);
     ScoreSink sink = [&](size_t t, int64_t first, const float* s, size_t n) { pickers[t].feed(first, s, n); };
@@ -141,7 +220,10 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       if (o.should_stop && o.should_stop())
         return Error{ErrorCode::cancelled, "cancelled", path, static_cast<double>(correlator.samples_pushed()) / o.analysis_rate_hz};
       auto more = stream.next(block);
-      if (!block.empty()) correlator.push(block.data(), block.size(), sink);
+      if (!block.empty()) {
+        correlator.push(block.data(), block.size(), sink);
+        if (speed_pass) speed_pass->push(block.data(), block.size());
+      }
       if (!more) {
         report.error = more.error();
         if (o.on_diagnostic)
@@ -160,6 +242,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       }
     }
     correlator.finish(sink);
+    if (speed_pass) speed_pass->finish();
     report.duration_s = static_cast<double>(stream.native_frames_read()) / src.info().native_rate_hz;
     if (stream.native_frames_read() == 0 && !report.error)
       report.error = Error{ErrorCode::empty, "recording holds no audio", path, std::nullopt};
@@ -178,6 +261,12 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       }
     }
     src_r.value().reset();  // close before reopening for refinement
+    if (speed_pass) {
+      std::vector<std::pair<size_t, double>> plain;
+      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz);
+      const auto cands = speed_pass->candidates(plain, report.duration_s);
+      for (auto& f : refine_speed_candidates(path, *bank, o, cands)) found.push_back(std::move(f));
+    }
     if (o.refine) refine_matches(path, *bank, o, found);
     std::vector<Match> matches;
     for (auto& f : found) matches.push_back(std::move(f.second));

@@ -5,6 +5,8 @@
 //
 // Data flow: masters -> TemplateBank; each recording -> AnalysisStream ->
 // Correlator -> PeakPicker per template -> native-rate refinement -> Match.
+// Beside the Correlator, the speed search (speed_search.h) finds airings
+// played at another speed; they become Matches with `speed` != 1.
 //
 // Thread contract: run_locate may run several jobs concurrently (each has
 // its own state); callbacks are invoked on the thread that called it.
@@ -20,6 +22,7 @@
 #include "godwit/correlator.h"
 #include "godwit/error.h"
 #include "godwit/peak_picker.h"
+#include "godwit/speed_search.h"
 #include "godwit/template_bank.h"
 
 namespace godwit {
@@ -43,6 +46,7 @@ struct LocateOptions {
   PickerOptions picker;
   CorrelatorOptions correlator;
   BankOptions bank;
+  SpeedOptions speed;
   bool refine = true;  // native-rate offset refinement (Default: on)
   SourceOpener opener = file_opener();
   // Called about every few seconds of audio; keep it cheap.
@@ -59,6 +63,9 @@ struct Match {
   double offset_s = 0;    // time of the master's first sample in the recording
   double score = 0;       // analysis-rate peak score, in [-1, 1]
   int polarity = 1;       // -1: aired polarity-inverted
+  // The airing plays `speed` times faster than the master (duration
+  // master / speed, pitch * speed); 1 when unchanged.
+  double speed = 1;
   bool refined = false;   // offset refined at the recording's native rate
 };
 

@@ -1,0 +1,50 @@
+// Speed search: airings played faster or slower than their master.
+//
+// A resampling chain (a film-rate conversion speeds material up by 25/24,
+// about 4.2 %, common practice in 25 fps regions, from memory), a playout
+// system squeezing a break, or two clocks that disagree change an airing's
+// duration and pitch together. The plain correlation cannot see such an
+// airing: over a 30 s spot a 0.1 % error drifts 30 ms, against a peak a
+// fraction of a millisecond wide. The search runs beside it in three
+// steps, each one coherent over the residual error the previous one left:
+//
+//  1. Coarse: band-energy envelopes (16 bands, 20 frames/s) of the
+//     recording, read on a grid of speeds (each speed stretches the
+//     recording's time axis and scales its band edges), each correlated
+//     with every master's envelope (normalized, all bands at once). Grid
+//     steps are set so that a master's ends drift under 3/4 of a frame.
+//  2. Envelope refinement at 100 frames/s on a fine grid of speeds and
+//     offsets around each coarse peak.
+//  3. Sample level: the master resampled at that speed is cut into short
+//     segments; where each lands (sub-sample) gives, by a robust line fit,
+//     the speed and the offset; twice, with longer segments the second
+//     time. The detection's score is then the ordinary normalized
+//     correlation of the whole master resampled at the fitted speed, and
+//     it must reach the same threshold as a plain detection.
+//
+// Detections that the plain search already made (same master, overlapping
+// in time) are left to it; so are those whose fitted speed is within
+// `unit_tolerance` of 1.
+#pragma once
+
+namespace godwit {
+
+struct SpeedOptions {
+  bool enabled = true;          // Default: on
+  // Speeds searched: 1/(1+d) .. 1+d. Default 4.5 %: 4 % and the film-rate
+  // change 25/24 (4.17 %) either way, with room for the clock error on top.
+  double max_deviation = 0.045;
+  // Coarse peaks: envelope correlation at least this, and `floor_k`
+  // robust deviations above its local floor. Defaults: 0.3 and 5 (ours,
+  // tuned on the accuracy benchmark).
+  double coarse_threshold = 0.3;
+  double coarse_floor_k = 5.0;
+  // At most this many coarse peaks per master and hour refined (the
+  // strongest). Default: 12.
+  double max_candidates_per_hour = 1000;
+  // A fitted speed closer than this to 1 is a plain airing. Default 2e-5
+  // (0.6 ms over 30 s).
+  double unit_tolerance = 2e-5;
+};
+
+}  // namespace godwit
