@@ -12,6 +12,12 @@
 //   false-alarms 20 templates against 1 h of unrelated programme and 1 h of
 //                silence with dropouts and spikes (zero detections wanted),
 //                and against 1 h with the 20 clips planted (all wanted).
+//   speed        20 templates against 2 h holding airings resampled by
+//                0.5-4.17 % either way (libsoxr), at 3-20 dB SNR and 0.5-1
+//                coverage, unchanged airings, and tempo-only changes made by
+//                sox's WSOLA `tempo` effect: the same job with the speed
+//                search off and on, CPU time side by side, recall, speed and
+//                offset errors, other detections.
 #include <sys/resource.h>
 
 #include <CLI/CLI.hpp>
@@ -27,6 +33,8 @@
 #include "fft_plans.h"
 #include "godwit/job.h"
 #include "godwit/memory_source.h"
+#include "godwit/analysis_stream.h"
+#include "godwit/resampler.h"
 #include "programme_source.h"
 #include "synth.h"
 
@@ -104,8 +112,9 @@ struct RunStats {
 };
 
 RunStats run_job(const Scenario& s, const std::vector<std::string>& recordings, double hours, uint64_t seed,
-                 synth::Content content, FftCostTable& costs, int threads) {
+                 synth::Content content, FftCostTable& costs, int threads, bool speed_search = true) {
   LocateOptions o;
+  o.speed.enabled = speed_search;
   o.opener = scenario_opener(s, hours, seed, content);
   o.correlator.planner = Planner::measure;
   o.correlator.threads = threads;
@@ -289,6 +298,141 @@ int false_alarms(const std::string& cache_dir) {
   return 0;
 }
 
+// Tempo change with pitch kept, by sox's `tempo` effect (WSOLA); empty
+// when sox is not installed.
+Samples sox_tempo(const Samples& clip, double factor, const std::filesystem::path& dir, size_t n) {
+  const auto in = dir / ("tempo-in-" + std::to_string(n) + ".wav");
+  const auto out = dir / ("tempo-out-" + std::to_string(n) + ".wav");
+  if (!synth::write_audio(in.string(), clip, 1, kRate).empty()) return {};
+  char cmd[1024];
+  std::snprintf(cmd, sizeof cmd, "sox -q '%s' -b 32 -e floating-point '%s' tempo %.6f 2>/dev/null", in.c_str(),
+                out.c_str(), factor);
+  if (std::system(cmd) != 0) return {};
+  auto src = open_audio_file(out.string(), ChannelChoice{});
+  if (!src) return {};
+  auto d = decode_all(*src.value(), kRate);
+  return d ? d.value() : Samples{};
+}
+
+int speed(const std::string& cache_dir, double hours) {
+  FftCache cache(cache_dir, [](std::string_view) {});
+  FftCostTable costs = cache.load();
+  const size_t k = 20;
+  Scenario s = make_scenario(k, hours, false, 4000);
+  const auto dir = std::filesystem::temp_directory_path() / "godwit-bench-speed";
+  std::filesystem::create_directories(dir);
+  struct Planted {
+    std::string id;
+    double offset_s, speed, snr_db, coverage;
+    bool tempo;
+  };
+  std::vector<Planted> truth;
+  const double factors[] = {1.005, 1.01, 1.02, 1.03, 1.04, 25.0 / 24.0};
+  const double snrs[] = {3, 6, 10, 20};
+  const double coverages[] = {1.0, 0.75, 0.5};
+  synth::Rng rng(4242);
+  // One airing every 100 s: 5 of 6 resampled, the rest unchanged or
+  // tempo-changed, in turn.
+  const size_t n = static_cast<size_t>(hours * 3600 / 100) - 1;
+  size_t tempo_n = 0;
+  for (size_t i = 0; i < n; ++i) {
+    const size_t t = i % k;
+    Planted p;
+    p.id = "spot" + std::to_string(t);
+    p.offset_s = 20 + 100.0 * static_cast<double>(i) + rng.uniform(0, 20);
+    p.offset_s = std::round(p.offset_s * kRate) / kRate;
+    const bool up = (i / 2) % 2 == 0;
+    const double f = factors[i % 6];
+    p.speed = up ? f : 1 / f;
+    p.snr_db = snrs[(i / 3) % 4];
+    p.coverage = coverages[(i / 5) % 3];
+    p.tempo = false;
+    if (i % 6 == 5) {
+      // Every sixth: unchanged, or tempo-only at 2 % or 4 % (either way).
+      const int which = static_cast<int>((i / 6) % 3);
+      if (which == 0) p.speed = 1;
+      else {
+        p.tempo = true;
+        const double tf = which == 1 ? 1.02 : 1.04;
+        p.speed = up ? tf : 1 / tf;
+      }
+    }
+    auto src = open_audio_file(s.template_paths[t], ChannelChoice{});
+    Samples master = decode_all(*src.value(), kRate).value();
+    Samples clip = p.tempo ? sox_tempo(master, p.speed, dir, tempo_n++) : resample_all(master, kRate * p.speed, kRate);
+    if (clip.empty()) continue;  // sox missing: no tempo airings
+    clip.resize(static_cast<size_t>(p.coverage * static_cast<double>(clip.size())));
+    const Samples noise = synth::white_noise(clip.size(), synth::rms(clip) * std::pow(10.0, -p.snr_db / 20), 77 + i);
+    for (size_t j = 0; j < clip.size(); ++j) clip[j] += noise[j];
+    s.plants.push_back({std::make_shared<const Samples>(std::move(clip)), static_cast<int64_t>(std::llround(p.offset_s * kRate)), 0.8f});
+    truth.push_back(p);
+  }
+  RunStats off = run_job(s, {"speed-air"}, hours, 31, synth::Content::programme, costs, 0, false);
+  RunStats on = run_job(s, {"speed-air"}, hours, 31, synth::Content::programme, costs, 0, true);
+  cache.save(costs);
+  std::filesystem::remove_all(dir);
+  struct Tally {
+    int found = 0, total = 0;
+  };
+  auto score = [&](const LocateResult& r, bool print) {
+    std::vector<bool> used(r.matches.size(), false);
+    std::map<std::string, Tally> by;
+    std::vector<double> speed_err, off_err_ms;
+    Tally target;
+    for (const auto& p : truth) {
+      const Match* hit = nullptr;
+      for (size_t i = 0; i < r.matches.size(); ++i) {
+        const auto& m = r.matches[i];
+        if (used[i] || m.template_id != p.id || std::fabs(m.offset_s - p.offset_s) > (p.tempo ? 0.25 : 0.01)) continue;
+        used[i] = true;
+        hit = &m;
+        break;
+      }
+      std::string key = p.tempo ? "tempo-only" : p.speed == 1 ? "unchanged" : "resampled";
+      if (p.tempo) key += std::fabs(p.speed - 1) < 0.03 || std::fabs(1 / p.speed - 1) < 0.03 ? " 2 %" : " 4 %";
+      by[key].total++;
+      if (hit) by[key].found++;
+      if (!p.tempo && p.speed != 1) {
+        const bool eligible = p.snr_db >= 3 && p.coverage >= 0.5 && std::fabs(p.speed - 1) <= 0.0417 + 1e-9 &&
+                              std::fabs(1 / p.speed - 1) <= 0.0417 + 1e-9;
+        std::string sub = "resampled " + std::to_string(static_cast<int>(p.snr_db)) + " dB";
+        by[sub].total++;
+        if (hit) by[sub].found++;
+        if (eligible) {
+          target.total++;
+          if (hit) target.found++;
+        }
+        if (hit) {
+          speed_err.push_back(std::fabs(hit->speed / p.speed - 1));
+          off_err_ms.push_back(std::fabs(hit->offset_s - p.offset_s) * 1e3);
+        }
+      }
+    }
+    size_t extra = 0;
+    for (bool u : used) extra += u ? 0 : 1;
+    if (print) {
+      for (const auto& [key, t] : by) std::printf("    %-22s %3d / %3d\n", key.c_str(), t.found, t.total);
+      auto mx = [](const std::vector<double>& v) { return v.empty() ? 0.0 : *std::max_element(v.begin(), v.end()); };
+      std::printf("    recall, resampled within 4.17 %% (SNR >= 3 dB, coverage >= 0.5): %.1f %% (%d/%d; target >= 95 %%)\n",
+                  target.total ? 100.0 * target.found / target.total : 0.0, target.found, target.total);
+      std::printf("    speed error max %.4f %% (target <= 0.05 %%), offset error max %.3f ms (target <= 1 ms)\n",
+                  mx(speed_err) * 100, mx(off_err_ms));
+    }
+    return extra;
+  };
+  std::printf("workload speed: %zu templates x 30 s, %.1f h at 8 kHz, %zu airings\n", k, hours, truth.size());
+  std::printf("  %-22s %10s %10s %18s\n", "", "CPU s", "wall s", "other detections");
+  const size_t extra_off = score(off.result, false), extra_on = score(on.result, false);
+  std::printf("  %-22s %10.1f %10.1f %18zu\n", "speed search off", off.cpu_s, off.wall_s, extra_off);
+  std::printf("  %-22s %10.1f %10.1f %18zu\n", "speed search on", on.cpu_s, on.wall_s, extra_on);
+  std::printf("  cost on / off = %.2f (CPU; target <= 2.5)\n", on.cpu_s / off.cpu_s);
+  std::printf("  found with the search off:\n");
+  score(off.result, true);
+  std::printf("  found with the search on:\n");
+  score(on.result, true);
+  return 0;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -311,9 +455,13 @@ int main(int argc, char** argv) {
   dy->add_option("--templates", day_k, "templates (default 100)");
   dy->add_option("--hours", day_h, "hours (default 24)");
   auto* fa = app.add_subcommand("false-alarms", "detections on unrelated audio and on silence");
+  double speed_h = 2;
+  auto* sp = app.add_subcommand("speed", "speed-changed airings: cost of the speed search and its recall");
+  sp->add_option("--hours", speed_h, "hours (default 2)");
   CLI11_PARSE(app, argc, argv);
   if (*tp) return throughput(k, hours, cache, !no_peers, threads);
   if (*dy) return day(day_k, day_h, cache);
   if (*fa) return false_alarms(cache);
+  if (*sp) return speed(cache, speed_h);
   return 2;
 }
