@@ -10,6 +10,7 @@
 #include "godwit/native_refiner.h"
 #include "godwit/resampler.h"
 #include "speed_pass.h"
+#include "thread_pool.h"
 #include "speed_refiner.h"
 
 namespace godwit {
@@ -101,7 +102,8 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
   }
 }
 
-// Step 2 and 3 of the speed search for the coarse peaks of one recording.
+// Step 2 and 3 of the speed search for the coarse peaks of one recording:
+// spans read in turn from the one source, refined on `threads` threads.
 std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string& path, const TemplateBank& bank,
                                                               const LocateOptions& o,
                                                               const std::vector<detail::SpeedCandidate>& cands) {
@@ -115,47 +117,66 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
   AudioSource& src = *rec.value();
   const double native = src.info().native_rate_hz;
   const double fs = o.analysis_rate_hz;
-  detail::FftPlans plans(Planner::estimate);
   std::map<size_t, Samples> masters;  // analysis rate, decoded when first needed
+  for (const auto& c : cands) {
+    if (masters.count(c.template_index)) continue;
+    Samples m;
+    if (auto ms = o.opener(bank.at(c.template_index).path, ChannelChoice{})) {
+      if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
+    }
+    masters.emplace(c.template_index, std::move(m));
+  }
+  // Spans in batches, so memory stays a few spans per thread.
+  detail::ThreadPool pool(o.correlator.threads);
+  detail::FftPlans plans(Planner::estimate);
   const double margin_s = 0.5;
   const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
-  for (const auto& c : cands) {
+  std::vector<std::optional<Match>> fitted(cands.size());
+  const size_t batch = 4 * pool.workers();
+  for (size_t first = 0; first < cands.size(); first += batch) {
     if (o.should_stop && o.should_stop()) break;
-    auto it = masters.find(c.template_index);
-    if (it == masters.end()) {
-      Samples m;
-      if (auto ms = o.opener(bank.at(c.template_index).path, ChannelChoice{})) {
-        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
-      }
-      it = masters.emplace(c.template_index, std::move(m)).first;
+    const size_t n = std::min(batch, cands.size() - first);
+    std::vector<Samples> spans(n);
+    std::vector<double> span_start(n);
+    for (size_t i = 0; i < n; ++i) {
+      const auto& c = cands[first + i];
+      const Samples& master = masters.at(c.template_index);
+      if (master.empty()) continue;
+      const double from_s = std::max(0.0, c.offset / fs - margin_s);
+      const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
+      const auto start = static_cast<int64_t>(std::floor(from_s * native));
+      const Samples span_native = read_native_span(src, start, static_cast<size_t>(std::ceil(len_s * native)));
+      if (span_native.empty()) continue;
+      spans[i] = resample_all(span_native, native, fs);
+      span_start[i] = static_cast<double>(start) / native * fs;  // analysis samples
     }
-    const Samples& master = it->second;
-    if (master.empty()) continue;
-    const double from_s = std::max(0.0, c.offset / fs - margin_s);
-    const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
-    const auto start = static_cast<int64_t>(std::floor(from_s * native));
-    const Samples span_native = read_native_span(src, start, static_cast<size_t>(std::ceil(len_s * native)));
-    if (span_native.empty()) continue;
-    const Samples span = resample_all(span_native, native, fs);
-    const double span_start = static_cast<double>(start) / native * fs;  // analysis samples
-    detail::SpeedSeed seed{c.speed, c.offset - span_start, c.speed_step};
-    const auto fit = detail::refine_speed(plans, master, span, fs, seed, detail::EnvelopeBands{});
-    if (getenv("GODWIT_DEBUG")) fprintf(stderr, "cand t=%zu off=%.3f score=%.3f speed=%.4f -> %s %.4f %.6f %.4f\n", c.template_index, c.offset/fs, c.score, c.speed, fit?"fit":"nofit", fit?fit->score:0.0, fit?fit->speed:0.0, fit?(span_start+fit->offset)/fs:0.0);
-    if (!fit || std::fabs(fit->score) < o.picker.threshold) continue;
-    if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) continue;
-    Match m;
-    m.template_id = bank.at(c.template_index).id;
-    m.recording = path;
-    m.offset_s = (span_start + fit->offset) / fs;
-    m.score = fit->score;
-    m.polarity = fit->polarity;
-    m.speed = fit->speed;
-    // Two coarse peaks may settle on one airing: keep the better.
-    const double half_s = 0.25 * static_cast<double>(master.size()) / fs;
-    auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
-      return f.first == c.template_index && std::fabs(f.second.offset_s - m.offset_s) < half_s;
+    pool.run(n, [&](size_t i, size_t) {
+      const auto& c = cands[first + i];
+      if (spans[i].empty()) return;
+      const detail::SpeedSeed seed{c.speed, c.offset - span_start[i], c.speed_step};
+      const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
+      if (!fit || std::fabs(fit->score) < o.picker.threshold) return;
+      if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
+      Match m;
+      m.template_id = bank.at(c.template_index).id;
+      m.recording = path;
+      m.offset_s = (span_start[i] + fit->offset) / fs;
+      m.score = fit->score;
+      m.polarity = fit->polarity;
+      m.speed = fit->speed;
+      fitted[first + i] = std::move(m);
     });
-    if (same == out.end()) out.emplace_back(c.template_index, std::move(m));
+  }
+  for (size_t i = 0; i < cands.size(); ++i) {
+    if (!fitted[i]) continue;
+    Match& m = *fitted[i];
+    const size_t t = cands[i].template_index;
+    // Two coarse peaks may settle on one airing: keep the better.
+    const double half_s = 0.25 * static_cast<double>(masters.at(t).size()) / fs;
+    auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
+      return f.first == t && std::fabs(f.second.offset_s - m.offset_s) < half_s;
+    });
+    if (same == out.end()) out.emplace_back(t, std::move(m));
     else if (std::fabs(m.score) > std::fabs(same->second.score)) same->second = std::move(m);
   }
   return out;

@@ -105,7 +105,7 @@ void SpectralFrames::envelope_at(double t, const std::vector<double>& edges_hz, 
     const double bin = edges_hz[b + 1] * to_bin;
     const double hi0 = cumulative(s0, bin), hi1 = cumulative(s1, bin);
     const double e = (1 - w) * (hi0 - lo0) + w * (hi1 - lo1);
-    out[b] = static_cast<float>(std::cbrt(std::max(0.0, e)));
+    out[b] = static_cast<float>(std::sqrt(std::max(0.0, e)));
     lo0 = hi0;
     lo1 = hi1;
   }

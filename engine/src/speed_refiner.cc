@@ -35,7 +35,7 @@ NormEnvelope normalized(std::vector<float> env, size_t frames, size_t bands) {
   return {std::move(env), frames, bands};
 }
 
-// Step 2: envelope correlation at 100 frames/s. The recording's band values
+// Step 2: envelope correlation at 50 frames/s. The recording's band values
 // at speed s are read once per span frame; positions between frames are
 // interpolated. Parametrized by the master's centre, so that offset and
 // speed errors are nearly independent and can be searched one at a time.
@@ -203,9 +203,13 @@ struct LineFit {
   int polarity = 1;
 };
 
-// Weighted least squares of lag on position over the segments that clearly
-// matched, dropping outliers (segments that landed on something else).
-std::optional<LineFit> fit_line(const std::vector<SegmentHit>& hits, double min_score, double tolerance) {
+// The line lag = a + b (at - centre) that the most segments agree with
+// (by squared score, within `tolerance` samples): every pair of clearly
+// matching segments proposes a line, the best supported one is refitted
+// by weighted least squares on its inliers. Segments where the airing was
+// cut off or drowned land anywhere; they may be the majority.
+std::optional<LineFit> fit_line(const std::vector<SegmentHit>& hits, double min_score, double tolerance,
+                                double min_spread) {
   int pos = 0, neg = 0;
   for (const auto& h : hits)
     if (std::fabs(h.score) >= min_score) (h.score > 0 ? pos : neg)++;
@@ -214,40 +218,51 @@ std::optional<LineFit> fit_line(const std::vector<SegmentHit>& hits, double min_
   std::vector<const SegmentHit*> use;
   for (const auto& h : hits)
     if (f.polarity * h.score >= min_score) use.push_back(&h);
-  for (int iter = 0; iter < 4; ++iter) {
-    if (use.size() < 4) return std::nullopt;
-    double sw = 0, sx = 0;
-    for (const auto* h : use) {
-      const double w = h->score * h->score;
-      sw += w;
-      sx += w * h->at;
+  if (use.size() < 4) return std::nullopt;
+  auto support = [&](double a, double b, double centre, std::vector<const SegmentHit*>* inliers) {
+    double w = 0;
+    for (const auto* h : use)
+      if (std::fabs(h->lag - a - b * (h->at - centre)) <= tolerance) {
+        w += h->score * h->score;
+        if (inliers) inliers->push_back(h);
+      }
+    return w;
+  };
+  double best_w = -1, best_a = 0, best_b = 0, best_c = 0;
+  for (size_t i = 0; i < use.size(); ++i)
+    for (size_t j = i + 1; j < use.size(); ++j) {
+      const double dx = use[j]->at - use[i]->at;
+      if (dx < min_spread) continue;
+      const double b = (use[j]->lag - use[i]->lag) / dx;
+      const double w = support(use[i]->lag, b, use[i]->at, nullptr);
+      if (w > best_w) best_w = w, best_a = use[i]->lag, best_b = b, best_c = use[i]->at;
     }
-    f.centre = sx / sw;
+  if (best_w <= 0) return std::nullopt;
+  std::vector<const SegmentHit*> in;
+  for (int iter = 0; iter < 3; ++iter) {
+    in.clear();
+    support(best_a, best_b, best_c, &in);
+    if (in.size() < 4) return std::nullopt;
+    double sw = 0, sx = 0;
+    for (const auto* h : in) sw += h->score * h->score, sx += h->score * h->score * h->at;
+    const double centre = sx / sw;
     double sxx = 0, sxy = 0, sy = 0;
-    for (const auto* h : use) {
-      const double w = h->score * h->score, x = h->at - f.centre;
-      sxx += w * x * x;
-      sxy += w * x * h->lag;
-      sy += w * h->lag;
+    for (const auto* h : in) {
+      const double w = h->score * h->score, x = h->at - centre;
+      sxx += w * x * x, sxy += w * x * h->lag, sy += w * h->lag;
     }
     if (!(sxx > 0)) return std::nullopt;
-    f.b = sxy / sxx;
-    f.a = sy / sw;
-    std::vector<double> res;
-    for (const auto* h : use) res.push_back(std::fabs(h->lag - f.a - f.b * (h->at - f.centre)));
-    std::vector<double> sorted = res;
-    const double cut = std::max(tolerance, 4.0 * 1.4826 * median_of(sorted));
-    std::vector<const SegmentHit*> kept;
-    for (size_t i = 0; i < use.size(); ++i)
-      if (res[i] <= cut) kept.push_back(use[i]);
-    if (kept.size() == use.size()) break;
-    use = std::move(kept);
+    best_b = sxy / sxx;
+    best_a = sy / sw;
+    best_c = centre;
   }
-  f.used = use.size();
-  // The fit must rest on segments spread over the master, not one cluster.
   double lo = 1e300, hi = -1e300;
-  for (const auto* h : use) lo = std::min(lo, h->at), hi = std::max(hi, h->at);
-  if (f.used < 4 || hi - lo <= 0) return std::nullopt;
+  for (const auto* h : in) lo = std::min(lo, h->at), hi = std::max(hi, h->at);
+  if (hi - lo < min_spread) return std::nullopt;
+  f.a = best_a;
+  f.b = best_b;
+  f.centre = best_c;
+  f.used = in.size();
   return f;
 }
 
@@ -296,30 +311,31 @@ Samples at_speed(const Samples& master, double rate_hz, double speed) {
 std::optional<SpeedFit> refine_speed(FftPlans& plans, const Samples& master, const Samples& span, double rate_hz,
                                      const SpeedSeed& seed, const EnvelopeBands& bands) {
   if (master.size() < 4096 || span.size() < 4096) return std::nullopt;
-  // Step 2: envelopes at 100 frames/s. Centre first (speed errors only
+  // Step 2: envelopes at 50 frames/s. Centre first (speed errors only
   // blur it), then speed, then centre again.
   EnvelopeSearch env(plans, master, span, rate_hz, bands);
   double s = seed.speed;
   double centre = seed.offset + env.centre_tau() / s;
   const double hop = static_cast<double>(kEnvHop);
-  centre = grid_max([&](double c) { return env.score(c, s); }, centre, hop, 12).first;
-  const double ds = std::max(seed.speed_step / 8, 1e-4);
-  s = std::exp(grid_max([&](double ls) { return env.score(centre, std::exp(ls)); }, std::log(s), ds, 6).first);
-  centre = grid_max([&](double c) { return env.score(c, s); }, centre, hop / 2, 6).first;
+  centre = grid_max([&](double c) { return env.score(c, s); }, centre, hop / 2, 12).first;
+  const double ds = std::max(seed.speed_step / 6, 1e-4);
+  s = std::exp(grid_max([&](double ls) { return env.score(centre, std::exp(ls)); }, std::log(s), ds, 4).first);
+  centre = grid_max([&](double c) { return env.score(c, s); }, centre, hop / 4, 4).first;
   double offset = centre - env.centre_tau() / s;
 
   // Step 3: segments at the sample level, 0.25 s then 1 s.
   struct Pass {
     double seg_s, radius_s, min_score;
   };
-  const Pass passes[] = {{0.25, 0.02, 0.2}, {1.0, 0.002, 0.2}};
+  const Pass passes[] = {{0.25, 0.04, 0.2}, {1.0, 0.002, 0.2}};
   size_t used = 0;
   for (const Pass& p : passes) {
     const Samples m = at_speed(master, rate_hz, s);
     const size_t seg = static_cast<size_t>(p.seg_s * rate_hz);
     const size_t radius = std::max<size_t>(4, static_cast<size_t>(p.radius_s * rate_hz));
     const auto hits = land_segments(plans, m, span, offset, seg, radius);
-    const auto line = fit_line(hits, p.min_score, 1.5);
+    // Inliers within 2 samples; the fit must span a fifth of the master.
+    const auto line = fit_line(hits, p.min_score, 2.0, 0.2 * static_cast<double>(m.size()));
     if (!line) return std::nullopt;
     // Sample u of m lands at offset + u + a + b (u - centre).
     offset += line->a - line->b * line->centre;

@@ -13,7 +13,7 @@
 //     recording's time axis and scales its band edges), each correlated
 //     with every master's envelope (normalized, all bands at once). Grid
 //     steps are set so that a master's ends drift under 3/4 of a frame.
-//  2. Envelope refinement at 100 frames/s on a fine grid of speeds and
+//  2. Envelope refinement at 50 frames/s on a fine grid of speeds and
 //     offsets around each coarse peak.
 //  3. Sample level: the master resampled at that speed is cut into short
 //     segments; where each lands (sub-sample) gives, by a robust line fit,
