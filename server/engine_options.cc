@@ -42,6 +42,13 @@ void add_engine_options(CLI::App* cmd, EngineArgs& a) {
                   "where FFTW wisdom and FFT costs are kept (default $XDG_CACHE_HOME/godwit or ~/.cache/godwit; "
                   "empty: no cache)");
   cmd->add_flag("--no-refine", a.no_refine, "skip the native-rate offset refinement");
+  cmd->add_option("--max-speed-change", a.max_speed_change_pct,
+                  "also find airings played up to PCT % faster or slower than their master (resampled: duration "
+                  "and pitch together); each match reports its speed (default 4.5, which covers the 25/24 "
+                  "film-rate change either way)")
+      ->check(CLI::Range(0.1, 10.0));
+  cmd->add_flag("--no-speed-search", a.no_speed_search,
+                "find only airings at their master's speed (about 1.5-2x faster)");
 }
 
 std::string EngineSetup::configure(const EngineArgs& a, LocateOptions& o) {
@@ -55,6 +62,8 @@ std::string EngineSetup::configure(const EngineArgs& a, LocateOptions& o) {
   o.bank.fixed_fft_size = a.fft_size;
   o.bank.spectra_budget_bytes = a.memory_mb << 20;
   o.refine = !a.no_refine;
+  o.speed.enabled = !a.no_speed_search;
+  o.speed.max_deviation = a.max_speed_change_pct / 100;
   cache_ = std::make_unique<FftCache>(a.cache_dir, warn);
   costs_ = cache_->load();
   o.bank.costs = &costs_;

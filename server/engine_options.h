@@ -26,6 +26,8 @@ struct EngineArgs {
   size_t memory_mb = 320;
   std::string cache_dir = default_cache_dir();
   bool no_refine = false;
+  double max_speed_change_pct = 4.5;
+  bool no_speed_search = false;
 };
 
 void add_engine_options(CLI::App* cmd, EngineArgs& a);

@@ -79,6 +79,10 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
                      std::to_string(config_.max_recording_s) + " s per job",
                  "", std::nullopt};
   out["recordings"] = recs.value();
+  // 0 turns the speed search off.
+  auto speed = number_in(job, "max_speed_change_pct", 0, 10, 4.5);
+  if (!speed) return speed.error();
+  out["max_speed_change_pct"] = speed.value();
 
   if (kind == "reconcile") {
     if (!job.contains("library") || !job.contains("schedule")) return bad("a reconcile job needs 'library' and 'schedule'");
@@ -167,6 +171,9 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
   lo.should_stop = should_stop;
   lo.on_diagnostic = warn;
+  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
+  lo.speed.enabled = speed_pct > 0;
+  lo.speed.max_deviation = speed_pct / 100;
   const auto recs = spec.at("recordings").get<std::vector<std::string>>();
   if (spec.at("kind") == "reconcile") {
     std::vector<std::string> warnings;

@@ -55,6 +55,13 @@ std::string sparkline(const Profile& p) {
          "points=\"" + pts + "\"/></svg>";
 }
 
+// "aired at 1.0417x (+4.17 %)" under the score, when the speed changed.
+std::string speed_note(const AiringRecord& a) {
+  if (std::fabs(a.speed - 1) < 1e-6) return "";
+  return "<br><span class=\"small speed\">aired at " + fmt("%.4f", a.speed) + "&times; (" + fmt("%+.2f", (a.speed - 1) * 100) +
+         " %)</span>";
+}
+
 std::string loudness_cell(const AiringRecord& a, const LoudnessOptions& o) {
   if (!a.spot_lufs) return "";
   std::string s = fmt("%.1f LUFS", *a.spot_lufs);
@@ -138,7 +145,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
   for (size_t i = 0; i < r.airings.size(); ++i) {
     const auto& a = r.airings[i];
     h += "<rect class=\"detection\" x=\"" + fmt("%.1f", X(a.aired_s)) + "\" y=\"" + fmt("%.0f", lane_air - 8) +
-         "\" width=\"" + fmt("%.2f", std::max(2.0, X(a.aired_s + a.length_s * a.coverage) - X(a.aired_s))) +
+         "\" width=\"" + fmt("%.2f", std::max(2.0, X(a.aired_s + a.length_s * a.coverage / a.speed) - X(a.aired_s))) +
          "\" height=\"16\" fill=\"" + colour(airing_status[i]) + "\"><title>" +
          esc(a.spot + " " + format_iso8601_local(a.aired_s, 3) + " score " + fmt("%.3f", a.score)) + "</title></rect>\n";
   }
@@ -158,7 +165,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
       std::string missing;
       for (const auto& [f, t] : a.missing_s) missing += (missing.empty() ? "" : ", ") + fmt("%.2f", f) + "-" + fmt("%.2f", t) + " s";
       h += "<td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" + fmt("%+.3f s", v.deviation_s) +
-           "</td><td class=\"num\">" + fmt("%.3f", a.score) + (a.polarity < 0 ? " (inverted)" : "") +
+           "</td><td class=\"num\">" + fmt("%.3f", a.score) + (a.polarity < 0 ? " (inverted)" : "") + speed_note(a) +
            "</td><td class=\"num\">" + fmt("%.2f", a.coverage) + (missing.empty() ? "" : "<br><span class=\"small\">missing " + missing + "</span>") +
            "</td><td>" + esc(reported_spot(a, p)) + (a.undetermined_among.empty() ? "" : "<br><span class=\"small\">version undetermined</span>") +
            "</td><td class=\"small\">" + esc(a.recording) + " @ " + fmt("%.3f s", a.offset_s) + "</td><td class=\"small\">" +
@@ -174,7 +181,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
   for (size_t i : r.unscheduled) {
     const auto& a = r.airings[i];
     h += "<tr class=\"airing\"><td>" + esc(a.spot) + "</td><td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" +
-         fmt("%.3f", a.score) + "</td><td class=\"num\">" + fmt("%.2f", a.coverage) + "</td><td class=\"small\">" +
+         fmt("%.3f", a.score) + speed_note(a) + "</td><td class=\"num\">" + fmt("%.2f", a.coverage) + "</td><td class=\"small\">" +
          esc(a.recording) + " @ " + fmt("%.3f s", a.offset_s) + "</td><td class=\"small\">" + loudness_cell(a, o.loudness) +
          "</td><td>" + sparkline(a.profile) + "</td></tr>\n";
   }

@@ -40,15 +40,16 @@ nlohmann::json locate_to_json(const LocateResult& r) {
                             {"offset_s", detail::round_decimals(m.offset_s, 6)},
                             {"score", detail::round_decimals(m.score, 4)},
                             {"polarity", m.polarity},
+                            {"speed", detail::round_decimals(m.speed, 6)},
                             {"refined", m.refined}});
   return j;
 }
 
 std::string locate_to_csv(const LocateResult& r) {
-  std::string out = "template,recording,offset_s,score,polarity\r\n";
-  char num[96];
+  std::string out = "template,recording,offset_s,score,polarity,speed\r\n";
+  char num[128];
   for (const auto& m : r.matches) {
-    std::snprintf(num, sizeof num, ",%.6f,%.4f,%d\r\n", m.offset_s, m.score, m.polarity);
+    std::snprintf(num, sizeof num, ",%.6f,%.4f,%d,%.6f\r\n", m.offset_s, m.score, m.polarity, m.speed);
     out += detail::csv_field(m.template_id) + "," + detail::csv_field(m.recording) + num;
   }
   return out;

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <filesystem>
 #include <set>
+#include <tuple>
 
 #include "godwit/analysis_stream.h"
 #include "godwit/concat_source.h"
@@ -162,7 +163,9 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 
   // 4. Verify each detection at the native rate.
   std::vector<Detection> dets;
-  std::map<std::pair<size_t, double>, Samples> native_master;
+  // A master as it aired: at the recording's rate, and at the speed it
+  // aired at (decoded at rate / speed, it plays at `rate` as it aired).
+  std::map<std::tuple<size_t, double, double>, Samples> native_master;
   for (const auto& m : matches) {
     Detection d;
     d.master = index_of.at(m.template_id);
@@ -171,17 +174,28 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     ConcatSource* concat = run_source(d.run);
     if (!concat) continue;
     const double rate = concat->info().native_rate_hz;
-    auto key = std::make_pair(d.master, rate);
+    auto key = std::make_tuple(d.master, rate, m.speed);
     if (!native_master.count(key)) {
       auto ms = base(job.masters[d.master], ChannelChoice{});
       if (!ms) continue;
-      auto s = decode_all(*ms.value(), rate);
+      auto s = decode_all(*ms.value(), rate / m.speed);
       if (!s) continue;
       native_master[key] = std::move(s.value());
     }
     const Samples& master = native_master[key];
     const Samples span = read_native_span(*concat, std::llround(m.offset_s * rate), master.size());
-    d.profile = verify_airing(master, span, rate, m.polarity, o.verify);
+    // Segments of segment_s of the master last segment_s / speed on air;
+    // the profile is then put back in master time.
+    VerifyOptions vo = o.verify;
+    vo.segment_s = o.verify.segment_s / m.speed;
+    d.profile = verify_airing(master, span, rate, m.polarity, vo);
+    d.profile.segment_s = o.verify.segment_s;
+    const double length_s = templates[d.master].duration_s;
+    for (auto& [from, to] : d.profile.missing_s) {
+      from = std::min(from * m.speed, length_s);
+      to = std::min(to * m.speed, length_s);
+      if (to > length_s - 1e-3) to = length_s;  // a sample's rounding at the end
+    }
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
     // matches.
@@ -249,6 +263,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
     a.aired_s = d.aired_s;
     a.score = d.match.score;
     a.polarity = d.match.polarity;
+    a.speed = d.match.speed;
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
     a.profile = d.profile;
@@ -267,6 +282,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
       // The aired part: up to the first missing range that reaches the end.
       double aired_s = a.length_s;
       if (!a.missing_s.empty() && a.missing_s.back().second >= a.length_s - 1e-6) aired_s = a.missing_s.back().first;
+      aired_s /= a.speed;  // master time to air time
       if (aired_s > 0.4) {
         auto l = measure_span_lufs(*src, std::llround(a.run_offset_s * rate), std::llround(aired_s * rate));
         if (l) a.spot_lufs = l.value();

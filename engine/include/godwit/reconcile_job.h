@@ -80,6 +80,9 @@ struct AiringRecord {
   LocalSeconds aired_s = 0;
   double score = 0;
   int polarity = 1;
+  // Aired `speed` times faster than the master (speed_search.h); 1 when
+  // unchanged. Coverage, missing ranges and the profile are in master time.
+  double speed = 1;
   double coverage = 0;
   std::vector<std::pair<double, double>> missing_s;
   std::vector<VersionScore> versions;  // when siblings competed
