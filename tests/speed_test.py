@@ -1,0 +1,172 @@
+#!/usr/bin/python3
+"""End-to-end tests of speed-changed airings through `godwit locate` and
+`godwit reconcile`.
+
+The airings are resampled outside the project, by scipy.signal.resample_poly
+(Debian's python3-scipy): an airing at speed s is the master resampled by
+1/s, played at the master's rate. The masters come from the generated demo
+(fictional spots); the programme around them is synthesized here with numpy.
+
+Run by CTest: speed_test.py --godwit PATH --synth PATH
+"""
+import argparse
+import datetime
+import json
+import os
+import subprocess
+import sys
+import tempfile
+import unittest
+import wave
+from fractions import Fraction
+
+import numpy as np
+from scipy.io import wavfile
+from scipy.signal import resample_poly
+
+ARGS = None
+RATE = 44100
+START = datetime.datetime(2026, 3, 14, 7, 0, 0)
+
+# (spot, placed at s, speed as a fraction, aired fraction of the airing).
+# 25/24 is the film-rate speed-up (common practice, from memory).
+AIRINGS = [
+    ("marlow-bakery", 20.0, Fraction(25, 24), 1.0),
+    ("harbour-lights-cinema", 80.0, Fraction(50, 51), 0.6),
+    ("tidewater-tyres-summer", 150.0, Fraction(101, 100), 1.0),
+    ("pellham-garden-centre", 220.0, Fraction(200, 201), 1.0),
+    ("tidewater-tyres-spring", 280.0, Fraction(1, 1), 1.0),
+    ("harbour-lights-cinema", 340.0, Fraction(24, 25), 1.0),
+]
+
+
+def run(*args, check=None):
+    p = subprocess.run([ARGS.godwit, *args], capture_output=True, text=True, timeout=600)
+    if check is not None and p.returncode != check:
+        raise AssertionError(f"exit {p.returncode}, expected {check}\nstdout: {p.stdout}\nstderr: {p.stderr}")
+    return p
+
+
+def read_mono(path):
+    rate, x = wavfile.read(path)
+    x = x.astype(np.float64) / 32768.0
+    return rate, x.mean(axis=1) if x.ndim == 2 else x
+
+
+def programme(seconds, seed):
+    """Chords that change every 1.5-4 s over soft noise: not any master."""
+    rng = np.random.default_rng(seed)
+    n = int(seconds * RATE)
+    out = np.zeros(n)
+    t0 = 0
+    while t0 < n:
+        length = int(rng.uniform(1.5, 4.0) * RATE)
+        t = np.arange(min(length, n - t0)) / RATE
+        seg = sum(np.sin(2 * np.pi * f * t + rng.uniform(0, 6.3)) for f in rng.uniform(110, 1200, 4))
+        out[t0:t0 + len(t)] = seg * np.hanning(len(t))
+        t0 += len(t)
+    out = 0.1 * out / np.sqrt(np.mean(out ** 2))
+    return out + rng.normal(0, 0.01, n)
+
+
+def write_wav(path, x):
+    pcm = np.clip(np.round(x * 32767), -32768, 32767).astype("<i2")
+    with wave.open(path, "wb") as w:
+        w.setnchannels(1)
+        w.setsampwidth(2)
+        w.setframerate(RATE)
+        w.writeframes(pcm.tobytes())
+
+
+class SpeedChanged(unittest.TestCase):
+    @classmethod
+    def setUpClass(cls):
+        cls.tmp = tempfile.TemporaryDirectory()
+        demo = os.path.join(cls.tmp.name, "demo")
+        subprocess.run([ARGS.synth, "demo", "--out", demo], check=True, capture_output=True)
+        cls.lib = os.path.join(demo, "library")
+        rng = np.random.default_rng(7)
+        x = programme(420, 3)
+        for spot, at, speed, aired in AIRINGS:
+            rate, m = read_mono(os.path.join(cls.lib, spot + ".wav"))
+            assert rate == RATE
+            # Speed s = p/q: q output samples for every p input samples.
+            clip = resample_poly(m, speed.denominator, speed.numerator)
+            clip = clip[: int(len(clip) * aired)]
+            clip = clip + rng.normal(0, np.sqrt(np.mean(clip ** 2)) * 10 ** (-10 / 20), len(clip))  # 10 dB SNR
+            i = int(round(at * RATE))
+            x[i:i + len(clip)] = clip
+        cls.rec = os.path.join(cls.tmp.name, "kestrel-fm-20260314T070000.wav")
+        write_wav(cls.rec, x)
+        cls.common = ["--planner", "estimate", "--cache-dir", ""]
+        p = run("locate", "--library", cls.lib, "--recording", cls.rec, *cls.common, check=0)
+        cls.matches = json.loads(p.stdout)["matches"]
+
+    @classmethod
+    def tearDownClass(cls):
+        cls.tmp.cleanup()
+
+    def test_each_airing_found_with_its_speed_and_first_sample(self):
+        for spot, at, speed, aired in AIRINGS:
+            with self.subTest(spot=spot, at=at):
+                hits = [m for m in self.matches if m["template"] == spot and abs(m["offset_s"] - at) < 0.5]
+                self.assertEqual(len(hits), 1, self.matches)
+                m = hits[0]
+                # Targets of the speed search: speed within 0.05 %, offset within 1 ms.
+                self.assertLess(abs(m["speed"] / float(speed) - 1), 0.0005, m)
+                self.assertLess(abs(m["offset_s"] - at), 0.001, m)
+
+    def test_nothing_found_where_nothing_aired(self):
+        for m in self.matches:
+            near = [a for a in AIRINGS if abs(m["offset_s"] - a[1]) < 1.0]
+            self.assertTrue(near, m)
+
+    def test_speed_search_off_finds_only_the_unchanged_airing(self):
+        p = run("locate", "--library", self.lib, "--recording", self.rec, "--no-speed-search", *self.common, check=0)
+        found = {(m["template"], round(m["offset_s"])) for m in json.loads(p.stdout)["matches"]}
+        self.assertIn(("tidewater-tyres-spring", 280), found)
+        self.assertNotIn(("marlow-bakery", 20), found)
+        self.assertTrue(all(m["speed"] == 1 for m in json.loads(p.stdout)["matches"]))
+
+    def test_reconcile_coverage_versions_and_verdicts_at_speed(self):
+        sched = os.path.join(self.tmp.name, "plan.csv")
+        rows = [("P1", "marlow-bakery", 20), ("P2", "harbour-lights-cinema", 80), ("P3", "tidewater-tyres-spring", 150),
+                ("P4", "pellham-garden-centre", 220), ("P5", "tidewater-tyres-spring", 280),
+                ("P6", "harbour-lights-cinema", 340)]
+        with open(sched, "w") as f:
+            f.write("slot,spot,planned,window_s\n")
+            for slot, spot, at in rows:
+                f.write(f"{slot},{spot},{(START + datetime.timedelta(seconds=at)).isoformat()},30\n")
+        out = os.path.join(self.tmp.name, "report")
+        run("reconcile", "--library", self.lib, "--schedule", sched, "--recording", self.rec, "--out", out,
+            *self.common, check=0)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            doc = json.load(f)
+        by = {p["slot"]: p for p in doc["placements"]}
+        expected = {"P1": "aired", "P2": "partial", "P3": "wrong_version", "P4": "aired", "P5": "aired", "P6": "aired"}
+        self.assertEqual({s: p["status"] for s, p in by.items()}, expected)
+        self.assertEqual(by["P3"]["detected_spot"], "tidewater-tyres-summer")
+        self.assertAlmostEqual(by["P1"]["speed"], 25 / 24, delta=25 / 24 * 0.0005)
+        self.assertAlmostEqual(by["P3"]["speed"], 1.01, delta=1.01 * 0.0005)
+        self.assertAlmostEqual(by["P6"]["speed"], 0.96, delta=0.96 * 0.0005)
+        self.assertEqual(by["P5"]["speed"], 1)
+        # 60 % of the slowed airing went out: coverage is of the master.
+        self.assertAlmostEqual(by["P2"]["coverage"], 0.6, delta=0.05)
+        missing = by["P2"]["missing"]
+        self.assertEqual(len(missing), 1)
+        self.assertAlmostEqual(missing[0][0], 18.0, delta=1.0)  # 60 % of 30 s, in master seconds
+        self.assertAlmostEqual(missing[0][1], 30.0, delta=0.01)
+        for slot in ("P1", "P4", "P6"):
+            self.assertGreater(by[slot]["coverage"], 0.95, by[slot])
+        self.assertEqual(doc["unscheduled"], [])
+        with open(os.path.join(out, "reconcile.html")) as f:
+            html = f.read()
+        self.assertIn("aired at 1.0417", html)
+
+
+if __name__ == "__main__":
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--godwit", required=True)
+    parser.add_argument("--synth", required=True)
+    ARGS, rest = parser.parse_known_args()
+    unittest.main(argv=[sys.argv[0], "-v", *rest])
