@@ -6,7 +6,6 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
-#include <cstdio>
 
 #include "godwit/resampler.h"
 #include "synth.h"
@@ -68,8 +67,6 @@ TEST_CASE("airings resampled by 0.5 to 4.17 % either way are found with their sp
   LocateJob job{{"harbour-30.wav", "lantern-15.wav"}, {"air.flac"}};
   auto r = run_locate(job, options_for(files));
   REQUIRE(r);
-  for (const auto& m : r.value().matches)
-    std::printf("%s %.5f score %.3f speed %.6f\n", m.template_id.c_str(), m.offset_s, m.score, m.speed);
   for (const auto& a : airings) {
     CAPTURE(a.id);
     CAPTURE(a.speed);
@@ -81,4 +78,41 @@ TEST_CASE("airings resampled by 0.5 to 4.17 % either way are found with their sp
     CHECK(std::fabs(best->offset_s - a.offset_s) <= 0.001);
   }
   CHECK(r.value().matches.size() == airings.size());
+}
+
+TEST_CASE("a polarity-inverted, sped-up airing reports both; unrelated programme gives nothing") {
+  const double rate = 16000;
+  test::MemoryFiles files;
+  std::map<std::string, Samples> masters{{"dune-20", synth::spot(20.0, rate, 21)}};
+  files.files["dune-20.wav"] = {masters["dune-20"], rate};
+  Samples x = air(120, rate, masters, {{"dune-20", 40.0, 1.03}}, 20, 9);
+  // Invert the airing only.
+  for (size_t i = static_cast<size_t>(40.0 * rate); i < static_cast<size_t>((40.0 + 20.0 / 1.03) * rate); ++i) x[i] = -x[i];
+  files.files["air.wav"] = {x, rate};
+  files.files["other.wav"] = {synth::programme(600, rate, 33), rate};
+  LocateJob job{{"dune-20.wav"}, {"air.wav", "other.wav"}};
+  auto r = run_locate(job, options_for(files));
+  REQUIRE(r);
+  REQUIRE(r.value().matches.size() == 1);
+  const Match& m = r.value().matches[0];
+  CHECK(m.recording == "air.wav");
+  CHECK(m.polarity == -1);
+  CHECK(m.score < -0.4);
+  CHECK(std::fabs(m.speed - 1.03) < 1.03 * 0.0005);
+  CHECK(std::fabs(m.offset_s - 40.0) < 0.001);
+}
+
+TEST_CASE("with the speed search off, a resampled airing is not found and matches report speed 1") {
+  const double rate = 8000;
+  test::MemoryFiles files;
+  std::map<std::string, Samples> masters{{"reed-15", synth::spot(15.0, rate, 31)}};
+  files.files["reed-15.wav"] = {masters["reed-15"], rate};
+  files.files["air.wav"] = {air(100, rate, masters, {{"reed-15", 10.0, 1.02}, {"reed-15", 60.0, 1.0}}, 20, 4), rate};
+  LocateOptions o = options_for(files);
+  o.speed.enabled = false;
+  auto r = run_locate({{"reed-15.wav"}, {"air.wav"}}, o);
+  REQUIRE(r);
+  REQUIRE(r.value().matches.size() == 1);
+  CHECK(std::fabs(r.value().matches[0].offset_s - 60.0) < 0.001);
+  CHECK(r.value().matches[0].speed == 1.0);
 }
