@@ -5,7 +5,10 @@
 // H hour files at 22.05 kHz with one degradation per airing: clean, gain,
 // EQ, dynamic compression, noise at 0-20 dB SNR, polarity, truncation,
 // straddling the boundary between two hour files, the sibling version, and
-// hard negatives (a spot's music bed without its voice). Every third hour
+// hard negatives (a spot's music bed without its voice), airings resampled
+// by 0.5-4.17 % either way (libsoxr; duration and pitch change together) at
+// 3-20 dB SNR, some of them cut off, and tempo-only changes of 2 % or 4 %
+// (sox's WSOLA `tempo` effect; pitch kept). Every third hour
 // is MP3 at 64 kbps. A planned log places most airings (some deliberately
 // off their window, some placements never aired). godwit reconcile runs
 // in-process; the scorer prints recall by degradation, false alarms per
@@ -21,10 +24,13 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <array>
 
 #include "godwit/civil_time.h"
 #include "godwit/reconcile_job.h"
 #include "godwit/reconciler.h"
+#include "godwit/resampler.h"
+#include "godwit/analysis_stream.h"
 #include "synth.h"
 
 using namespace godwit;
@@ -34,10 +40,10 @@ namespace {
 
 constexpr double kRate = 22050;
 
-enum class Kind { clean, gain, eq, compression, noise, polarity, truncated, straddle, sibling, hard_negative };
+enum class Kind { clean, gain, eq, compression, noise, polarity, truncated, straddle, sibling, hard_negative, speed, tempo };
 const char* kind_name(Kind k) {
   static const char* n[] = {"clean", "gain", "eq", "compression", "noise", "polarity", "truncated", "straddle",
-                            "sibling", "hard_negative"};
+                            "sibling", "hard_negative", "speed", "tempo"};
   return n[static_cast<int>(k)];
 }
 
@@ -57,6 +63,7 @@ struct Truth {
   double window_s = 60;
   double coverage = 1;
   double snr_db = 99;
+  double speed = 1;  // speed and tempo kinds: the factor
   bool mp3 = false;
 };
 
@@ -76,6 +83,21 @@ void one_pole_lowpass(Samples& x, double fc) {
   const double a = std::exp(-2 * M_PI * fc / kRate);
   double y = 0;
   for (auto& v : x) v = static_cast<float>(y = (1 - a) * v + a * y);
+}
+
+// Tempo change with pitch kept, by sox's `tempo` effect (WSOLA); empty
+// when sox is missing or fails.
+Samples sox_tempo(const Samples& clip, double factor, const fs::path& dir) {
+  const auto in = dir / "tempo-in.wav", out = dir / "tempo-out.wav";
+  if (!synth::write_audio(in.string(), clip, 1, kRate).empty()) return {};
+  char cmd[1024];
+  std::snprintf(cmd, sizeof cmd, "sox -q '%s' -b 32 -e floating-point '%s' tempo %.6f 2>/dev/null", in.c_str(),
+                out.c_str(), factor);
+  if (std::system(cmd) != 0) return {};
+  auto src = open_audio_file(out.string(), ChannelChoice{});
+  if (!src) return {};
+  auto d = decode_all(*src.value(), kRate);
+  return d ? d.value() : Samples{};
 }
 
 double percentile(std::vector<double> v, double p) {
@@ -117,8 +139,10 @@ int main(int argc, char** argv) {
   std::vector<Truth> truth;
   const LocalSeconds day0 = *parse_iso8601_local("2026-05-20T00:00:00");
   std::vector<std::string> files;
-  const Kind kinds[] = {Kind::clean, Kind::gain, Kind::eq, Kind::compression, Kind::noise, Kind::polarity,
-                        Kind::truncated, Kind::sibling, Kind::hard_negative, Kind::noise};
+  const Kind kinds[] = {Kind::clean, Kind::gain,  Kind::eq,            Kind::compression, Kind::noise, Kind::polarity,
+                        Kind::truncated, Kind::sibling, Kind::hard_negative, Kind::noise, Kind::speed, Kind::speed,
+                        Kind::tempo};
+  const size_t n_kinds = sizeof kinds / sizeof kinds[0];
   size_t slot_no = 0;
   Samples carry;  // tail of a spot straddling into the next hour
   for (int h = 0; h < hours; ++h) {
@@ -126,7 +150,7 @@ int main(int argc, char** argv) {
     Samples air = synth::programme(3600, kRate, seed * 10 + static_cast<uint64_t>(h));
     // 24 airings per hour, one per 150 s slot, at a random point in it.
     for (int k = 0; k < 24; ++k) {
-      Kind kind = kinds[rng.next() % 10];
+      Kind kind = kinds[rng.next() % n_kinds];
       if (k == 23 && h + 1 < hours) kind = Kind::straddle;
       size_t si = rng.next() % spots.size();
       if (kind == Kind::sibling) si = 4 + rng.next() % 2;
@@ -153,13 +177,37 @@ int main(int argc, char** argv) {
           clip.resize(static_cast<size_t>(t.coverage * static_cast<double>(clip.size())));
           break;
         }
+        case Kind::speed: {
+          // 25/24 is the film-rate change (common practice, from memory).
+          const double f = std::array<double, 6>{1.005, 1.01, 1.02, 1.03, 1.04, 25.0 / 24.0}[rng.next() % 6];
+          t.speed = rng.uniform() < 0.5 ? f : 1 / f;
+          clip = resample_all(clip, kRate * t.speed, kRate);
+          if (rng.uniform() < 0.3) {
+            t.coverage = rng.uniform(0.5, 0.95);
+            clip.resize(static_cast<size_t>(t.coverage * static_cast<double>(clip.size())));
+          }
+          break;
+        }
+        case Kind::tempo: {
+          const double f = rng.uniform() < 0.5 ? 1.02 : 1.04;
+          t.speed = rng.uniform() < 0.5 ? f : 1 / f;
+          Samples stretched = sox_tempo(clip, t.speed, dir);
+          if (stretched.empty()) {
+            t.kind = kind = Kind::clean;  // no sox: a clean airing instead
+            t.speed = 1;
+          } else {
+            clip = std::move(stretched);
+          }
+          break;
+        }
         default: break;
       }
       const size_t at = static_cast<size_t>(start * kRate);
       for (size_t i = 0; i < clip.size() && at + i < air.size(); ++i) air[at + i] = static_cast<float>(gain * clip[i]);
       if (kind == Kind::straddle) t.coverage = 1;  // the rest airs at the top of the next hour
-      if (kind == Kind::noise) {
-        t.snr_db = std::array<double, 5>{0, 3, 6, 10, 20}[rng.next() % 5];
+      if (kind == Kind::noise || kind == Kind::speed) {
+        t.snr_db = kind == Kind::noise ? std::array<double, 5>{0, 3, 6, 10, 20}[rng.next() % 5]
+                                       : std::array<double, 4>{3, 6, 10, 20}[rng.next() % 4];
         const Samples n = synth::white_noise(clip.size(), synth::rms(clip) * std::pow(10.0, -t.snr_db / 20), rng.next());
         for (size_t i = 0; i < n.size() && at + i < air.size(); ++i) air[at + i] += n[i];
       }
@@ -252,8 +300,9 @@ int main(int argc, char** argv) {
 
   // Score detections against airings.
   std::map<std::string, std::pair<int, int>> by_kind;  // found, total (eligible)
-  std::vector<double> timing_ms, cov_err;
+  std::vector<double> timing_ms, cov_err, speed_err, speed_timing_ms;
   int false_alarms = 0, version_conf = 0, hard_neg_hits = 0;
+  int speed_found = 0, speed_total = 0, tempo_found = 0, tempo_total = 0;
   std::vector<bool> used(r.airings.size(), false);
   for (const auto& t : truth) {
     // Find the airing record nearest in time (within 0.5 s) of the same family.
@@ -282,9 +331,23 @@ int main(int argc, char** argv) {
       if (best < 0) by_kind[kind_name(t.kind)].first++;  // "found" = correctly rejected
       continue;
     }
-    const bool eligible = t.coverage >= 0.5 && t.snr_db >= 3;
+    // Tempo-only changes have their own line; they are not in the target.
+    const bool eligible = t.coverage >= 0.5 && t.snr_db >= 3 && t.kind != Kind::tempo;
     std::string key = kind_name(t.kind);
     if (t.kind == Kind::noise) key += " " + std::to_string(static_cast<int>(t.snr_db)) + " dB";
+    if (t.kind == Kind::tempo) key += std::fabs(t.speed - 1) < 0.03 || std::fabs(1 / t.speed - 1) < 0.03 ? " 2 %" : " 4 %";
+    if (t.kind == Kind::speed) {
+      ++speed_total;
+      if (best >= 0) {
+        ++speed_found;
+        speed_err.push_back(std::fabs(r.airings[best].speed / t.speed - 1));
+        speed_timing_ms.push_back(std::fabs(r.airings[best].aired_s - t.aired_s) * 1e3);
+      }
+    }
+    if (t.kind == Kind::tempo) {
+      ++tempo_total;
+      if (best >= 0) ++tempo_found;
+    }
     if (t.mp3) key += " +mp3";
     auto& bk = by_kind[key];
     bk.second++;
@@ -317,7 +380,7 @@ int main(int argc, char** argv) {
       else if (dev < -p.window_s) want = "early";
       else if (dev > p.window_s) want = "late";
       else want = "aired";
-      if (t.snr_db < 3) continue;  // outside the target's conditions
+      if (t.snr_db < 3 || t.kind == Kind::tempo) continue;  // outside the target's conditions
     }
     ++verdict_n;
     if (want == verdict_name(v.status)) ++verdict_ok;
@@ -342,11 +405,11 @@ int main(int argc, char** argv) {
     std::printf("  %-26s %3d/%-3d\n", k.c_str(), v.first, v.second);
   }
   for (const auto& t : truth) {
-    if (t.kind == Kind::hard_negative || t.coverage < 0.5 || t.snr_db < 3) continue;
+    if (t.kind == Kind::hard_negative || t.kind == Kind::tempo || t.coverage < 0.5 || t.snr_db < 3) continue;
     ++elig_total;
   }
   for (const auto& [k, v] : by_kind)
-    if (k != "hard_negative" && k.find(" 0 dB") == std::string::npos) elig_found += v.first;
+    if (k != "hard_negative" && k.find(" 0 dB") == std::string::npos && k.rfind("tempo", 0) != 0) elig_found += v.first;
   std::printf("  recall (coverage >= 0.5, SNR >= 3 dB): %.1f %% (%d/%d)          target >= 99 %%\n",
               100.0 * elig_found / std::max(1, elig_total), elig_found, elig_total);
   std::printf("  false alarms: %d in %d h = %.2f per hour (%d on hard negatives)   target <= 0.1 per hour\n",
@@ -356,6 +419,11 @@ int main(int argc, char** argv) {
   std::printf("  coverage error: median %.3f, max %.3f                          target within 0.05\n",
               percentile(cov_err, 0.5), percentile(cov_err, 1.0));
   std::printf("  version confusions: %d                                         target 0\n", version_conf);
+  std::printf("  resampled airings: recall %.1f %% (%d/%d), speed error max %.4f %%, timing error max %.3f ms   targets >= 95 %%, 0.05 %%, 1 ms\n",
+              100.0 * speed_found / std::max(1, speed_total), speed_found, speed_total, percentile(speed_err, 1.0) * 100,
+              percentile(speed_timing_ms, 1.0));
+  std::printf("  tempo-only changes (pitch kept): recall %.1f %% (%d/%d)       measured, no target\n",
+              100.0 * tempo_found / std::max(1, tempo_total), tempo_found, tempo_total);
   std::printf("  verdict accuracy: %.1f %% (%d/%d)                              target >= 99 %%\n",
               100.0 * verdict_ok / std::max(1, verdict_n), verdict_ok, verdict_n);
   for (const auto& w : wrong) std::printf("    %s\n", w.c_str());
