@@ -1,5 +1,6 @@
 #include "reconcile_command.h"
 
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <iostream>
@@ -40,6 +41,14 @@ std::string loudness_cell(const AiringRecord& a) {
   return b;
 }
 
+// "  speed 1.0417" when the airing ran at another speed than its master.
+std::string speed_note(const AiringRecord& a) {
+  if (std::fabs(a.speed - 1) < 1e-6) return "";
+  char b[48];
+  std::snprintf(b, sizeof b, "  speed %.4f", a.speed);
+  return b;
+}
+
 void print_table(const ReconcileResult& r) {
   std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6s %5s %12s\n", "slot", "spot", "planned", "status", "aired",
               "dev_s", "score", "cover", "LUFS vs_prog");
@@ -47,10 +56,10 @@ void print_table(const ReconcileResult& r) {
     const Placement& p = r.placements[v.placement];
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
-      std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %5.2f %12s%s\n", p.slot.c_str(), p.spot.c_str(),
+      std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %5.2f %12s%s%s\n", p.slot.c_str(), p.spot.c_str(),
                   p.planned.c_str(), verdict_name(v.status), format_iso8601_local(a.aired_s, 3).c_str(),
                   v.deviation_s, a.score, a.coverage, loudness_cell(a).c_str(),
-                  reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "");
+                  reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "", speed_note(a).c_str());
     } else {
       std::printf("%-10s %-26s %-19s %-13s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
                   verdict_name(v.status));
@@ -58,8 +67,9 @@ void print_table(const ReconcileResult& r) {
   }
   for (size_t i : r.unscheduled) {
     const AiringRecord& a = r.airings[i];
-    std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6.3f %5.2f %12s\n", "-", a.spot.c_str(), "-", "unscheduled",
-                format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage, loudness_cell(a).c_str());
+    std::printf("%-10s %-26s %-19s %-13s %-23s %9s %6.3f %5.2f %12s%s\n", "-", a.spot.c_str(), "-", "unscheduled",
+                format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage, loudness_cell(a).c_str(),
+                speed_note(a).c_str());
   }
 }
 

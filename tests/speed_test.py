@@ -138,8 +138,9 @@ class SpeedChanged(unittest.TestCase):
             for slot, spot, at in rows:
                 f.write(f"{slot},{spot},{(START + datetime.timedelta(seconds=at)).isoformat()},30\n")
         out = os.path.join(self.tmp.name, "report")
-        run("reconcile", "--library", self.lib, "--schedule", sched, "--recording", self.rec, "--out", out,
-            *self.common, check=0)
+        p = run("reconcile", "--library", self.lib, "--schedule", sched, "--recording", self.rec, "--out", out,
+                *self.common, check=0)
+        self.assertIn("speed 1.0417", p.stdout)  # the printed table says so too
         with open(os.path.join(out, "reconcile.json")) as f:
             doc = json.load(f)
         by = {p["slot"]: p for p in doc["placements"]}

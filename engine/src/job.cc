@@ -117,15 +117,14 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
   AudioSource& src = *rec.value();
   const double native = src.info().native_rate_hz;
   const double fs = o.analysis_rate_hz;
-  std::map<size_t, Samples> masters;  // analysis rate, decoded when first needed
-  for (const auto& c : cands) {
-    if (masters.count(c.template_index)) continue;
-    Samples m;
-    if (auto ms = o.opener(bank.at(c.template_index).path, ChannelChoice{})) {
-      if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
-    }
-    masters.emplace(c.template_index, std::move(m));
-  }
+  // Candidates of one master together, so that a batch needs few masters;
+  // a batch's masters are decoded for it and dropped after (a day's job
+  // may have a hundred masters of 30 s: no need to hold them all).
+  std::vector<size_t> order(cands.size());
+  for (size_t i = 0; i < order.size(); ++i) order[i] = i;
+  std::stable_sort(order.begin(), order.end(),
+                   [&](size_t a, size_t b) { return cands[a].template_index < cands[b].template_index; });
+  std::map<size_t, Samples> masters;  // analysis rate
   // Spans in batches, so memory stays a few spans per thread.
   detail::ThreadPool pool(o.correlator.threads);
   detail::FftPlans plans(Planner::estimate);
@@ -133,13 +132,26 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
   const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
   std::vector<std::optional<Match>> fitted(cands.size());
   const size_t batch = 4 * pool.workers();
+  std::vector<size_t> master_len(bank.size(), 0);
   for (size_t first = 0; first < cands.size(); first += batch) {
     if (o.should_stop && o.should_stop()) break;
     const size_t n = std::min(batch, cands.size() - first);
+    std::set<size_t> needed;
+    for (size_t i = 0; i < n; ++i) needed.insert(cands[order[first + i]].template_index);
+    for (auto it = masters.begin(); it != masters.end();) it = needed.count(it->first) ? std::next(it) : masters.erase(it);
+    for (size_t t : needed) {
+      if (masters.count(t)) continue;
+      Samples m;
+      if (auto ms = o.opener(bank.at(t).path, ChannelChoice{})) {
+        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
+      }
+      master_len[t] = m.size();
+      masters.emplace(t, std::move(m));
+    }
     std::vector<Samples> spans(n);
     std::vector<double> span_start(n);
     for (size_t i = 0; i < n; ++i) {
-      const auto& c = cands[first + i];
+      const auto& c = cands[order[first + i]];
       const Samples& master = masters.at(c.template_index);
       if (master.empty()) continue;
       const double from_s = std::max(0.0, c.offset / fs - margin_s);
@@ -151,7 +163,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       span_start[i] = static_cast<double>(start) / native * fs;  // analysis samples
     }
     pool.run(n, [&](size_t i, size_t) {
-      const auto& c = cands[first + i];
+      const auto& c = cands[order[first + i]];
       if (spans[i].empty()) return;
       const detail::SpeedSeed seed{c.speed, c.offset - span_start[i], c.speed_step};
       const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
@@ -164,7 +176,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       m.score = fit->score;
       m.polarity = fit->polarity;
       m.speed = fit->speed;
-      fitted[first + i] = std::move(m);
+      fitted[order[first + i]] = std::move(m);
     });
   }
   for (size_t i = 0; i < cands.size(); ++i) {
@@ -172,7 +184,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
     Match& m = *fitted[i];
     const size_t t = cands[i].template_index;
     // Two coarse peaks may settle on one airing: keep the better.
-    const double half_s = 0.25 * static_cast<double>(masters.at(t).size()) / fs;
+    const double half_s = 0.25 * static_cast<double>(master_len[t]) / fs;
     auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
       return f.first == t && std::fabs(f.second.offset_s - m.offset_s) < half_s;
     });

@@ -52,7 +52,7 @@ void SpectralFrames::push(const float* x, size_t n) {
     if (count_ == capacity_) {
       // Grow the ring, laying it out from slot 0.
       const size_t cap = std::max<size_t>(64, 2 * capacity_);
-      std::vector<double> grown(cap * stride);
+      std::vector<float> grown(cap * stride);
       for (size_t k = 0; k < count_; ++k) {
         const size_t from = (slot0_ + k) % capacity_;
         std::copy_n(cum_.data() + from * stride, stride, grown.data() + k * stride);
@@ -61,13 +61,13 @@ void SpectralFrames::push(const float* x, size_t n) {
       capacity_ = cap;
       slot0_ = 0;
     }
-    double* c = cum_.data() + ((slot0_ + count_) % capacity_) * stride;
+    float* c = cum_.data() + ((slot0_ + count_) % capacity_) * stride;
     double acc = 0;
     c[0] = 0;
     const std::complex<float>* s = spectrum_.get();
     for (size_t k = 0; k < bins_; ++k) {
       acc += static_cast<double>(std::norm(s[k]));
-      c[k + 1] = acc;
+      c[k + 1] = static_cast<float>(acc);
     }
     ++count_;
     pending_pos_ += hop_;
@@ -86,7 +86,7 @@ bool SpectralFrames::covers(double t) const {
 }
 
 double SpectralFrames::cumulative(size_t slot, double bin) const {
-  const double* c = cum_.data() + slot * (bins_ + 1);
+  const float* c = cum_.data() + slot * (bins_ + 1);
   const double p = std::clamp(bin, 0.0, static_cast<double>(bins_));
   const size_t i = std::min(static_cast<size_t>(p), bins_ - 1);
   const double frac = p - static_cast<double>(i);

@@ -84,7 +84,10 @@ class SpectralFrames {
   int64_t first_ = 0;           // frame index of slot 0
   size_t count_ = 0;            // frames held
   size_t slot0_ = 0;            // ring position of first_
-  std::vector<double> cum_;     // ring of frames, bins_ + 1 cumulative values each
+  // Ring of frames, bins_ + 1 cumulative values each; float (summed in
+  // double): the envelopes that read them are compressed and correlated
+  // coarsely, and a day's refinement holds a few of these rings at once.
+  std::vector<float> cum_;
   size_t capacity_ = 0;         // frames the ring can hold before it grows
 };
 
