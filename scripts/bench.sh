@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# The engine benchmarks (not run in CI; about 10 minutes on 2 cores).
+# The engine benchmarks (not run in CI; about 25 minutes on 2 cores).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 scripts/install-deps.sh
@@ -8,6 +8,8 @@ B=build/tests/bench/godwit_bench
 $B throughput --templates 20 --hours 1
 $B false-alarms
 $B day --templates 100 --hours 24
+$B day --templates 100 --hours 24 --no-speed-search
+$B speed --hours 2
 /usr/bin/python3 tests/bench/daemon_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth
 build/tests/bench/accuracy_bench --hours 3 --seed 1
 build/tests/bench/accuracy_bench --hours 6 --seed 2

@@ -23,7 +23,7 @@ struct EngineArgs {
   int threads = 0;
   size_t fft_size = 0;
   std::string planner = "measure";
-  size_t memory_mb = 320;
+  size_t memory_mb = 288;
   std::string cache_dir = default_cache_dir();
   bool no_refine = false;
   double max_speed_change_pct = 4.5;

@@ -73,6 +73,8 @@ struct WarpCorrelator::Impl {
       }
       spectra.push_back(std::move(all));
     }
+    // Only the spectra are needed from here on.
+    for (auto& w : templates) std::vector<float>().swap(w.envelope);
     for (size_t g = 0; g < opt.speeds.size(); ++g) {
       Stream s;
       s.speed = opt.speeds[g];

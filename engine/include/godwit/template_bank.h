@@ -32,8 +32,9 @@ struct BankOptions {
   // template uses this power-of-two size (it must exceed the longest).
   size_t fixed_fft_size = 0;
   size_t max_fft_size = size_t{1} << 22;
-  // Upper bound on the bytes of all spectra. Default: 320 MiB (a 24 h job with 100 masters of 30 s then peaks under 512 MiB).
-  size_t spectra_budget_bytes = size_t{320} << 20;
+  // Upper bound on the bytes of all spectra. Default: 288 MiB (a 24 h job
+  // with 100 masters of 30 s, speed search included, then peaks under 512 MiB).
+  size_t spectra_budget_bytes = size_t{288} << 20;
   Planner planner = Planner::estimate;
   // Measured FFT costs; missing sizes are measured and added.
   FftCostTable* costs = nullptr;
