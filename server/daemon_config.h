@@ -34,6 +34,12 @@ struct DaemonConfig {
   double drop_poll_s = 2;
   double drop_stable_s = 5;
   bool drop_inotify = true;
+  // queue mode (task_queue.h): empty url = off
+  std::string queue_url;          // redis://HOST:PORT/STREAM
+  size_t queue_workers = 1;       // tasks this daemon runs at once
+  size_t queue_templates_per_task = 25;
+  double queue_claim_idle_s = 30;
+  int queue_max_attempts = 3;
 };
 
 // Reads `path` over the defaults in `cfg`. Errors: not_found, usage (TOML

@@ -125,14 +125,30 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
   }
   if (op == "health") {
     const double up = std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count();
-    return {{{"ok", true},
-             {"version", "0.1.0"},
-             {"uptime_s", std::round(up * 1000) / 1000},
-             {"queued", store_.queued()},
-             {"running", store_.running()},
-             {"workers", workers_}},
-            false,
-            {}};
+    nlohmann::json h{{"ok", true},
+                     {"version", "0.1.0"},
+                     {"uptime_s", std::round(up * 1000) / 1000},
+                     {"queued", store_.queued()},
+                     {"running", store_.running()},
+                     {"workers", workers_}};
+    if (cluster_info_) {
+      auto c = cluster_info_();
+      h["queue"] = c ? nlohmann::json{{"reachable", true},
+                                      {"workers", c.value()["workers"].size()},
+                                      {"pending", c.value()["pending"]},
+                                      {"lag", c.value()["lag"]},
+                                      {"dead", c.value()["dead"]}}
+                     : nlohmann::json{{"reachable", false}, {"error", c.error().message}};
+    }
+    return {h, false, {}};
+  }
+  if (op == "cluster") {
+    if (!cluster_info_) return {error_response(ErrorCode::bad_request, "this daemon is not in queue mode"), false, {}};
+    auto c = cluster_info_();
+    if (!c) return {error_response(c.error().code, c.error().message), false, {}};
+    nlohmann::json r = c.value();
+    r["ok"] = true;
+    return {r, false, {}};
   }
   return {error_response(ErrorCode::bad_request, "unknown op '" + op + "'"), false, {}};
 }

@@ -8,13 +8,15 @@
 //   cancel {job}            -> {"ok":true,"job","cancelled":true}
 //   jobs   {state?}         -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}]}
 //   watch  {job?}           -> {"ok":true,"watching":"<id>"|"all"}, then events on the connection
-//   health                  -> {"ok":true,"version","uptime_s","queued","running","workers"}
+//   health                  -> {"ok":true,"version","uptime_s","queued","running","workers","queue"?}
+//   cluster                 -> {"ok":true,"stream","workers":[...],"pending","lag","dead"}  (queue mode)
 // Errors: {"ok":false,"error":{"code","message"}}.
 //
 // Thread contract: safe for concurrent use.
 #pragma once
 
 #include <chrono>
+#include <functional>
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
@@ -36,6 +38,8 @@ class Dispatcher {
   Dispatcher(JobStore& store, const JobRunner& runner, size_t workers);
   // Empty token: none required.
   void set_token(std::string token);
+  // Queue mode: the cluster's state (task_queue.h), for `cluster` and `health`.
+  void set_cluster_info(std::function<Result<nlohmann::json>()> info) { cluster_info_ = std::move(info); }
   Reply handle(std::string_view line) const;
   static nlohmann::json error_response(ErrorCode code, const std::string& message);
 
@@ -44,6 +48,7 @@ class Dispatcher {
   JobStore& store_;
   const JobRunner& runner_;
   size_t workers_;
+  std::function<Result<nlohmann::json>()> cluster_info_;
   std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
   mutable std::mutex token_mu_;
   std::string token_;  // GUARDED_BY(token_mu_)

@@ -14,10 +14,12 @@
 #include "cache_dir.h"
 #include "daemon_config.h"
 #include "dispatcher.h"
+#include "distributed_jobs.h"
 #include "drop_folder.h"
 #include "job_runner.h"
 #include "job_store.h"
 #include "path_guard.h"
+#include "queue_worker.h"
 #include "server.h"
 #include "worker_pool.h"
 
@@ -66,6 +68,18 @@ int main(int argc, char** argv) {
   app.add_option("--drop-stable-s", stable_s, "polling: a file is complete when unchanged this long (default 5)");
   app.add_option("--drop-poll-s", poll_s, "drop folder polling period (default 2)");
   app.add_flag("--no-inotify", no_inotify, "poll the drop folder instead of using inotify (network shares)");
+  std::string queue;
+  size_t queue_workers = 0, templates_per_task = 0;
+  double claim_idle_s = -1;
+  int max_attempts = 0;
+  app.add_option("--queue", queue,
+                 "queue mode: redis://HOST:PORT/STREAM. Jobs submitted here are split into tasks on that Redis "
+                 "stream, and this daemon runs tasks from it, with every other daemon on the same stream");
+  app.add_option("--queue-workers", queue_workers, "tasks this daemon runs at once in queue mode (default 1)");
+  app.add_option("--templates-per-task", templates_per_task, "masters per locate task (default 25)");
+  app.add_option("--claim-idle-s", claim_idle_s,
+                 "a task whose worker went quiet this long is run by another (default 30)");
+  app.add_option("--max-attempts", max_attempts, "a task failing this many times is dead-lettered (default 3)");
   CLI11_PARSE(app, argc, argv);
 
   auto apply_overrides = [&](DaemonConfig& c) {
@@ -82,6 +96,11 @@ int main(int argc, char** argv) {
     if (stable_s >= 0) c.drop_stable_s = stable_s;
     if (poll_s > 0) c.drop_poll_s = poll_s;
     if (no_inotify) c.drop_inotify = false;
+    if (!queue.empty()) c.queue_url = queue;
+    if (queue_workers) c.queue_workers = queue_workers;
+    if (templates_per_task) c.queue_templates_per_task = templates_per_task;
+    if (claim_idle_s >= 0) c.queue_claim_idle_s = claim_idle_s;
+    if (max_attempts > 0) c.queue_max_attempts = max_attempts;
   };
   if (!config_path.empty()) {
     if (auto st = load_daemon_config(config_path, cfg); !st) {
@@ -139,6 +158,31 @@ int main(int argc, char** argv) {
   Dispatcher dispatcher(store, runner, cfg.workers);
   dispatcher.set_token(token);
 
+  std::unique_ptr<DistributedJobs> distributed;
+  std::unique_ptr<QueueWorker> queue_worker;
+  JobExecutor executor;
+  if (!cfg.queue_url.empty()) {
+    auto url = parse_queue_url(cfg.queue_url);
+    if (!url) {
+      std::cerr << "godwitd: " << url.error().describe() << "\n";
+      return 2;
+    }
+    QueueOptions qo;
+    qo.claim_idle_s = cfg.queue_claim_idle_s;
+    qo.max_attempts = std::max(1, cfg.queue_max_attempts);
+    distributed = std::make_unique<DistributedJobs>(url.value(), qo, cfg.queue_templates_per_task);
+    DistributedJobs* d = distributed.get();
+    executor = [d](const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
+                   const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
+      return d->run(id, spec, progress, should_stop, warn);
+    };
+    dispatcher.set_cluster_info([d] { return d->cluster(); });
+    queue_worker = std::make_unique<QueueWorker>(url.value(), qo, runner, cfg.queue_workers, default_consumer_name());
+    queue_worker->start();
+    spdlog::info("queue mode: {} ({} task worker(s), {} masters per task)", cfg.queue_url, cfg.queue_workers,
+                 cfg.queue_templates_per_task);
+  }
+
   boost::asio::io_context io;
   std::unique_ptr<Server> server;
   try {
@@ -149,7 +193,7 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return 5;
   }
-  WorkerPool pool(store, runner, cfg.workers);
+  WorkerPool pool(store, runner, cfg.workers, executor);
   std::unique_ptr<DropFolder> dropper;
   if (!cfg.drop.empty()) {
     dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, cfg.schedules},
@@ -194,6 +238,7 @@ int main(int argc, char** argv) {
   io.run();
   if (dropper) dropper->stop();
   pool.drain();
+  if (queue_worker) queue_worker->stop();
   cache.save(rc.costs);
   spdlog::info("godwitd stopped");
   return 0;

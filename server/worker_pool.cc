@@ -6,7 +6,13 @@
 
 namespace godwit {
 
-WorkerPool::WorkerPool(JobStore& store, const JobRunner& runner, size_t workers) : store_(store), runner_(runner) {
+WorkerPool::WorkerPool(JobStore& store, const JobRunner& runner, size_t workers, JobExecutor executor)
+    : store_(store), runner_(runner), executor_(std::move(executor)) {
+  if (!executor_)
+    executor_ = [this](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
+                       const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
+      return runner_.run(spec, progress, should_stop, warn);
+    };
   for (size_t i = 0; i < std::max<size_t>(1, workers); ++i) threads_.emplace_back([this] { loop(); });
 }
 
@@ -22,8 +28,8 @@ void WorkerPool::loop() {
   while (auto job = store_.take()) {
     const std::string id = job->id;
     spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));
-    auto result = runner_.run(
-        job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
+    auto result = executor_(
+        id, job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
         [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); });
     if (result) {
       store_.finish(id, result.value());

@@ -4,6 +4,7 @@
 // and starts no new ones (queued jobs stay in the journal for next time).
 #pragma once
 
+#include <functional>
 #include <thread>
 #include <vector>
 
@@ -12,9 +13,14 @@
 
 namespace godwit {
 
+// How a job runs: on this machine (JobRunner::run) or through the queue.
+using JobExecutor = std::function<Result<nlohmann::json>(
+    const std::string& job_id, const nlohmann::json& spec, const std::function<void(double)>& progress,
+    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn)>;
+
 class WorkerPool {
  public:
-  WorkerPool(JobStore& store, const JobRunner& runner, size_t workers);
+  WorkerPool(JobStore& store, const JobRunner& runner, size_t workers, JobExecutor executor = nullptr);
   ~WorkerPool();
   void drain();  // returns when every worker has stopped
 
@@ -22,6 +28,7 @@ class WorkerPool {
   void loop();
   JobStore& store_;
   const JobRunner& runner_;
+  JobExecutor executor_;
   std::vector<std::thread> threads_;
 };
 

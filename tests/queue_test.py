@@ -1,0 +1,210 @@
+#!/usr/bin/python3
+"""Queue mode end to end: a real redis-server (started here, on a loopback
+port, ended by its PID) and several real godwitd processes sharing jobs.
+
+Run by CTest: queue_test.py --godwit PATH --godwitd PATH --synth PATH
+"""
+import argparse
+import json
+import os
+import shutil
+import signal
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+import unittest
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import daemon_test  # noqa: E402  (Daemon, Client, wait_state)
+from daemon_test import Client, Daemon, wait_state  # noqa: E402
+
+ARGS = None
+
+
+def free_port():
+    s = socket.socket()
+    s.bind(("127.0.0.1", 0))
+    port = s.getsockname()[1]
+    s.close()
+    return port
+
+
+class Redis:
+    """redis-server on 127.0.0.1 with AOF persistence, fsync'ed on every write."""
+
+    def __init__(self, tmp, port=None):
+        self.dir = os.path.join(tmp, "redis")
+        os.makedirs(self.dir, exist_ok=True)
+        self.port = port or free_port()
+        self.start()
+
+    def start(self):
+        self.proc = subprocess.Popen(["redis-server", "--port", str(self.port), "--bind", "127.0.0.1", "--dir", self.dir,
+                                      "--appendonly", "yes", "--appendfsync", "always", "--save", "",
+                                      "--protected-mode", "yes"],
+                                     stdout=open(os.path.join(self.dir, "log"), "a"), stderr=subprocess.STDOUT)
+        end = time.time() + 20
+        while time.time() < end:
+            if self.cli("PING").strip() == "PONG":
+                return
+            time.sleep(0.05)
+        raise AssertionError("redis-server did not start")
+
+    def cli(self, *args):
+        p = subprocess.run(["redis-cli", "-h", "127.0.0.1", "-p", str(self.port), *args], capture_output=True,
+                           text=True, timeout=30)
+        return p.stdout
+
+    def stop(self, sig=signal.SIGTERM):
+        if self.proc.poll() is None:
+            self.proc.send_signal(sig)
+            self.proc.wait(timeout=30)
+
+
+def strip(doc):
+    """A locate document's matches, comparable across runs."""
+    return sorted((m["template"], os.path.basename(m["recording"]), round(m["offset_s"], 5), m["polarity"])
+                  for m in doc["matches"])
+
+
+class QueueTests(unittest.TestCase):
+    @classmethod
+    def setUpClass(cls):
+        cls.demo_tmp = tempfile.mkdtemp(prefix="godwit-queue-demo-")
+        demo = os.path.join(cls.demo_tmp, "demo")
+        subprocess.run([ARGS.synth, "demo", "--out", demo], check=True, capture_output=True)
+        daemon_test.ARGS = ARGS
+        daemon_test.DEMO = demo
+        cls.demo = demo
+        with open(os.path.join(demo, "truth.json")) as f:
+            cls.recs = json.load(f)["recordings"]
+
+    @classmethod
+    def tearDownClass(cls):
+        shutil.rmtree(cls.demo_tmp, ignore_errors=True)
+
+    def setUp(self):
+        self.tmp = tempfile.mkdtemp(prefix="godwit-queue-test-")
+        os.makedirs(os.path.join(self.tmp, "root"))
+        self.redis = Redis(self.tmp)
+        self.stream = "godwit-test"
+        self.daemons = []
+
+    def tearDown(self):
+        for d in self.daemons:
+            d.stop(signal.SIGKILL)
+        self.redis.stop(signal.SIGKILL)
+        shutil.rmtree(self.tmp, ignore_errors=True)
+
+    def start(self, name, claim_idle_s=3, attempts=3):
+        cfg = (f'[queue]\nurl = "redis://127.0.0.1:{self.redis.port}/{self.stream}"\ntemplates_per_task = 2\n'
+               f'claim_idle_s = {claim_idle_s}\nmax_attempts = {attempts}\nworkers = 1\n')
+        d = Daemon(self.tmp, extra_config=cfg, state=os.path.join(self.tmp, "state-" + name))
+        self.daemons.append(d)
+        return d
+
+    def cli_locate(self, recordings):
+        p = subprocess.run([ARGS.godwit, "locate", "--library", os.path.join(self.demo, "library"), "--recording",
+                            *recordings, "--planner", "estimate", "--cache-dir", "", "--quiet"],
+                           capture_output=True, text=True, timeout=600)
+        self.assertIn(p.returncode, (0,), p.stderr)
+        return json.loads(p.stdout)
+
+    def test_three_workers_share_a_job_and_the_merge_equals_one_process(self):
+        ds = [self.start(n) for n in "abc"]
+        c = ds[0].connect()
+        recs = self.recs * 2  # 6 recordings x 3 batches of 2 masters = 18 tasks
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": recs}})
+        self.assertTrue(r["ok"], r)
+        seen_progress = set()
+        end = time.time() + 300
+        while time.time() < end:
+            st = c.req({"op": "status", "job": r["job"]})
+            seen_progress.add(round(st["progress"], 3))
+            if st["state"] in ("done", "failed"):
+                break
+            time.sleep(0.1)
+        self.assertEqual(st["state"], "done", st)
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(doc["tasks"], 18)
+        self.assertTrue(doc["complete"])
+        self.assertEqual(strip(doc), strip(self.cli_locate(recs)))
+        self.assertEqual(len(doc["templates"]), 6)
+        self.assertGreater(len([p for p in seen_progress if 0 < p < 1]), 0, seen_progress)  # progress across workers
+        # Every worker took part, as the heartbeats in `cluster` say.
+        time.sleep(6)
+        cl = c.req({"op": "cluster"})
+        self.assertTrue(cl["ok"], cl)
+        done = {w["name"]: w["done"] for w in cl["workers"]}
+        self.assertEqual(len(done), 3, cl)
+        self.assertEqual(sum(done.values()), 18, cl)
+        self.assertGreaterEqual(len([n for n in done.values() if n > 0]), 2, cl)
+        self.assertEqual(cl["dead"], 0)
+        h = c.req({"op": "health"})
+        self.assertEqual(h["queue"]["workers"], 3)
+        self.assertTrue(h["queue"]["reachable"])
+
+    def test_a_worker_killed_mid_task_leaves_it_to_another(self):
+        a = self.start("a")
+        b = self.start("b")
+        c = a.connect()
+        recs = self.recs * 4  # 12 recordings, 36 tasks
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": recs}})
+        # Kill b while it runs a task.
+        end = time.time() + 120
+        killed = False
+        while time.time() < end and not killed:
+            for w in c.req({"op": "cluster"}).get("workers", []):
+                if w["running"] and w["name"].endswith(str(b.proc.pid)):
+                    b.stop(signal.SIGKILL)
+                    killed = True
+            time.sleep(0.05)
+        self.assertTrue(killed, "b never ran a task")
+        st = wait_state(c, r["job"], timeout=300)
+        self.assertEqual(st["state"], "done", st)
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(doc["tasks"], 36)
+        # Each task's matches once: the same multiset as one process gives
+        # (the job lists each file four times, so each match is there four times).
+        self.assertEqual(strip(doc), strip(self.cli_locate(recs)))
+        self.assertEqual(c.req({"op": "cluster"})["dead"], 0)
+
+    def test_a_redis_restart_loses_no_acknowledged_job(self):
+        a = self.start("a")
+        c = a.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": self.recs * 3}})
+        self.assertTrue(r["ok"])
+        time.sleep(1.0)
+        self.redis.stop(signal.SIGKILL)  # AOF with fsync on every write: nothing acknowledged is lost
+        time.sleep(2.0)
+        self.redis.start()
+        st = wait_state(c, r["job"], timeout=300)
+        self.assertEqual(st["state"], "done", st)
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(strip(doc), strip(self.cli_locate(self.recs * 3)))
+
+    def test_a_poison_task_lands_in_the_dead_letter_stream(self):
+        a = self.start("a", attempts=2)
+        c = a.connect()
+        bad = os.path.join(self.tmp, "root", "broken-master.wav")
+        with open(bad, "wb") as f:  # a master that no run can read: every attempt fails
+            f.write(b"RIFF\x00\x00\x00\x00WAVEjunk")
+        r = c.req({"op": "submit", "job": {"kind": "locate", "templates": [bad], "recordings": self.recs[:1]}})
+        self.assertTrue(r["ok"], r)
+        st = wait_state(c, r["job"], timeout=120)
+        self.assertEqual(st["state"], "failed", st)
+        self.assertIn("failed 2 times", st["error"]["message"])
+        dead = self.redis.cli("XRANGE", self.stream + ":dead", "-", "+")
+        self.assertIn("broken-master", dead)
+        self.assertEqual(c.req({"op": "cluster"})["dead"], 1)
+
+
+if __name__ == "__main__":
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--godwit", required=True)
+    parser.add_argument("--godwitd", required=True)
+    parser.add_argument("--synth", required=True)
+    ARGS, rest = parser.parse_known_args()
+    unittest.main(argv=[sys.argv[0], "-v", *rest])
