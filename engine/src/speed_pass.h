@@ -47,8 +47,6 @@ class SpeedPass {
   // master (`plain`: template index, offset in analysis samples).
   std::vector<SpeedCandidate> candidates(const std::vector<std::pair<size_t, double>>& plain, double duration_s);
 
-  const std::vector<double>& speeds() const { return speeds_; }
-
  private:
   double rate_hz_;
   SpeedOptions options_;

@@ -250,6 +250,4 @@ double WarpCorrelator::offset_of(size_t g, double lag) const {
   return lag * static_cast<double>(impl_->opt.hop) / impl_->streams.at(g).speed;
 }
 
-size_t WarpCorrelator::fft_size() const { return impl_->fft; }
-
 }  // namespace godwit::detail

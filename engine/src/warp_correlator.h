@@ -56,7 +56,6 @@ class WarpCorrelator {
 
   // Recording offset (analysis samples) of lag `lag` of stream `g`.
   double offset_of(size_t g, double lag) const;
-  size_t fft_size() const;
 
  private:
   struct Impl;
