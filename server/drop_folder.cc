@@ -28,7 +28,14 @@ struct Seen {
 
 }  // namespace
 
-DropFolder::DropFolder(DropOptions options, const JobRunner& runner) : o_(std::move(options)), runner_(runner) {}
+DropFolder::DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor)
+    : o_(std::move(options)), runner_(runner), executor_(std::move(executor)) {
+  if (!executor_)
+    executor_ = [this](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
+                       const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
+      return runner_.run(spec, progress, should_stop, warn);
+    };
+}
 
 DropFolder::~DropFolder() { stop(); }
 
@@ -136,8 +143,10 @@ void DropFolder::process(const std::string& name) {
     doc = lib.error();
   } else {
     nlohmann::json spec{{"kind", "locate"}, {"templates", lib.value()}, {"recordings", {path}}};
-    doc = runner_.run(spec, [](double) {}, [this] { return stop_.load(); },
-                      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); });
+    // The job id follows from the file: after a crash its re-run finds the
+    // tasks already stored by the queue.
+    doc = executor_("drop-" + name, spec, [](double) {}, [this] { return stop_.load(); },
+                    [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); });
   }
   std::error_code ec;
   if (!doc && doc.error().code == ErrorCode::cancelled) return;  // stays in work/ for the next start

@@ -43,7 +43,10 @@ struct DropOptions {
 
 class DropFolder {
  public:
-  DropFolder(DropOptions options, const JobRunner& runner);
+  // `executor` runs each file's locate job (empty: the runner, here); in
+  // queue mode it spreads it over the cluster. The day's reconciliation,
+  // which also writes the HTML report, runs here.
+  DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor = nullptr);
   ~DropFolder();
   Status start();
   void stop();
@@ -54,6 +57,7 @@ class DropFolder {
   void reconcile_day(const std::string& name);
   DropOptions o_;
   const JobRunner& runner_;
+  JobExecutor executor_;
   std::thread thread_;
   std::atomic<bool> stop_{false};
   int inotify_fd_ = -1;

@@ -197,7 +197,7 @@ int main(int argc, char** argv) {
   std::unique_ptr<DropFolder> dropper;
   if (!cfg.drop.empty()) {
     dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, cfg.schedules},
-                                           runner);
+                                           runner, executor);
     if (auto st = dropper->start(); !st) {
       std::cerr << "godwitd: " << st.error().describe() << "\n";
       return 5;

@@ -53,4 +53,10 @@ class JobRunner {
   const PathGuard& guard_;
 };
 
+// How a prepared job runs: on this machine (JobRunner::run; the default
+// where one is empty) or through the queue (distributed_jobs.h).
+using JobExecutor = std::function<Result<nlohmann::json>(
+    const std::string& job_id, const nlohmann::json& spec, const std::function<void(double)>& progress,
+    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn)>;
+
 }  // namespace godwit

@@ -13,11 +13,6 @@
 
 namespace godwit {
 
-// How a job runs: on this machine (JobRunner::run) or through the queue.
-using JobExecutor = std::function<Result<nlohmann::json>(
-    const std::string& job_id, const nlohmann::json& spec, const std::function<void(double)>& progress,
-    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn)>;
-
 class WorkerPool {
  public:
   WorkerPool(JobStore& store, const JobRunner& runner, size_t workers, JobExecutor executor = nullptr);

@@ -98,10 +98,10 @@ class QueueTests(unittest.TestCase):
         self.redis.stop(signal.SIGKILL)
         shutil.rmtree(self.tmp, ignore_errors=True)
 
-    def start(self, name, claim_idle_s=3, attempts=3):
+    def start(self, name, claim_idle_s=3, attempts=3, args=()):
         cfg = (f'[queue]\nurl = "redis://127.0.0.1:{self.redis.port}/{self.stream}"\ntemplates_per_task = 2\n'
                f'claim_idle_s = {claim_idle_s}\nmax_attempts = {attempts}\nworkers = 1\n')
-        d = Daemon(self.tmp, extra_config=cfg, state=os.path.join(self.tmp, "state-" + name))
+        d = Daemon(self.tmp, extra_config=cfg, args=args, state=os.path.join(self.tmp, "state-" + name))
         self.daemons.append(d)
         return d
 
@@ -184,6 +184,25 @@ class QueueTests(unittest.TestCase):
         self.assertEqual(st["state"], "done", st)
         doc = c.req({"op": "result", "job": r["job"]})["result"]
         self.assertEqual(strip(doc), strip(self.cli_locate(self.recs * 3)))
+
+    def test_a_file_in_the_drop_folder_is_shared_out_too(self):
+        drop = os.path.join(self.tmp, "drop")
+        a = self.start("a", args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        self.start("b")
+        os.makedirs(os.path.join(drop, "incoming"), exist_ok=True)
+        tmpname = os.path.join(drop, "incoming", ".h0600.flac")
+        shutil.copy(self.recs[0], tmpname)
+        os.rename(tmpname, os.path.join(drop, "incoming", "h0600.flac"))
+        out = os.path.join(drop, "results", "h0600.flac.json")
+        end = time.time() + 180
+        while time.time() < end and not os.path.exists(out):
+            time.sleep(0.2)
+        with open(out) as f:
+            doc = json.load(f)
+        self.assertEqual(doc["tasks"], 3)  # 6 masters in batches of 2: it went through the queue
+        want = self.cli_locate([os.path.join(drop, "done", "h0600.flac")])
+        self.assertEqual(strip(doc), strip(want))
+        self.assertTrue(a.connect().req({"op": "health"})["queue"]["reachable"])
 
     def test_a_poison_task_lands_in_the_dead_letter_stream(self):
         a = self.start("a", attempts=2)
