@@ -191,8 +191,10 @@ std::function<int()> add_client_commands(CLI::App& app) {
   watch->add_option("job", a->job, "job id (default: all jobs)");
   auto* health = app.add_subcommand("health", "godwitd's version, uptime, queue depth and workers");
   common(health);
+  auto* cluster = app.add_subcommand("cluster", "queue mode: the workers on the daemon's Redis stream, pending, lag, dead letters");
+  common(cluster);
   return [&app, a]() -> int {
-    for (const char* op : {"submit", "status", "result", "cancel", "jobs", "watch", "health"})
+    for (const char* op : {"submit", "status", "result", "cancel", "jobs", "watch", "health", "cluster"})
       if (app.got_subcommand(op)) return run(op, *a);
     return 2;
   };
