@@ -14,14 +14,6 @@ using namespace godwit;
 
 namespace {
 
-LocateOptions fast_options(const test::MemoryFiles& files) {
-  LocateOptions o;
-  o.opener = files.opener();
-  o.correlator.planner = Planner::estimate;
-  o.bank.max_fft_size = 1 << 18;
-  return o;
-}
-
 struct Planted {
   std::string id;
   double offset_s;
@@ -58,7 +50,7 @@ TEST_CASE("planted clips are found within one analysis sample, and within 0.5 ms
   LocateJob job{{"alpha.wav", "beta.wav"}, {"air.flac"}};
   for (bool refine : {false, true}) {
     CAPTURE(refine);
-    auto o = fast_options(files);
+    auto o = test::fast_locate_options(files);
     o.refine = refine;
     auto r = run_locate(job, o);
     REQUIRE(r.ok());
@@ -86,7 +78,7 @@ TEST_CASE("a master at 48 kHz is found in a 22.05 kHz recording") {
   const size_t at = 300000;  // 13.605442 s
   for (size_t i = 0; i < at_rec.size(); ++i) x[at + i] = at_rec[i];
   files.files["air.mp3"] = {x, 22050};
-  auto r = run_locate({{"promo.wav"}, {"air.mp3"}}, fast_options(files));
+  auto r = run_locate({{"promo.wav"}, {"air.mp3"}}, test::fast_locate_options(files));
   REQUIRE(r.ok());
   REQUIRE(r.value().matches.size() == 1);
   CHECK(std::fabs(r.value().matches[0].offset_s - at / 22050.0) < 0.5e-3);
@@ -103,7 +95,7 @@ TEST_CASE("a clip straddling a block boundary is found exactly once") {
     Samples x = synth::programme(12.0, 8000, 7);
     for (size_t i = 0; i < master.size(); ++i) x[at + i] = master[i];
     files.files["air.wav"] = {x, 8000};
-    auto o = fast_options(files);
+    auto o = test::fast_locate_options(files);
     o.bank.fixed_fft_size = 32768;
     auto r = run_locate({{"m.wav"}, {"air.wav"}}, o);
     REQUIRE(r.ok());
@@ -120,7 +112,7 @@ TEST_CASE("a recording that breaks mid-stream keeps the matches found before the
   files.files["air.wav"] = {make_recording(60.0, rate, masters, {{"s", 5.0, 1}, {"s", 45.0, 1}}, 20, 9), rate,
                             static_cast<int64_t>(30 * rate)};
   files.files["next.wav"] = {make_recording(20.0, rate, masters, {{"s", 10.0, 1}}, 20, 10), rate};
-  auto r = run_locate({{"s.wav"}, {"air.wav", "missing.wav", "next.wav"}}, fast_options(files));
+  auto r = run_locate({{"s.wav"}, {"air.wav", "missing.wav", "next.wav"}}, test::fast_locate_options(files));
   REQUIRE(r.ok());
   const auto& res = r.value();
   REQUIRE(res.recordings.size() == 3);
@@ -151,7 +143,7 @@ TEST_CASE("no false detections on unrelated programme, or on silence with dropou
   for (size_t i = 0; i < silence.size(); ++i) silence[i] = (i / 80000) % 3 == 0 ? 0.0f : dither[i];
   for (size_t i = 4000; i < silence.size(); i += 96000) silence[i] = (i % 2) ? 1.0f : -1.0f;
   files.files["silence.wav"] = {silence, 8000};
-  auto r = run_locate({ids, {"programme.wav", "silence.wav"}}, fast_options(files));
+  auto r = run_locate({ids, {"programme.wav", "silence.wav"}}, test::fast_locate_options(files));
   REQUIRE(r.ok());
   CHECK(r.value().matches.empty());
 }
@@ -161,7 +153,7 @@ TEST_CASE("job-level errors: duplicate ids, unreadable master, no recordings, ca
   files.files["a/x.wav"] = {synth::spot(2.0, 8000, 1), 8000};
   files.files["b/x.wav"] = {synth::spot(2.0, 8000, 2), 8000};
   files.files["air.wav"] = {synth::programme(30.0, 8000, 3), 8000};
-  auto o = fast_options(files);
+  auto o = test::fast_locate_options(files);
   auto dup = run_locate({{"a/x.wav", "b/x.wav"}, {"air.wav"}}, o);
   REQUIRE(!dup.ok());
   CHECK(dup.error().code == ErrorCode::usage);
@@ -178,7 +170,7 @@ TEST_CASE("progress reaches 1 and recordings of unknown length still work") {
   test::MemoryFiles files;
   files.files["m.wav"] = {synth::spot(2.0, 8000, 1), 8000};
   files.files["air.wav"] = {synth::programme(60.0, 8000, 2), 8000};
-  auto o = fast_options(files);
+  auto o = test::fast_locate_options(files);
   double last = -1;
   o.on_progress = [&](const Progress& p) {
     CHECK(p.fraction >= last);

@@ -21,14 +21,6 @@ struct Airing {
   double speed;
 };
 
-LocateOptions options_for(const test::MemoryFiles& files) {
-  LocateOptions o;
-  o.opener = files.opener();
-  o.correlator.planner = Planner::estimate;
-  o.bank.max_fft_size = 1 << 18;
-  return o;
-}
-
 // Programme with the masters aired at the given speeds (replacing the
 // programme there), plus white noise `snr_db` below the airing.
 Samples air(double length_s, double rate, const std::map<std::string, Samples>& masters,
@@ -65,7 +57,7 @@ TEST_CASE("airings resampled by 0.5 to 4.17 % either way are found with their sp
   }
   files.files["air.flac"] = {air(t + 20, rate, masters, airings, 10, 5), rate};
   LocateJob job{{"harbour-30.wav", "lantern-15.wav"}, {"air.flac"}};
-  auto r = run_locate(job, options_for(files));
+  auto r = run_locate(job, test::fast_locate_options(files));
   REQUIRE(r);
   for (const auto& a : airings) {
     CAPTURE(a.id);
@@ -91,7 +83,7 @@ TEST_CASE("a polarity-inverted, sped-up airing reports both; unrelated programme
   files.files["air.wav"] = {x, rate};
   files.files["other.wav"] = {synth::programme(600, rate, 33), rate};
   LocateJob job{{"dune-20.wav"}, {"air.wav", "other.wav"}};
-  auto r = run_locate(job, options_for(files));
+  auto r = run_locate(job, test::fast_locate_options(files));
   REQUIRE(r);
   REQUIRE(r.value().matches.size() == 1);
   const Match& m = r.value().matches[0];
@@ -108,7 +100,7 @@ TEST_CASE("with the speed search off, a resampled airing is not found and matche
   std::map<std::string, Samples> masters{{"reed-15", synth::spot(15.0, rate, 31)}};
   files.files["reed-15.wav"] = {masters["reed-15"], rate};
   files.files["air.wav"] = {air(100, rate, masters, {{"reed-15", 10.0, 1.02}, {"reed-15", 60.0, 1.0}}, 20, 4), rate};
-  LocateOptions o = options_for(files);
+  LocateOptions o = test::fast_locate_options(files);
   o.speed.enabled = false;
   auto r = run_locate({{"reed-15.wav"}, {"air.wav"}}, o);
   REQUIRE(r);

@@ -30,6 +30,14 @@ SourceOpener MemoryFiles::opener() const {
   };
 }
 
+LocateOptions fast_locate_options(const MemoryFiles& files) {
+  LocateOptions o;
+  o.opener = files.opener();
+  o.correlator.planner = Planner::estimate;
+  o.bank.max_fft_size = 1 << 18;
+  return o;
+}
+
 std::shared_ptr<const TemplateBank> make_bank(const std::vector<Samples>& templates, size_t fixed_fft_size) {
   std::vector<TemplateInput> in;
   for (size_t i = 0; i < templates.size(); ++i)

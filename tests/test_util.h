@@ -7,6 +7,7 @@
 #include <string>
 
 #include "godwit/audio_source.h"
+#include "godwit/job.h"
 #include "godwit/template_bank.h"
 #include "godwit/types.h"
 
@@ -35,6 +36,10 @@ struct MemoryFiles {
   std::map<std::string, Entry> files;
   SourceOpener opener() const;
 };
+
+// Locate options for in-memory files: estimate planner, FFTs up to 2^18
+// (fast to plan, enough for masters of a minute).
+LocateOptions fast_locate_options(const MemoryFiles& files);
 
 // A bank of in-memory templates (analysis rate), estimate planner.
 std::shared_ptr<const TemplateBank> make_bank(const std::vector<Samples>& templates, size_t fixed_fft_size = 0);

@@ -1,5 +1,7 @@
 #include "synth.h"
 
+#include "godwit/analysis_stream.h"
+
 #include <sndfile.h>
 
 #include <algorithm>
@@ -241,6 +243,19 @@ std::string write_audio(const std::string& path, const Samples& interleaved, int
   if (wrote != frames) err = std::string("short write to ") + path + ": " + sf_strerror(sf);
   sf_close(sf);
   return err;
+}
+
+Samples sox_tempo(const Samples& mono, double rate_hz, double factor, const std::string& scratch_dir) {
+  const std::string in = scratch_dir + "/tempo-in.wav", out = scratch_dir + "/tempo-out.wav";
+  if (!write_audio(in, mono, 1, rate_hz).empty()) return {};
+  char cmd[2048];
+  std::snprintf(cmd, sizeof cmd, "sox -q '%s' -b 32 -e floating-point '%s' tempo %.6f 2>/dev/null", in.c_str(),
+                out.c_str(), factor);
+  if (std::system(cmd) != 0) return {};
+  auto src = open_audio_file(out, ChannelChoice{});
+  if (!src) return {};
+  auto d = decode_all(*src.value(), rate_hz);
+  return d ? d.value() : Samples{};
 }
 
 }  // namespace godwit::synth

@@ -49,6 +49,11 @@ void set_rms(Samples& x, double target_rms);
 std::string write_audio(const std::string& path, const Samples& interleaved, int channels,
                         double rate_hz, double mp3_bitrate_kbps = 128);
 
+// Tempo change with the pitch kept, by sox's `tempo` effect (WSOLA), through
+// files in `scratch_dir`; empty when sox is missing or fails. For
+// benchmark airings only (an outside tool, not our code, makes them).
+Samples sox_tempo(const Samples& mono, double rate_hz, double factor, const std::string& scratch_dir);
+
 // Mono to stereo with a little width (right = left delayed 0 samples,
 // slightly different gain), interleaved.
 Samples to_stereo(const Samples& mono, double right_gain = 0.9);

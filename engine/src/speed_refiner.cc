@@ -104,6 +104,24 @@ class EnvelopeSearch {
   std::vector<float> rows_;
 };
 
+// Vertex offset in (-0.5, 0.5) of the parabola through y0, y1, y2 around
+// a maximum y1 (0 when they do not bend down).
+double parabolic_delta(double y0, double y1, double y2) {
+  const double den = y0 - 2 * y1 + y2;
+  return den < 0 ? std::clamp(0.5 * (y0 - y2) / den, -0.5, 0.5) : 0.0;
+}
+
+// Index of the largest |r[k]|, refined by a parabola through |r| around it.
+std::pair<size_t, double> abs_peak(const std::vector<double>& r) {
+  size_t best = 0;
+  for (size_t k = 1; k < r.size(); ++k)
+    if (std::fabs(r[k]) > std::fabs(r[best])) best = k;
+  double delta = 0;
+  if (best > 0 && best + 1 < r.size())
+    delta = parabolic_delta(std::fabs(r[best - 1]), std::fabs(r[best]), std::fabs(r[best + 1]));
+  return {best, static_cast<double>(best) + delta};
+}
+
 // Best of f over a grid x0 + i * dx, i in [-n, n], refined by a parabola.
 template <class F>
 std::pair<double, double> grid_max(F&& f, double x0, double dx, int n) {
@@ -111,10 +129,7 @@ std::pair<double, double> grid_max(F&& f, double x0, double dx, int n) {
   for (int i = -n; i <= n; ++i) v[static_cast<size_t>(i + n)] = f(x0 + i * dx);
   const size_t best = static_cast<size_t>(std::max_element(v.begin(), v.end()) - v.begin());
   double delta = 0;
-  if (best > 0 && best + 1 < v.size()) {
-    const double den = v[best - 1] - 2 * v[best] + v[best + 1];
-    if (den < 0) delta = std::clamp(0.5 * (v[best - 1] - v[best + 1]) / den, -0.5, 0.5);
-  }
+  if (best > 0 && best + 1 < v.size()) delta = parabolic_delta(v[best - 1], v[best], v[best + 1]);
   return {x0 + (static_cast<double>(best) - n + delta) * dx, v[best]};
 }
 
@@ -178,18 +193,10 @@ std::vector<SegmentHit> land_segments(FftPlans& plans, const Samples& m, const S
     const float inv = static_cast<float>(1.0 / std::sqrt(norm));
     for (float& v : seg) v *= inv;
     local_ncc(plans, seg.data(), seg_len, span.data() + w0, radius, r);
-    size_t best = 0;
-    for (size_t k = 1; k < r.size(); ++k)
-      if (std::fabs(r[k]) > std::fabs(r[best])) best = k;
-    double delta = 0;
-    if (best > 0 && best + 1 < r.size()) {
-      const double y0 = std::fabs(r[best - 1]), y1 = std::fabs(r[best]), y2 = std::fabs(r[best + 1]);
-      const double den = y0 - 2 * y1 + y2;
-      if (den < 0) delta = std::clamp(0.5 * (y0 - y2) / den, -0.5, 0.5);
-    }
+    const auto [best, at] = abs_peak(r);
     SegmentHit h;
     h.at = static_cast<double>(u) + 0.5 * static_cast<double>(seg_len);
-    h.lag = static_cast<double>(w0) + static_cast<double>(best) + delta - pos;
+    h.lag = static_cast<double>(w0) + at - pos;
     h.score = r[best];
     hits.push_back(h);
   }
@@ -290,16 +297,8 @@ std::optional<std::pair<double, double>> full_score(const Samples& m, const Samp
     const double e = s2 - s1 * s1 / static_cast<double>(m.size());
     if (e > 1e-12) r[static_cast<size_t>(d + n)] = std::clamp(dot / std::sqrt(e * norm), -1.0, 1.0);
   }
-  size_t best = 0;
-  for (size_t k = 1; k < r.size(); ++k)
-    if (std::fabs(r[k]) > std::fabs(r[best])) best = k;
-  double delta = 0;
-  if (best > 0 && best + 1 < r.size()) {
-    const double y0 = std::fabs(r[best - 1]), y1 = std::fabs(r[best]), y2 = std::fabs(r[best + 1]);
-    const double den = y0 - 2 * y1 + y2;
-    if (den < 0) delta = std::clamp(0.5 * (y0 - y2) / den, -0.5, 0.5);
-  }
-  return std::make_pair(static_cast<double>(base) + static_cast<double>(best) - n + delta, r[best]);
+  const auto [best, at] = abs_peak(r);
+  return std::make_pair(static_cast<double>(base) + at - n, r[best]);
 }
 
 }  // namespace

@@ -85,21 +85,6 @@ void one_pole_lowpass(Samples& x, double fc) {
   for (auto& v : x) v = static_cast<float>(y = (1 - a) * v + a * y);
 }
 
-// Tempo change with pitch kept, by sox's `tempo` effect (WSOLA); empty
-// when sox is missing or fails.
-Samples sox_tempo(const Samples& clip, double factor, const fs::path& dir) {
-  const auto in = dir / "tempo-in.wav", out = dir / "tempo-out.wav";
-  if (!synth::write_audio(in.string(), clip, 1, kRate).empty()) return {};
-  char cmd[1024];
-  std::snprintf(cmd, sizeof cmd, "sox -q '%s' -b 32 -e floating-point '%s' tempo %.6f 2>/dev/null", in.c_str(),
-                out.c_str(), factor);
-  if (std::system(cmd) != 0) return {};
-  auto src = open_audio_file(out.string(), ChannelChoice{});
-  if (!src) return {};
-  auto d = decode_all(*src.value(), kRate);
-  return d ? d.value() : Samples{};
-}
-
 double percentile(std::vector<double> v, double p) {
   if (v.empty()) return 0;
   std::sort(v.begin(), v.end());
@@ -191,7 +176,7 @@ int main(int argc, char** argv) {
         case Kind::tempo: {
           const double f = rng.uniform() < 0.5 ? 1.02 : 1.04;
           t.speed = rng.uniform() < 0.5 ? f : 1 / f;
-          Samples stretched = sox_tempo(clip, t.speed, dir);
+          Samples stretched = synth::sox_tempo(clip, kRate, t.speed, dir.string());
           if (stretched.empty()) {
             t.kind = kind = Kind::clean;  // no sox: a clean airing instead
             t.speed = 1;

@@ -301,22 +301,6 @@ int false_alarms(const std::string& cache_dir) {
   return 0;
 }
 
-// Tempo change with pitch kept, by sox's `tempo` effect (WSOLA); empty
-// when sox is not installed.
-Samples sox_tempo(const Samples& clip, double factor, const std::filesystem::path& dir, size_t n) {
-  const auto in = dir / ("tempo-in-" + std::to_string(n) + ".wav");
-  const auto out = dir / ("tempo-out-" + std::to_string(n) + ".wav");
-  if (!synth::write_audio(in.string(), clip, 1, kRate).empty()) return {};
-  char cmd[1024];
-  std::snprintf(cmd, sizeof cmd, "sox -q '%s' -b 32 -e floating-point '%s' tempo %.6f 2>/dev/null", in.c_str(),
-                out.c_str(), factor);
-  if (std::system(cmd) != 0) return {};
-  auto src = open_audio_file(out.string(), ChannelChoice{});
-  if (!src) return {};
-  auto d = decode_all(*src.value(), kRate);
-  return d ? d.value() : Samples{};
-}
-
 int speed(const std::string& cache_dir, double hours) {
   FftCache cache(cache_dir, [](std::string_view) {});
   FftCostTable costs = cache.load();
@@ -337,7 +321,6 @@ int speed(const std::string& cache_dir, double hours) {
   // One airing every 100 s: 5 of 6 resampled, the rest unchanged or
   // tempo-changed, in turn.
   const size_t n = static_cast<size_t>(hours * 3600 / 100) - 1;
-  size_t tempo_n = 0;
   for (size_t i = 0; i < n; ++i) {
     const size_t t = i % k;
     Planted p;
@@ -362,7 +345,7 @@ int speed(const std::string& cache_dir, double hours) {
     }
     auto src = open_audio_file(s.template_paths[t], ChannelChoice{});
     Samples master = decode_all(*src.value(), kRate).value();
-    Samples clip = p.tempo ? sox_tempo(master, p.speed, dir, tempo_n++) : resample_all(master, kRate * p.speed, kRate);
+    Samples clip = p.tempo ? synth::sox_tempo(master, kRate, p.speed, dir.string()) : resample_all(master, kRate * p.speed, kRate);
     if (clip.empty()) continue;  // sox missing: no tempo airings
     clip.resize(static_cast<size_t>(p.coverage * static_cast<double>(clip.size())));
     const Samples noise = synth::white_noise(clip.size(), synth::rms(clip) * std::pow(10.0, -p.snr_db / 20), 77 + i);

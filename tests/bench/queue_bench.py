@@ -11,7 +11,6 @@ queue_bench.py --godwit PATH --godwitd PATH --synth PATH [--copies N]
 """
 import argparse
 import datetime
-import glob
 import json
 import os
 import re
