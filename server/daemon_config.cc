@@ -60,6 +60,7 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   str(t["queue"]["url"], c.queue_url, "queue.url");
   num(t["queue"]["workers"], c.queue_workers, "queue.workers");
   num(t["queue"]["templates_per_task"], c.queue_templates_per_task, "queue.templates_per_task");
+  num(t["queue"]["task_span_s"], c.queue_task_span_s, "queue.task_span_s");
   num(t["queue"]["claim_idle_s"], c.queue_claim_idle_s, "queue.claim_idle_s");
   num(t["queue"]["max_attempts"], c.queue_max_attempts, "queue.max_attempts");
   if (!bad.empty()) return Error{ErrorCode::usage, "key '" + bad + "' has the wrong type", path, std::nullopt};

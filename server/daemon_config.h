@@ -38,6 +38,7 @@ struct DaemonConfig {
   std::string queue_url;          // redis://HOST:PORT/STREAM
   size_t queue_workers = 1;       // tasks this daemon runs at once
   size_t queue_templates_per_task = 25;
+  double queue_task_span_s = 3600;  // a stream over 1.5 of these is split
   double queue_claim_idle_s = 30;
   int queue_max_attempts = 3;
 };

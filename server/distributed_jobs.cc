@@ -1,12 +1,48 @@
 #include "distributed_jobs.h"
 
 #include <chrono>
+#include <set>
 #include <thread>
 
-namespace godwit {
+#include "godwit/html_report.h"
+#include "godwit/locate_report.h"
+#include "godwit/reconcile_report.h"
 
-DistributedJobs::DistributedJobs(QueueUrl url, QueueOptions options, size_t templates_per_task)
-    : url_(std::move(url)), options_(options), templates_per_task_(templates_per_task) {}
+namespace godwit {
+namespace {
+
+// What a segment reads beyond what it owns: the longest airing (the
+// longest master at the lowest speed searched) plus the reach of the noise
+// floor (about 4.4 s each side) and of peak suppression, with room.
+double margin_for(const std::vector<std::string>& templates, double max_speed_change_pct) {
+  double longest_s = 0;
+  for (const auto& t : templates) {
+    auto src = open_audio_file(t);
+    // A master whose length is not stated: assume a long one.
+    const double d = src ? src.value()->info().duration_s().value_or(300.0) : 0.0;
+    longest_s = std::max(longest_s, d);
+  }
+  return longest_s / (1 - std::min(max_speed_change_pct, 50.0) / 100) + 12;
+}
+
+// A locate job's recording as a stream: split only when it is long and
+// states its length (whole otherwise, exactly as one process reads it).
+Stream recording_stream(const std::string& path, double span_s) {
+  Stream s{path, {}, 0, 0};
+  auto src = open_audio_file(path);
+  if (!src) return s;
+  const auto& info = src.value()->info();
+  if (!info.native_frames || !(info.native_rate_hz > 0)) return s;
+  s.rate_hz = info.native_rate_hz;
+  s.duration_s = static_cast<double>(*info.native_frames) / info.native_rate_hz;
+  if (s.duration_s > 1.5 * span_s) s.parts = {{path, *info.native_frames, 0}};
+  return s;
+}
+
+}  // namespace
+
+DistributedJobs::DistributedJobs(QueueUrl url, QueueOptions options, PlanOptions plan, const JobRunner& runner)
+    : url_(std::move(url)), options_(options), plan_(plan), runner_(runner) {}
 
 Result<nlohmann::json> DistributedJobs::cluster() const {
   TaskQueue q(url_, default_consumer_name(), options_);
@@ -16,9 +52,68 @@ Result<nlohmann::json> DistributedJobs::cluster() const {
 Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlohmann::json& spec,
                                             const std::function<void(double)>& progress,
                                             const std::function<bool()>& should_stop,
-                                            const std::function<void(std::string_view)>& warn) const {
+                                            const std::function<void(std::string_view)>& warn,
+                                            std::string* html) const {
+  const bool reconcile = spec.value("kind", "") == "reconcile";
+  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
+  nlohmann::json base{{"max_speed_change_pct", speed_pct}};
+  std::vector<Stream> streams;
+  std::vector<std::string> templates;
+  std::optional<JobRunner::Reconcile> rec;
+  ReconcilePlan plan;
+  if (reconcile) {
+    auto r = runner_.load_reconcile(spec, warn);
+    if (!r) return r.error();
+    rec = std::move(r.value());
+    plan = plan_reconcile(rec->job, rec->options);
+    for (size_t i = 0; i < plan.timeline.runs.size(); ++i) {
+      Stream s{run_name(i), run_parts(plan.timeline, i), plan.timeline.runs[i].files.front().native_rate_hz, 0};
+      for (const auto& p : s.parts) s.duration_s += static_cast<double>(p.frames - p.skip_frames) / s.rate_hz;
+      streams.push_back(std::move(s));
+    }
+    templates = rec->job.masters;
+  } else {
+    for (const char* field : {"threshold", "floor_k", "fft_size"})
+      if (spec.contains(field)) base[field] = spec[field];
+    for (const auto& r : spec.at("recordings")) streams.push_back(recording_stream(r.get<std::string>(), plan_.span_s));
+    templates = spec.at("templates").get<std::vector<std::string>>();
+  }
+  const auto tasks = plan_tasks(job_id, base, streams, templates, margin_for(templates, speed_pct), plan_);
+  // A reconcile job's finish (verification, loudness) follows the tasks.
+  const double share = reconcile ? 0.95 : 1.0;
+  auto results = run_tasks(job_id, tasks, [&](double f) { progress(share * f); }, should_stop, warn);
+  if (!results) return results.error();
+  auto search = merge_results(streams, templates, tasks, results.value());
+  if (!search) return search.error();
+  // Best effort, once the job's result exists: leftovers expire with nothing.
+  auto forget = [&] { (void)TaskQueue(url_, default_consumer_name() + "/submit", options_).forget(job_id, tasks); };
+  if (!reconcile) {
+    nlohmann::json out = locate_to_json(search.value());
+    out["tasks"] = tasks.size();
+    forget();
+    return out;
+  }
+  ReconcileOptions& ro = rec->options;
+  ro.locate.should_stop = should_stop;
+  auto r = finish_reconcile(rec->job, std::move(plan), std::move(search.value()), ro);
+  if (!r) return r.error();
+  if (html) *html = reconcile_to_html(r.value(), {rec->title, ro.loudness});
+  nlohmann::json out = reconcile_to_json(r.value(), ro.loudness);
+  out["tasks"] = tasks.size();
+  forget();
+  return out;
+}
+
+Result<std::vector<nlohmann::json>> DistributedJobs::run_tasks(const std::string& job_id,
+                                                               const std::vector<PlannedTask>& tasks,
+                                                               const std::function<void(double)>& progress,
+                                                               const std::function<bool()>& should_stop,
+                                                               const std::function<void(std::string_view)>& warn) const {
+  std::vector<nlohmann::json> results;
+  if (tasks.empty()) return results;
   TaskQueue q(url_, default_consumer_name() + "/submit", options_);
-  const auto tasks = plan_tasks(job_id, spec, templates_per_task_);
+  std::set<std::string> ids;
+  for (const auto& t : tasks) ids.insert(t.id);
   auto last_warning = std::chrono::steady_clock::now() - std::chrono::hours(1);
   auto waiting = [&](const Error& e) {
     if (std::chrono::steady_clock::now() - last_warning > std::chrono::seconds(10)) {
@@ -47,13 +142,12 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
       waiting(failed.error());
       continue;
     }
-    if (!failed.value().empty()) {
-      const auto& [task, reason] = failed.value().front();
-      return Error{ErrorCode::internal,
-                   "task " + task + " failed " + std::to_string(options_.max_attempts) + " times: " + reason, "",
-                   std::nullopt};
-    }
-    auto n = q.stored_count(job_id);
+    for (const auto& [task, reason] : failed.value())
+      if (ids.count(task))  // not a task of an earlier plan under this id
+        return Error{ErrorCode::internal,
+                     "task " + task + " failed " + std::to_string(options_.max_attempts) + " times: " + reason, "",
+                     std::nullopt};
+    auto n = q.stored_count(job_id, tasks);
     if (!n) {
       waiting(n.error());
       continue;
@@ -62,7 +156,6 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
     if (n.value() >= tasks.size()) break;
     std::this_thread::sleep_for(std::chrono::milliseconds(200));
   }
-  std::vector<nlohmann::json> results;
   for (const auto& t : tasks) {
     for (;;) {
       auto r = q.result(t.id);
@@ -74,10 +167,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
       else return Error{ErrorCode::internal, "task " + t.id + " counted as stored but has no result", "", std::nullopt};
     }
   }
-  auto merged = merge_results(spec, tasks, results);
-  if (!merged) return merged.error();
-  (void)q.forget(job_id, tasks);  // best effort: leftovers expire with nothing
-  return merged;
+  return results;
 }
 
 }  // namespace godwit

@@ -1,6 +1,9 @@
 // DistributedJobs: runs a daemon's job through the queue instead of on its
-// own worker: plans the tasks (task_plan.h), enqueues those not stored yet,
-// follows their progress across all workers, and merges their results.
+// own worker: finds the job's streams (its recordings, or the runs of a
+// reconcile job's timeline), plans the tasks (task_plan.h), enqueues those
+// not stored yet, follows their progress across all workers, merges their
+// results and, for a reconcile job, rebuilds the day's reconciliation from
+// the merged search (finish_reconcile) here.
 //
 // The job itself stays in the submitting daemon's journal: if that daemon
 // restarts, the job runs again, and its tasks already stored are not run
@@ -15,22 +18,31 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
+#include "job_runner.h"
+#include "task_plan.h"
 #include "task_queue.h"
 
 namespace godwit {
 
 class DistributedJobs {
  public:
-  DistributedJobs(QueueUrl url, QueueOptions options, size_t templates_per_task);
+  DistributedJobs(QueueUrl url, QueueOptions options, PlanOptions plan, const JobRunner& runner);
+  // As JobRunner::run, `html` included.
   Result<nlohmann::json> run(const std::string& job_id, const nlohmann::json& spec,
                              const std::function<void(double)>& progress, const std::function<bool()>& should_stop,
-                             const std::function<void(std::string_view)>& warn) const;
+                             const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
   Result<nlohmann::json> cluster() const;
 
  private:
+  // Until every task is stored: their results in plan order.
+  Result<std::vector<nlohmann::json>> run_tasks(const std::string& job_id, const std::vector<PlannedTask>& tasks,
+                                                const std::function<void(double)>& progress,
+                                                const std::function<bool()>& should_stop,
+                                                const std::function<void(std::string_view)>& warn) const;
   QueueUrl url_;
   QueueOptions options_;
-  size_t templates_per_task_;
+  PlanOptions plan_;
+  const JobRunner& runner_;
 };
 
 }  // namespace godwit

@@ -30,11 +30,7 @@ struct Seen {
 
 DropFolder::DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor)
     : o_(std::move(options)), runner_(runner), executor_(std::move(executor)) {
-  if (!executor_)
-    executor_ = [this](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
-                       const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
-      return runner_.run(spec, progress, should_stop, warn);
-    };
+  if (!executor_) executor_ = local_executor(runner_);
 }
 
 DropFolder::~DropFolder() { stop(); }
@@ -146,7 +142,7 @@ void DropFolder::process(const std::string& name) {
     // The job id follows from the file: after a crash its re-run finds the
     // tasks already stored by the queue.
     doc = executor_("drop-" + name, spec, [](double) {}, [this] { return stop_.load(); },
-                    [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); });
+                    [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); }, nullptr);
   }
   std::error_code ec;
   if (!doc && doc.error().code == ErrorCode::cancelled) return;  // stays in work/ for the next start
@@ -205,8 +201,10 @@ void DropFolder::reconcile_day(const std::string& name) {
   nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
                       {"recordings", recordings}, {"window_s", 60.0}};
   std::string html;
-  auto doc = runner_.run(
-      spec, [](double) {}, [this] { return stop_.load(); },
+  // In queue mode the day's search is shared out (hour x batch tasks) and
+  // its reconciliation rebuilt here from the merged search.
+  auto doc = executor_(
+      "drop-day-" + day, spec, [](double) {}, [this] { return stop_.load(); },
       [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &html);
   if (!doc) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());

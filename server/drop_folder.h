@@ -43,9 +43,9 @@ struct DropOptions {
 
 class DropFolder {
  public:
-  // `executor` runs each file's locate job (empty: the runner, here); in
-  // queue mode it spreads it over the cluster. The day's reconciliation,
-  // which also writes the HTML report, runs here.
+  // `executor` runs each file's locate job and the day's reconciliation
+  // (empty: the runner, here); in queue mode it spreads them over the
+  // cluster.
   DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor = nullptr);
   ~DropFolder();
   Status start();

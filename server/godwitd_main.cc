@@ -76,7 +76,11 @@ int main(int argc, char** argv) {
                  "queue mode: redis://HOST:PORT/STREAM. Jobs submitted here are split into tasks on that Redis "
                  "stream, and this daemon runs tasks from it, with every other daemon on the same stream");
   app.add_option("--queue-workers", queue_workers, "tasks this daemon runs at once in queue mode (default 1)");
-  app.add_option("--templates-per-task", templates_per_task, "masters per locate task (default 25)");
+  app.add_option("--templates-per-task", templates_per_task, "masters per task (default 25)");
+  double task_span_s = 0;
+  app.add_option("--task-span-s", task_span_s,
+                 "stream seconds per task: longer recordings and reconcile runs are split into spans of this "
+                 "(default 3600; at least 600)");
   app.add_option("--claim-idle-s", claim_idle_s,
                  "a task whose worker went quiet this long is run by another (default 30)");
   app.add_option("--max-attempts", max_attempts, "a task failing this many times is dead-lettered (default 3)");
@@ -99,6 +103,7 @@ int main(int argc, char** argv) {
     if (!queue.empty()) c.queue_url = queue;
     if (queue_workers) c.queue_workers = queue_workers;
     if (templates_per_task) c.queue_templates_per_task = templates_per_task;
+    if (task_span_s > 0) c.queue_task_span_s = task_span_s;
     if (claim_idle_s >= 0) c.queue_claim_idle_s = claim_idle_s;
     if (max_attempts > 0) c.queue_max_attempts = max_attempts;
   };
@@ -170,17 +175,22 @@ int main(int argc, char** argv) {
     QueueOptions qo;
     qo.claim_idle_s = cfg.queue_claim_idle_s;
     qo.max_attempts = std::max(1, cfg.queue_max_attempts);
-    distributed = std::make_unique<DistributedJobs>(url.value(), qo, cfg.queue_templates_per_task);
+    if (cfg.queue_task_span_s < 600) {
+      std::cerr << "godwitd: queue.task_span_s must be at least 600 s (a segment reads a margin of the longest "
+                   "airing on either side)\n";
+      return 2;
+    }
+    distributed = std::make_unique<DistributedJobs>(
+        url.value(), qo, PlanOptions{cfg.queue_templates_per_task, cfg.queue_task_span_s}, runner);
     DistributedJobs* d = distributed.get();
     executor = [d](const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
-                   const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
-      return d->run(id, spec, progress, should_stop, warn);
-    };
+                   const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
+                   std::string* html) { return d->run(id, spec, progress, should_stop, warn, html); };
     dispatcher.set_cluster_info([d] { return d->cluster(); });
     queue_worker = std::make_unique<QueueWorker>(url.value(), qo, runner, cfg.queue_workers, default_consumer_name());
     queue_worker->start();
-    spdlog::info("queue mode: {} ({} task worker(s), {} masters per task)", cfg.queue_url, cfg.queue_workers,
-                 cfg.queue_templates_per_task);
+    spdlog::info("queue mode: {} ({} task worker(s), {} masters and {} s per task)", cfg.queue_url, cfg.queue_workers,
+                 cfg.queue_templates_per_task, cfg.queue_task_span_s);
   }
 
   boost::asio::io_context io;

@@ -12,6 +12,7 @@
 #include "godwit/reconcile_report.h"
 #include "library_scan.h"
 #include "reconcile_inputs.h"
+#include "segment_task.h"
 
 namespace godwit {
 namespace {
@@ -160,43 +161,81 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   return out;
 }
 
+namespace {
+
+// The search options a job or task states (the rest are the daemon's).
+void apply_search_fields(const nlohmann::json& spec, LocateOptions& lo) {
+  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
+  lo.speed.enabled = speed_pct > 0;
+  lo.speed.max_deviation = speed_pct / 100;
+  lo.picker.threshold = spec.value("threshold", lo.picker.threshold);
+  lo.picker.floor_k = spec.value("floor_k", lo.picker.floor_k);
+  lo.bank.fixed_fft_size = spec.value("fft_size", size_t{0});
+}
+
+}  // namespace
+
+Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spec,
+                                                       const std::function<void(std::string_view)>& warn) const {
+  std::vector<std::string> warnings;
+  auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"),
+                                 spec.at("recordings").get<std::vector<std::string>>(), spec.value("window_s", 60.0), ""},
+                                warnings);
+  for (const auto& w : warnings) warn(w);
+  if (!job) return job.error();
+  Reconcile r;
+  r.job = std::move(job.value());
+  r.options.locate.correlator.threads = config_.threads_per_job;
+  r.options.locate.correlator.planner = config_.planner;
+  r.options.locate.on_diagnostic = warn;
+  apply_search_fields(spec, r.options.locate);
+  r.title = std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string();
+  return r;
+}
+
 Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
                                       const std::function<void(std::string_view)>& warn, std::string* html) const {
+  FftCostTable costs = config_.costs;
+  const std::string kind = spec.value("kind", "");
+  if (kind == "reconcile") {
+    auto rec = load_reconcile(spec, warn);
+    if (!rec) return rec.error();
+    ReconcileOptions& ro = rec.value().options;
+    ro.locate.bank.costs = &costs;
+    ro.locate.on_progress = [&](const Progress& p) { progress(p.fraction); };
+    ro.locate.should_stop = should_stop;
+    auto r = run_reconcile(rec.value().job, ro);
+    if (!r) return r.error();
+    if (html) *html = reconcile_to_html(r.value(), {rec.value().title, ro.loudness});
+    return reconcile_to_json(r.value(), ro.loudness);
+  }
   LocateOptions lo;
   lo.correlator.threads = config_.threads_per_job;
   lo.correlator.planner = config_.planner;
-  FftCostTable costs = config_.costs;
   lo.bank.costs = &costs;
   lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
   lo.should_stop = should_stop;
   lo.on_diagnostic = warn;
-  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
-  lo.speed.enabled = speed_pct > 0;
-  lo.speed.max_deviation = speed_pct / 100;
-  const auto recs = spec.at("recordings").get<std::vector<std::string>>();
-  if (spec.at("kind") == "reconcile") {
-    std::vector<std::string> warnings;
-    auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"), recs, spec.value("window_s", 60.0), ""},
-                                  warnings);
-    for (const auto& w : warnings) warn(w);
-    if (!job) return job.error();
-    ReconcileOptions ro;
-    ro.locate = lo;
-    auto r = run_reconcile(job.value(), ro);
+  apply_search_fields(spec, lo);
+  const auto templates = spec.at("templates").get<std::vector<std::string>>();
+  if (kind == "segment") {
+    auto seg = segment_from_json(spec.at("segment"));
+    if (!seg) return seg.error();
+    auto r = search_segment(seg.value(), templates, lo);
     if (!r) return r.error();
-    if (html)
-      *html = reconcile_to_html(r.value(), {std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string(),
-                                            ro.loudness});
-    return reconcile_to_json(r.value(), ro.loudness);
+    return locate_to_json(r.value(), true);
   }
-  lo.picker.threshold = spec.value("threshold", 0.4);
-  lo.picker.floor_k = spec.value("floor_k", 10.0);
-  lo.bank.fixed_fft_size = spec.value("fft_size", size_t{0});
-  LocateJob job{spec.at("templates").get<std::vector<std::string>>(), recs};
+  LocateJob job{templates, spec.at("recordings").get<std::vector<std::string>>()};
   auto r = run_locate(job, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
+}
+
+JobExecutor local_executor(const JobRunner& runner) {
+  return [&runner](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
+                   const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
+                   std::string* html) { return runner.run(spec, progress, should_stop, warn, html); };
 }
 
 }  // namespace godwit

@@ -12,6 +12,9 @@
 //    "threshold": 0.4, "floor_k": 10, "fft_size": 0,
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
 //   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60}
+// and, from the queue only (never prepared): a task of a distributed job,
+//   {"kind": "segment", "segment": {...}, "templates": [paths], "threshold", ...}
+// whose result is a locate document with exact numbers (task_plan.h).
 //
 // Thread contract: safe for concurrent use (run() from several workers).
 #pragma once
@@ -22,6 +25,7 @@
 
 #include "godwit/error.h"
 #include "godwit/fft_size_chooser.h"
+#include "godwit/reconcile_job.h"
 #include "path_guard.h"
 
 namespace godwit {
@@ -48,6 +52,16 @@ class JobRunner {
                              const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
   const RunnerConfig& config() const { return config_; }
 
+  // A prepared reconcile job's inputs and options, loaded (the library
+  // scanned, the planned log read; its warnings go to `warn`).
+  struct Reconcile {
+    ReconcileJob job;
+    ReconcileOptions options;  // its search's FFT cost table is not set
+    std::string title;         // of the HTML report
+  };
+  Result<Reconcile> load_reconcile(const nlohmann::json& prepared,
+                                   const std::function<void(std::string_view)>& warn) const;
+
  private:
   RunnerConfig config_;
   const PathGuard& guard_;
@@ -55,8 +69,12 @@ class JobRunner {
 
 // How a prepared job runs: on this machine (JobRunner::run; the default
 // where one is empty) or through the queue (distributed_jobs.h).
+// `html`, when given, receives a reconcile job's HTML report.
 using JobExecutor = std::function<Result<nlohmann::json>(
     const std::string& job_id, const nlohmann::json& spec, const std::function<void(double)>& progress,
-    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn)>;
+    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn, std::string* html)>;
+
+// The executor that runs jobs here, with `runner` (which must outlive it).
+JobExecutor local_executor(const JobRunner& runner);
 
 }  // namespace godwit

@@ -91,8 +91,14 @@ void QueueWorker::loop(size_t slot) {
       }
       return job_cancelled;
     };
-    auto result = runner_.run(task.spec, [](double) {}, should_stop,
-                              [&](std::string_view w) { spdlog::warn("task {}: {}", task.task, w); });
+    // A malformed spec (JSON of the wrong shape) fails the task, not the daemon.
+    Result<nlohmann::json> result = Error{ErrorCode::internal, "not run", "", std::nullopt};
+    try {
+      result = runner_.run(task.spec, [](double) {}, should_stop,
+                           [&](std::string_view w) { spdlog::warn("task {}: {}", task.task, w); });
+    } catch (const std::exception& e) {
+      result = Error{ErrorCode::bad_request, std::string("malformed task: ") + e.what(), "", std::nullopt};
+    }
     {
       std::lock_guard lock(mu_);
       running_[slot].clear();

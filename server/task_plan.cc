@@ -1,9 +1,11 @@
 #include "task_plan.h"
 
 #include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <map>
-#include <set>
+
+#include "godwit/locate_report.h"
 
 namespace godwit {
 namespace {
@@ -19,81 +21,106 @@ std::string fnv1a_hex(const std::string& s) {
   return b;
 }
 
-// `part`: the task's place in the plan, so that a recording listed twice
-// gives two tasks, as it gives two searches in one process.
-PlannedTask make_task(const std::string& job_id, size_t part, nlohmann::json spec) {
-  PlannedTask t;
-  t.id = fnv1a_hex(job_id + "\n" + std::to_string(part) + "\n" + spec.dump());
-  t.spec = std::move(spec);
-  return t;
-}
+struct Found {
+  Match match;
+  size_t stream = 0;
+  size_t task = 0;
+};
 
 }  // namespace
 
-std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::json& spec, size_t templates_per_task) {
+std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::json& base,
+                                    const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+                                    double margin_s, const PlanOptions& options) {
   std::vector<PlannedTask> out;
-  if (spec.value("kind", "") != "locate") {
-    out.push_back(make_task(job_id, 0, spec));
-    return out;
-  }
-  const auto templates = spec.at("templates").get<std::vector<std::string>>();
-  const size_t batch = std::max<size_t>(1, templates_per_task);
-  for (const auto& rec : spec.at("recordings")) {
-    for (size_t first = 0; first < templates.size(); first += batch) {
-      nlohmann::json t = spec;
-      t["recordings"] = nlohmann::json::array({rec});
-      t["templates"] = std::vector<std::string>(templates.begin() + static_cast<long>(first),
-                                                templates.begin() + static_cast<long>(std::min(templates.size(), first + batch)));
-      out.push_back(make_task(job_id, out.size(), std::move(t)));
+  const size_t batch = std::max<size_t>(1, options.templates_per_task);
+  for (size_t s = 0; s < streams.size(); ++s) {
+    for (const Segment& seg : split_stream(streams[s], options.span_s, margin_s)) {
+      for (size_t first = 0; first < templates.size(); first += batch) {
+        nlohmann::json spec = base;
+        spec["kind"] = "segment";
+        spec["segment"] = segment_to_json(seg);
+        spec["templates"] = std::vector<std::string>(
+            templates.begin() + static_cast<long>(first),
+            templates.begin() + static_cast<long>(std::min(templates.size(), first + batch)));
+        // The place in the plan: a recording listed twice is searched twice.
+        PlannedTask t;
+        t.id = fnv1a_hex(job_id + "\n" + std::to_string(out.size()) + "\n" + spec.dump());
+        t.spec = std::move(spec);
+        t.stream = s;
+        out.push_back(std::move(t));
+      }
     }
   }
   return out;
 }
 
-Result<nlohmann::json> merge_results(const nlohmann::json& spec, const std::vector<PlannedTask>& tasks,
-                                     const std::vector<nlohmann::json>& results) {
-  if (tasks.size() != results.size())
-    return Error{ErrorCode::internal, "merge: task and result counts differ", "", std::nullopt};
-  if (spec.value("kind", "") != "locate") return results.at(0);
-  // Templates in job order; recordings in job order, an error reported by
-  // any batch kept; matches by recording, then offset, then template.
-  std::map<std::string, size_t> rec_order;
-  for (const auto& r : spec.at("recordings")) rec_order.emplace(r.get<std::string>(), rec_order.size());
-  nlohmann::json out;
-  out["analysis_rate_hz"] = results.empty() ? nlohmann::json(8000.0) : results[0].value("analysis_rate_hz", nlohmann::json(8000.0));
-  out["templates"] = nlohmann::json::array();
-  std::set<std::string> seen_templates;
-  std::map<size_t, nlohmann::json> recordings;
-  nlohmann::json matches = nlohmann::json::array();
-  for (const auto& r : results) {
-    if (!r.is_object() || !r.contains("matches") || !r.contains("templates") || !r.contains("recordings"))
-      return Error{ErrorCode::internal, "merge: a task result is not a locate document", "", std::nullopt};
-    for (const auto& t : r["templates"])
-      if (seen_templates.insert(t.value("id", "")).second) out["templates"].push_back(t);
-    for (const auto& rec : r["recordings"]) {
-      auto it = rec_order.find(rec.value("path", ""));
-      const size_t k = it == rec_order.end() ? rec_order.size() : it->second;
-      if (!recordings.count(k) || rec.contains("error")) recordings[k] = rec;
+Result<LocateResult> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+                                   const std::vector<PlannedTask>& tasks, const std::vector<nlohmann::json>& results) {
+  auto internal = [](const std::string& m) { return Error{ErrorCode::internal, "merge: " + m, "", std::nullopt}; };
+  if (tasks.size() != results.size()) return internal("task and result counts differ");
+  LocateResult out;
+  out.analysis_rate_hz = 8000;
+  std::map<std::string, TemplateReport> template_by_path;
+  std::vector<std::optional<RecordingReport>> recs(streams.size());
+  std::vector<Found> found;
+  for (size_t i = 0; i < results.size(); ++i) {
+    auto r = locate_from_json(results[i]);
+    if (!r) return internal("the result of task " + tasks[i].id + " is not a locate document");
+    const size_t s = tasks[i].stream;
+    if (s >= streams.size()) return internal("task " + tasks[i].id + " names no stream of the plan");
+    out.analysis_rate_hz = r.value().analysis_rate_hz;
+    for (auto& t : r.value().templates) template_by_path.emplace(t.path, std::move(t));
+    for (auto& rec : r.value().recordings) {
+      auto& have = recs[s];
+      if (!have) {
+        have = std::move(rec);
+        continue;
+      }
+      have->duration_s = std::max(have->duration_s, rec.duration_s);
+      const double at = rec.error && rec.error->offset_s ? *rec.error->offset_s : 0;
+      if (rec.error && (!have->error || at < have->error->offset_s.value_or(0))) have->error = rec.error;
     }
-    for (const auto& m : r["matches"]) matches.push_back(m);
+    for (auto& m : r.value().matches) found.push_back({std::move(m), s, i});
   }
-  std::stable_sort(matches.begin(), matches.end(), [&](const nlohmann::json& a, const nlohmann::json& b) {
-    const auto ra = rec_order.find(a.value("recording", "")), rb = rec_order.find(b.value("recording", ""));
-    const size_t ia = ra == rec_order.end() ? 0 : ra->second, ib = rb == rec_order.end() ? 0 : rb->second;
-    if (ia != ib) return ia < ib;
-    const double oa = a.value("offset_s", 0.0), ob = b.value("offset_s", 0.0);
-    if (oa != ob) return oa < ob;
-    return a.value("template", "") < b.value("template", "");
+  for (const auto& path : templates) {
+    if (tasks.empty()) break;  // nothing searched (a reconcile job whose recordings all failed)
+    auto it = template_by_path.find(path);
+    if (it == template_by_path.end()) return internal("no task reports master " + path);
+    out.templates.push_back(it->second);
+  }
+  for (size_t s = 0; s < streams.size(); ++s) {
+    if (!recs[s]) recs[s] = RecordingReport{streams[s].name, "", 0, streams[s].rate_hz, 0, std::nullopt};
+    out.recordings.push_back(std::move(*recs[s]));
+  }
+  std::map<std::string, double> length_s;
+  for (const auto& t : out.templates) length_s[t.id] = t.duration_s;
+  // By stream and template, then offset: a detection seen by two tasks of
+  // neighbouring segments, within one airing of itself, is kept once.
+  std::stable_sort(found.begin(), found.end(), [](const Found& a, const Found& b) {
+    if (a.stream != b.stream) return a.stream < b.stream;
+    if (a.match.template_id != b.match.template_id) return a.match.template_id < b.match.template_id;
+    return a.match.offset_s < b.match.offset_s;
   });
-  bool complete = true;
-  out["recordings"] = nlohmann::json::array();
-  for (auto& [k, rec] : recordings) {
-    if (rec.contains("error")) complete = false;
-    out["recordings"].push_back(rec);
+  std::vector<Found> kept;
+  for (auto& f : found) {
+    if (!kept.empty()) {
+      Found& last = kept.back();
+      const double reach_s = length_s[f.match.template_id] / std::max(f.match.speed, last.match.speed);
+      if (last.stream == f.stream && last.match.template_id == f.match.template_id && last.task != f.task &&
+          f.match.offset_s - last.match.offset_s < reach_s) {
+        if (std::fabs(f.match.score) > std::fabs(last.match.score)) last = std::move(f);
+        continue;
+      }
+    }
+    kept.push_back(std::move(f));
   }
-  out["complete"] = complete;
-  out["matches"] = std::move(matches);
-  out["tasks"] = tasks.size();
+  std::stable_sort(kept.begin(), kept.end(), [](const Found& a, const Found& b) {
+    if (a.stream != b.stream) return a.stream < b.stream;
+    if (a.match.offset_s != b.match.offset_s) return a.match.offset_s < b.match.offset_s;
+    return a.match.template_id < b.match.template_id;
+  });
+  for (auto& f : kept) out.matches.push_back(std::move(f.match));
   return out;
 }
 

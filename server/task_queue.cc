@@ -31,6 +31,9 @@ Status TaskQueue::ensure_group() {
 }
 
 Status TaskQueue::enqueue(const std::string& job, const std::vector<PlannedTask>& tasks) {
+  // Submitting again (a daemon restarted, a day grown by an hour) is a new
+  // intent: an earlier cancel no longer applies.
+  if (auto d = redis_.command({"DEL", key("cancel:" + job)}); !d) return d.error();
   for (const auto& t : tasks) {
     auto e = redis_.command({"EXISTS", key("result:" + t.id)});
     if (!e) return e.error();
@@ -147,10 +150,15 @@ Status TaskQueue::drop(const QueuedTask& t) {
   return ok_status();
 }
 
-Result<size_t> TaskQueue::stored_count(const std::string& job) {
-  auto r = redis_.command({"SCARD", key("stored:" + job)});
+Result<size_t> TaskQueue::stored_count(const std::string& job, const std::vector<PlannedTask>& tasks) {
+  if (tasks.empty()) return size_t{0};
+  std::vector<std::string> argv{"SMISMEMBER", key("stored:" + job)};
+  for (const auto& t : tasks) argv.push_back(t.id);
+  auto r = redis_.command(argv);
   if (!r) return r.error();
-  return static_cast<size_t>(r.value().integer);
+  size_t n = 0;
+  for (const auto& e : r.value().elements) n += e.integer == 1 ? 1 : 0;
+  return n;
 }
 
 Result<std::optional<nlohmann::json>> TaskQueue::result(const std::string& task) {

@@ -49,7 +49,8 @@ class TaskQueue {
 
   // Creates the stream and group when missing (idempotent).
   Status ensure_group();
-  // Adds the tasks not stored yet. Harmless when repeated.
+  // Adds the tasks not stored yet, and lifts a cancel of the job. Harmless
+  // when repeated.
   Status enqueue(const std::string& job, const std::vector<PlannedTask>& tasks);
   // A stalled task first, else a new one, waiting up to `block_s`.
   Result<std::optional<QueuedTask>> next(double block_s);
@@ -61,7 +62,8 @@ class TaskQueue {
   // Acknowledges without running (its job was cancelled).
   Status drop(const QueuedTask& t);
 
-  Result<size_t> stored_count(const std::string& job);
+  // How many of `tasks` (the job's plan) are stored.
+  Result<size_t> stored_count(const std::string& job, const std::vector<PlannedTask>& tasks);
   Result<std::optional<nlohmann::json>> result(const std::string& task);
   Result<std::vector<std::pair<std::string, std::string>>> failures(const std::string& job);
   Status cancel(const std::string& job);

@@ -8,11 +8,7 @@ namespace godwit {
 
 WorkerPool::WorkerPool(JobStore& store, const JobRunner& runner, size_t workers, JobExecutor executor)
     : store_(store), runner_(runner), executor_(std::move(executor)) {
-  if (!executor_)
-    executor_ = [this](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
-                       const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn) {
-      return runner_.run(spec, progress, should_stop, warn);
-    };
+  if (!executor_) executor_ = local_executor(runner_);
   for (size_t i = 0; i < std::max<size_t>(1, workers); ++i) threads_.emplace_back([this] { loop(); });
 }
 
@@ -30,7 +26,7 @@ void WorkerPool::loop() {
     spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));
     auto result = executor_(
         id, job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
-        [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); });
+        [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); }, nullptr);
     if (result) {
       store_.finish(id, result.value());
       spdlog::info("job {} done", id);

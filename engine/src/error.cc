@@ -43,6 +43,12 @@ const CodeRow& row(ErrorCode code) {
 std::string_view wire_name(ErrorCode code) { return row(code).wire; }
 int exit_code(ErrorCode code) { return row(code).exit; }
 
+ErrorCode code_from_wire_name(std::string_view name) {
+  for (const auto& r : kRows)
+    if (r.wire == name) return r.code;
+  return ErrorCode::internal;
+}
+
 std::string Error::describe() const {
   std::string s;
   if (!path.empty()) s += path + ": ";

@@ -41,13 +41,18 @@ struct Detection {
 
 }  // namespace
 
-Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
-  ReconcileResult res;
-  res.placements = job.log.placements;
-  res.log_problems = job.log.problems;
-  const SourceOpener& base = o.locate.opener;
+std::string run_name(size_t run) { return kRunPrefix + std::to_string(run); }
 
-  // 1. Recordings: start, length, rate.
+std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
+  std::vector<ConcatPart> parts;
+  for (const auto& f : timeline.runs.at(run).files)
+    parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz)});
+  return parts;
+}
+
+ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+  ReconcilePlan plan;
+  const SourceOpener& base = o.locate.opener;
   std::vector<TimelineFile> files;
   for (const auto& r : job.recordings) {
     RecordingStatus st;
@@ -72,55 +77,78 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
       }
     }
     if (st.error && o.locate.on_diagnostic) o.locate.on_diagnostic(st.error->describe());
-    res.recordings.push_back(std::move(st));
+    plan.recordings.push_back(std::move(st));
   }
-  Timeline timeline = build_timeline(files, o.timeline_tolerance_s);
-  res.timeline_issues = timeline.issues;
+  plan.timeline = build_timeline(files, o.timeline_tolerance_s);
+  return plan;
+}
 
-  // 2. Locate over runs, each one stream.
-  auto run_parts = [&](size_t i) {
-    std::vector<ConcatPart> parts;
-    for (const auto& f : timeline.runs[i].files)
-      parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz)});
-    return parts;
-  };
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+  ReconcilePlan plan = plan_reconcile(job, o);
+  const SourceOpener& base = o.locate.opener;
+  const Timeline& timeline = plan.timeline;
   LocateOptions lo = o.locate;
   lo.opener = [&, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
     if (path.rfind(kRunPrefix, 0) != 0) return base(path, choice);
     const size_t i = std::stoul(path.substr(4));
-    auto c = ConcatSource::open(path, run_parts(i), base, choice);
+    auto c = ConcatSource::open(path, run_parts(timeline, i), base, choice);
     if (!c) return c.error();
     return SourcePtr(std::move(c.value()));
   };
   LocateJob lj;
   lj.templates = job.masters;
-  for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(kRunPrefix + std::to_string(i));
-  std::vector<Match> matches;
-  std::vector<TemplateReport> templates;
+  for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(run_name(i));
+  LocateResult search;
   if (!lj.recordings.empty()) {
     auto located = run_locate(lj, lo);
     if (!located) return located.error();
-    matches = std::move(located.value().matches);
-    templates = std::move(located.value().templates);
-    for (size_t i = 0; i < located.value().recordings.size(); ++i) {
-      const auto& rr = located.value().recordings[i];
-      if (!rr.error) continue;
-      // Attach a run's failure to the file where it happened.
-      const auto& run = timeline.runs[i];
-      std::string where = run.files.front().path;
-      if (rr.error->offset_s) {
-        double t = *rr.error->offset_s;
-        for (const auto& f : run.files) {
-          where = f.path;
-          if (t < f.duration_s - f.skip_s) break;
-          t -= f.duration_s - f.skip_s;
-        }
+    search = std::move(located.value());
+  }
+  return finish_reconcile(job, std::move(plan), std::move(search), o);
+}
+
+Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
+                                         const ReconcileOptions& o) {
+  ReconcileResult res;
+  res.placements = job.log.placements;
+  res.log_problems = job.log.problems;
+  res.recordings = std::move(plan.recordings);
+  const Timeline& timeline = plan.timeline;
+  res.timeline_issues = timeline.issues;
+  const SourceOpener& base = o.locate.opener;
+
+  // 2. The search of the runs.
+  std::vector<Match> matches = std::move(search.matches);
+  std::vector<TemplateReport> templates = std::move(search.templates);
+  for (size_t i = 0; i < search.recordings.size() && i < timeline.runs.size(); ++i) {
+    const auto& rr = search.recordings[i];
+    if (!rr.error) continue;
+    // Attach a run's failure to the file where it happened.
+    const auto& run = timeline.runs[i];
+    std::string where = run.files.front().path;
+    if (rr.error->offset_s) {
+      double t = *rr.error->offset_s;
+      for (const auto& f : run.files) {
+        where = f.path;
+        if (t < f.duration_s - f.skip_s) break;
+        t -= f.duration_s - f.skip_s;
       }
-      for (auto& st : res.recordings)
-        if (st.path == where && !st.error) st.error = rr.error;
     }
-  } else {
+    for (auto& st : res.recordings)
+      if (st.path == where && !st.error) st.error = rr.error;
+  }
+  if (templates.empty())
     for (const auto& m : job.masters) templates.push_back({template_id_for(m), m, 0, 0});
+  {  // in the job's order of masters, whatever order the search gave
+    std::map<std::string, TemplateReport> by_id;
+    for (auto& t : templates) by_id[t.id] = std::move(t);
+    templates.clear();
+    for (const auto& m : job.masters) {
+      auto it = by_id.find(template_id_for(m));
+      if (it == by_id.end())
+        return Error{ErrorCode::internal, "the search does not report master " + template_id_for(m), m, std::nullopt};
+      templates.push_back(it->second);
+    }
   }
 
   // 3. Masters at the analysis rate: families.
@@ -155,7 +183,8 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
   auto run_source = [&](size_t run) -> ConcatSource* {
     auto it = run_sources.find(run);
     if (it == run_sources.end()) {
-      auto c = ConcatSource::open(kRunPrefix + std::to_string(run), run_parts(run), base, o.locate.channel);
+      auto c = run < timeline.runs.size() ? ConcatSource::open(run_name(run), run_parts(timeline, run), base, o.locate.channel)
+                                          : Result<std::unique_ptr<ConcatSource>>(Error{ErrorCode::internal, "no such run", "", std::nullopt});
       it = run_sources.emplace(run, c ? std::move(c.value()) : nullptr).first;
     }
     return it->second.get();

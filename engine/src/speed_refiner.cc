@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <complex>
 #include <numeric>
 
 #include "godwit/resampler.h"
@@ -301,6 +302,51 @@ std::optional<std::pair<double, double>> full_score(const Samples& m, const Samp
   return std::make_pair(static_cast<double>(base) + at - n, r[best]);
 }
 
+// `m` delayed by `frac` of a sample (band-limited: a phase ramp on its
+// zero-padded spectrum), so that its samples fall on the span's grid.
+Samples fractional_delay(FftPlans& plans, const Samples& m, double frac) {
+  size_t L = 256;
+  while (L < m.size() + 64) L *= 2;
+  const FftPlan& p = plans.get(L);
+  RealBuffer a = alloc_real(L);
+  ComplexBuffer fa = alloc_complex(L / 2 + 1);
+  std::fill_n(a.get(), L, 0.0f);
+  std::copy(m.begin(), m.end(), a.get());
+  fftwf_execute_dft_r2c(p.forward, a.get(), as_fftw(fa.get()));
+  const double w = -2.0 * M_PI * frac / static_cast<double>(L);
+  for (size_t k = 0; k < L / 2; ++k) {
+    const double ph = w * static_cast<double>(k);
+    fa[k] *= std::complex<float>(static_cast<float>(std::cos(ph) / L), static_cast<float>(std::sin(ph) / L));
+  }
+  fa[L / 2] = 0;  // Nyquist: no real delayed value
+  fftwf_execute_dft_c2r(p.inverse, as_fftw(fa.get()), a.get());
+  return Samples(a.get(), a.get() + m.size());
+}
+
+// Pearson of `m` placed at span offset `o` (sub-sample): the same for an
+// airing whatever the phase of the span's sample grid against it.
+std::optional<double> score_at(FftPlans& plans, const Samples& m, const Samples& span, double o) {
+  const double base = std::floor(o);
+  const auto k = static_cast<int64_t>(base);
+  if (k < 0 || k + static_cast<int64_t>(m.size()) > static_cast<int64_t>(span.size())) return std::nullopt;
+  const Samples d = fractional_delay(plans, m, o - base);
+  double mean = 0;
+  for (float v : d) mean += v;
+  mean /= static_cast<double>(d.size());
+  const float* x = span.data() + k;
+  double dot = 0, norm = 0, s1 = 0, s2 = 0;
+  for (size_t i = 0; i < d.size(); ++i) {
+    const double c = d[i] - mean;
+    dot += c * x[i];
+    norm += c * c;
+    s1 += x[i];
+    s2 += static_cast<double>(x[i]) * x[i];
+  }
+  const double e = s2 - s1 * s1 / static_cast<double>(d.size());
+  if (!(norm > 0) || !(e > 1e-12)) return std::nullopt;
+  return std::clamp(dot / std::sqrt(e * norm), -1.0, 1.0);
+}
+
 }  // namespace
 
 Samples at_speed(const Samples& master, double rate_hz, double speed) {
@@ -344,11 +390,16 @@ std::optional<SpeedFit> refine_speed(FftPlans& plans, const Samples& master, con
   const Samples m = at_speed(master, rate_hz, s);
   const auto fs = full_score(m, span, offset, 3);
   if (!fs) return std::nullopt;
+  // The score at the peak's sub-sample offset, not at the nearest sample:
+  // off the grid by half a sample, a full-band airing would score several
+  // hundredths lower, by the phase of where its span was read.
+  const auto score = score_at(plans, m, span, fs->first);
+  if (!score) return std::nullopt;
   SpeedFit fit;
   fit.speed = s;
   fit.offset = fs->first;
-  fit.score = fs->second;
-  fit.polarity = fs->second < 0 ? -1 : 1;
+  fit.score = *score;
+  fit.polarity = *score < 0 ? -1 : 1;
   fit.segments = used;
   return fit;
 }

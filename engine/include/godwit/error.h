@@ -44,6 +44,8 @@ struct Error {
 
 // Stable lowercase name used on the wire and in JSON documents.
 std::string_view wire_name(ErrorCode code);
+// The code of a wire name; `internal` for a name this build does not know.
+ErrorCode code_from_wire_name(std::string_view name);
 // Exit code of the command line for a run that failed with this error.
 int exit_code(ErrorCode code);
 

@@ -8,6 +8,12 @@
 // airing are resolved to a version (families.h), and placements get
 // verdicts (reconciler.h).
 //
+// The job runs in three steps, which a distributed run takes apart: the
+// plan (step 1: recordings read and laid on the timeline), the search of
+// each run (run_locate over run_name(i), ConcatSource of run_parts(i)),
+// and the finish (verification, versions, loudness, verdicts).
+// run_reconcile does all three here.
+//
 // Thread contract: as run_locate.
 #pragma once
 
@@ -16,6 +22,7 @@
 #include <string>
 #include <vector>
 
+#include "godwit/concat_source.h"
 #include "godwit/families.h"
 #include "godwit/loudness.h"
 #include "godwit/job.h"
@@ -119,5 +126,22 @@ struct ReconcileResult {
 };
 
 Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options);
+
+struct ReconcilePlan {
+  std::vector<RecordingStatus> recordings;  // in job order, errors included
+  Timeline timeline;
+};
+
+// Step 1: every recording opened, its start and length found (decoding
+// those whose container does not state it), and the timeline built.
+ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& options);
+// The name under which run i is searched ("run:0") and its files as one stream.
+std::string run_name(size_t run);
+std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run);
+// Steps 3 to 7, from the search of the plan's runs: `search` as run_locate
+// returns it for the recordings run_name(0..runs-1) (matches with offsets
+// in run time; a failed run's error, with its offset in the run).
+Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
+                                         const ReconcileOptions& options);
 
 }  // namespace godwit

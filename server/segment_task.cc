@@ -1,0 +1,120 @@
+#include "segment_task.h"
+
+#include <algorithm>
+#include <cmath>
+
+namespace godwit {
+namespace {
+
+constexpr double kInf = std::numeric_limits<double>::infinity();
+
+nlohmann::json finite_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
+
+double finite_or(const nlohmann::json& j, const char* field, double unbounded) {
+  if (!j.contains(field) || j[field].is_null()) return unbounded;
+  return j[field].get<double>();
+}
+
+}  // namespace
+
+std::vector<Segment> split_stream(const Stream& stream, double span_s, double margin_s) {
+  std::vector<Segment> out;
+  if (stream.parts.empty() || !(span_s > 0) || stream.duration_s <= 1.5 * span_s) {
+    out.push_back(Segment{stream});
+    return out;
+  }
+  size_t pieces = static_cast<size_t>(std::ceil(stream.duration_s / span_s));
+  if (pieces > 1 && stream.duration_s - static_cast<double>(pieces - 1) * span_s < 0.25 * span_s) --pieces;
+  for (size_t k = 0; k < pieces; ++k) {
+    Segment s{stream};
+    s.own_from_s = k == 0 ? -kInf : static_cast<double>(k) * span_s;
+    s.own_to_s = k + 1 == pieces ? kInf : static_cast<double>(k + 1) * span_s;
+    s.read_from_s = k == 0 ? 0 : std::max(0.0, std::floor((s.own_from_s - margin_s) / kSegmentAlignS) * kSegmentAlignS);
+    s.read_to_s = k + 1 == pieces ? kInf : std::min(stream.duration_s, s.own_to_s + margin_s);
+    out.push_back(std::move(s));
+  }
+  return out;
+}
+
+std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, int64_t from_frame, int64_t to_frame) {
+  std::vector<ConcatPart> out;
+  int64_t start = 0;  // stream frame where the part begins
+  for (const auto& p : parts) {
+    const int64_t len = std::max<int64_t>(0, p.frames - p.skip_frames);
+    const int64_t lo = std::max(start, from_frame), hi = std::min(start + len, to_frame);
+    if (hi > lo) out.push_back({p.path, p.skip_frames + (hi - start), p.skip_frames + (lo - start)});
+    start += len;
+  }
+  return out;
+}
+
+nlohmann::json segment_to_json(const Segment& s) {
+  nlohmann::json parts = nlohmann::json::array();
+  for (const auto& p : s.stream.parts) parts.push_back({{"path", p.path}, {"frames", p.frames}, {"skip", p.skip_frames}});
+  return {{"name", s.stream.name},
+          {"parts", parts},
+          {"rate_hz", s.stream.rate_hz},
+          {"duration_s", s.stream.duration_s},
+          {"read_from_s", s.read_from_s},
+          {"read_to_s", finite_or_null(s.read_to_s)},
+          {"own_from_s", finite_or_null(s.own_from_s)},
+          {"own_to_s", finite_or_null(s.own_to_s)}};
+}
+
+Result<Segment> segment_from_json(const nlohmann::json& j) {
+  try {
+    Segment s;
+    s.stream.name = j.at("name").get<std::string>();
+    for (const auto& p : j.at("parts"))
+      s.stream.parts.push_back({p.at("path").get<std::string>(), p.at("frames").get<int64_t>(), p.at("skip").get<int64_t>()});
+    s.stream.rate_hz = j.value("rate_hz", 0.0);
+    s.stream.duration_s = j.value("duration_s", 0.0);
+    s.read_from_s = j.value("read_from_s", 0.0);
+    s.read_to_s = finite_or(j, "read_to_s", kInf);
+    s.own_from_s = finite_or(j, "own_from_s", -kInf);
+    s.own_to_s = finite_or(j, "own_to_s", kInf);
+    if (!s.stream.parts.empty() && !(s.stream.rate_hz > 0))
+      return Error{ErrorCode::bad_request, "segment: a stream of parts needs its rate", "", std::nullopt};
+    return s;
+  } catch (const nlohmann::json::exception& e) {
+    return Error{ErrorCode::bad_request, std::string("segment: ") + e.what(), "", std::nullopt};
+  }
+}
+
+Result<LocateResult> search_segment(const Segment& seg, const std::vector<std::string>& templates,
+                                    LocateOptions options) {
+  const Stream& st = seg.stream;
+  std::vector<ConcatPart> parts;
+  if (!st.parts.empty()) {
+    const int64_t from = std::llround(seg.read_from_s * st.rate_hz);
+    const int64_t to = std::isfinite(seg.read_to_s) ? std::llround(seg.read_to_s * st.rate_hz)
+                                                     : std::numeric_limits<int64_t>::max();
+    parts = window_parts(st.parts, from, to);
+    if (parts.empty())
+      return Error{ErrorCode::bad_request, "segment lies beyond its stream's end", st.name, std::nullopt};
+  }
+  const SourceOpener base = options.opener;
+  options.opener = [&parts, &st, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
+    if (path != st.name || parts.empty()) return base(path, choice);
+    auto c = ConcatSource::open(path, parts, base, choice);
+    if (!c) return c.error();
+    return SourcePtr(std::move(c.value()));
+  };
+  auto r = run_locate(LocateJob{templates, {st.name}}, options);
+  if (!r) return r.error();
+  LocateResult& res = r.value();
+  const double shift_s = seg.read_from_s;
+  for (auto& rec : res.recordings) {
+    rec.duration_s += shift_s;
+    if (rec.error && rec.error->offset_s) *rec.error->offset_s += shift_s;
+  }
+  std::vector<Match> owned;
+  for (auto& m : res.matches) {
+    m.offset_s += shift_s;
+    if (m.offset_s >= seg.own_from_s && m.offset_s < seg.own_to_s) owned.push_back(std::move(m));
+  }
+  res.matches = std::move(owned);
+  return std::move(res);
+}
+
+}  // namespace godwit
