@@ -80,7 +80,7 @@ int main(int argc, char** argv) {
   double task_span_s = 0;
   app.add_option("--task-span-s", task_span_s,
                  "stream seconds per task: longer recordings and reconcile runs are split into spans of this "
-                 "(default 3600; at least 600)");
+                 "(default 3600; at least 120)");
   app.add_option("--claim-idle-s", claim_idle_s,
                  "a task whose worker went quiet this long is run by another (default 30)");
   app.add_option("--max-attempts", max_attempts, "a task failing this many times is dead-lettered (default 3)");
@@ -175,8 +175,8 @@ int main(int argc, char** argv) {
     QueueOptions qo;
     qo.claim_idle_s = cfg.queue_claim_idle_s;
     qo.max_attempts = std::max(1, cfg.queue_max_attempts);
-    if (cfg.queue_task_span_s < 600) {
-      std::cerr << "godwitd: queue.task_span_s must be at least 600 s (a segment reads a margin of the longest "
+    if (cfg.queue_task_span_s < 120) {
+      std::cerr << "godwitd: queue.task_span_s must be at least 120 s (a segment reads a margin of the longest "
                    "airing on either side)\n";
       return 2;
     }

@@ -98,9 +98,9 @@ class QueueTests(unittest.TestCase):
         self.redis.stop(signal.SIGKILL)
         shutil.rmtree(self.tmp, ignore_errors=True)
 
-    def start(self, name, claim_idle_s=3, attempts=3, args=()):
+    def start(self, name, claim_idle_s=3, attempts=3, args=(), span_s=3600):
         cfg = (f'[queue]\nurl = "redis://127.0.0.1:{self.redis.port}/{self.stream}"\ntemplates_per_task = 2\n'
-               f'claim_idle_s = {claim_idle_s}\nmax_attempts = {attempts}\nworkers = 1\n')
+               f'claim_idle_s = {claim_idle_s}\nmax_attempts = {attempts}\nworkers = 1\ntask_span_s = {span_s}\n')
         d = Daemon(self.tmp, extra_config=cfg, args=args, state=os.path.join(self.tmp, "state-" + name))
         self.daemons.append(d)
         return d
@@ -111,6 +111,38 @@ class QueueTests(unittest.TestCase):
                            capture_output=True, text=True, timeout=600)
         self.assertIn(p.returncode, (0,), p.stderr)
         return json.loads(p.stdout)
+
+    def cli_reconcile(self, recordings):
+        out = os.path.join(self.tmp, "cli-reconcile")
+        p = subprocess.run([ARGS.godwit, "reconcile", "--library", os.path.join(self.demo, "library"), "--schedule",
+                            self.schedule, "--recording", *recordings, "--planner", "estimate", "--cache-dir", "",
+                            "--out", out, "--format", "json", "--quiet"], capture_output=True, text=True, timeout=600)
+        self.assertEqual(p.returncode, 0, p.stderr)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            return json.load(f)
+
+    @property
+    def schedule(self):
+        return os.path.join(self.demo, "schedules", "kestrel-fm-2026-03-14.csv")
+
+    def assert_same_reconciliation(self, got, want):
+        """Verdicts, detections, their times and evidence as one process gives them."""
+        def view(doc):
+            rows = []
+            for p in doc["placements"] + doc["unscheduled"]:
+                rows.append((p.get("slot", "-"), p.get("status", "unscheduled"), p.get("detected_spot", p.get("spot")),
+                             p.get("aired"), p.get("coverage"), p.get("polarity"), p.get("speed"),
+                             json.dumps(p.get("missing"))))
+            return rows
+        self.assertEqual(view(got), view(want))
+        for key in ("summary", "families", "timeline_issues", "log_problems", "recordings", "rejected_weak_detections"):
+            self.assertEqual(got[key], want[key], key)
+        for a, b in zip(got["placements"] + got["unscheduled"], want["placements"] + want["unscheduled"]):
+            for k in ("score", "offset_s"):
+                if k in b:
+                    self.assertAlmostEqual(a[k], b[k], delta=2e-4, msg=k)
+            if "loudness" in b:
+                self.assertEqual(a["loudness"], b["loudness"])
 
     def test_three_workers_share_a_job_and_the_merge_equals_one_process(self):
         ds = [self.start(n) for n in "abc"]
@@ -203,6 +235,82 @@ class QueueTests(unittest.TestCase):
         want = self.cli_locate([os.path.join(drop, "done", "h0600.flac")])
         self.assertEqual(strip(doc), strip(want))
         self.assertTrue(a.connect().req({"op": "health"})["queue"]["reachable"])
+
+    def test_a_long_recording_is_split_into_spans_and_the_merge_equals_one_process(self):
+        # The three demo files as one 840 s recording, in spans of 150 s
+        # (boundaries at 150, 300, 450, 600, 750 s): an airing at 150.1 s just
+        # after one (its span reads from before it), one at 292-312 s astride
+        # the next (the span that owns it reads past its end).
+        longrec = os.path.join(self.tmp, "root", "kestrel-fm-long.flac")
+        subprocess.run(["sox", *self.recs, longrec], check=True)
+        ds = [self.start(n, span_s=150) for n in "abc"]
+        c = ds[0].connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [longrec]}})
+        self.assertTrue(r["ok"], r)
+        st = wait_state(c, r["job"], timeout=300)
+        self.assertEqual(st["state"], "done", st)
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(doc["tasks"], 6 * 3)  # 6 spans x 3 batches of 2 masters
+        want = self.cli_locate([longrec])
+        self.assertEqual(strip(doc), strip(want))
+        # Every planted airing (truth.json), once, at its time (and siblings' matches, as one process has them).
+        with open(os.path.join(self.demo, "truth.json")) as f:
+            truth = json.load(f)
+        for a in truth["airings"]:
+            at_s = (int(a["aired"][11:13]) - 6) * 3600 + int(a["aired"][14:16]) * 60 + float(a["aired"][17:])
+            hits = [m for m in doc["matches"] if m["template"] == a["spot"] and abs(m["offset_s"] - at_s) < 1e-3]
+            self.assertEqual(len(hits), 1, (a, doc["matches"]))
+        for a, b in zip(doc["matches"], want["matches"]):
+            self.assertAlmostEqual(a["score"], b["score"], delta=2e-4)
+        self.assertAlmostEqual(doc["recordings"][0]["duration_s"], 840, places=3)
+
+    def test_a_reconcile_job_is_split_into_hour_tasks_and_its_day_rebuilt(self):
+        # One run of 840 s (three files) in spans of 240 s: 4 spans x 3 batches.
+        ds = [self.start(n, span_s=240) for n in "ab"]
+        c = ds[1].connect()
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": os.path.join(self.demo, "library"),
+                                           "schedule": self.schedule, "recordings": self.recs}})
+        self.assertTrue(r["ok"], r)
+        st = wait_state(c, r["job"], timeout=300)
+        self.assertEqual(st["state"], "done", st)
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(doc["tasks"], 12)
+        with open(os.path.join(self.demo, "truth.json")) as f:
+            truth = json.load(f)
+        self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, truth["expected_verdicts"])
+        self.assert_same_reconciliation(doc, self.cli_reconcile(self.recs))
+        cl = c.req({"op": "cluster"})
+        self.assertEqual(sum(w["done"] for w in cl["workers"]), 12, cl)
+
+    def test_the_drop_folders_day_is_reconciled_through_the_queue(self):
+        drop = os.path.join(self.tmp, "drop")
+        self.start("a", span_s=240, args=("--drop", drop, "--schedules", os.path.join(self.demo, "schedules"),
+                                          "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        self.start("b", span_s=240)
+        os.makedirs(os.path.join(drop, "incoming"), exist_ok=True)
+        report = os.path.join(drop, "results", "kestrel-fm-2026-03-14.reconcile.json")
+        for rec in self.recs:
+            tmpname = os.path.join(drop, "incoming", "." + os.path.basename(rec))
+            shutil.copy(rec, tmpname)
+            os.rename(tmpname, os.path.join(drop, "incoming", os.path.basename(rec)))
+        doc = None
+        end = time.time() + 300
+        while time.time() < end:
+            if os.path.exists(report):
+                with open(report) as f:
+                    doc = json.load(f)
+                if len(doc["recordings"]) == 3:
+                    break
+            time.sleep(0.3)
+        self.assertIsNotNone(doc)
+        self.assertEqual(len(doc["recordings"]), 3, doc["recordings"])
+        self.assertEqual(doc["tasks"], 12)  # the day's run of 840 s went through the queue in 4 spans
+        done = sorted(os.path.join(drop, "done", os.path.basename(r)) for r in self.recs)
+        want = self.cli_reconcile(done)
+        self.assert_same_reconciliation(doc, want)
+        with open(report[: -len(".json")] + ".html") as f:
+            html = f.read()
+        self.assertEqual(html.count('class="placement"'), len(doc["placements"]))
 
     def test_a_poison_task_lands_in_the_dead_letter_stream(self):
         a = self.start("a", attempts=2)
