@@ -57,6 +57,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   const bool reconcile = spec.value("kind", "") == "reconcile";
   const double speed_pct = spec.value("max_speed_change_pct", 4.5);
   nlohmann::json base{{"max_speed_change_pct", speed_pct}};
+  if (reconcile) base["evidence"] = true;  // tasks verify their detections and measure loudness
   std::vector<Stream> streams;
   std::vector<std::string> templates;
   std::optional<JobRunner::Reconcile> rec;
@@ -83,19 +84,32 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   const double share = reconcile ? 0.95 : 1.0;
   auto results = run_tasks(job_id, tasks, [&](double f) { progress(share * f); }, should_stop, warn);
   if (!results) return results.error();
-  auto search = merge_results(streams, templates, tasks, results.value());
-  if (!search) return search.error();
+  auto merged = merge_results(streams, templates, tasks, results.value());
+  if (!merged) return merged.error();
+  LocateResult& search = merged.value().search;
   // Best effort, once the job's result exists: leftovers expire with nothing.
   auto forget = [&] { (void)TaskQueue(url_, default_consumer_name() + "/submit", options_).forget(job_id, tasks); };
   if (!reconcile) {
-    nlohmann::json out = locate_to_json(search.value());
+    nlohmann::json out = locate_to_json(search);
     out["tasks"] = tasks.size();
     forget();
     return out;
   }
   ReconcileOptions& ro = rec->options;
   ro.locate.should_stop = should_stop;
-  auto r = finish_reconcile(rec->job, std::move(plan), std::move(search.value()), ro);
+  // The evidence the tasks gathered; gathered here should any task have
+  // given none.
+  std::vector<std::optional<DetectionEvidence>> evidence;
+  for (const auto& e : merged.value().evidence) {
+    if (e.is_null()) {
+      evidence.clear();
+      break;
+    }
+    auto x = evidence_from_json(e);
+    if (!x) return x.error();
+    evidence.push_back(std::move(x.value()));
+  }
+  auto r = finish_reconcile(rec->job, std::move(plan), std::move(search), ro, std::move(evidence));
   if (!r) return r.error();
   if (html) *html = reconcile_to_html(r.value(), {rec->title, ro.loudness});
   nlohmann::json out = reconcile_to_json(r.value(), ro.loudness);

@@ -224,7 +224,15 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     if (!seg) return seg.error();
     auto r = search_segment(seg.value(), templates, lo);
     if (!r) return r.error();
-    return locate_to_json(r.value(), true);
+    nlohmann::json out = locate_to_json(r.value(), true);
+    if (spec.value("evidence", false)) {  // a reconcile job's: steps 4 and 6 here, beside the audio
+      ReconcileOptions ro;
+      ro.locate = lo;
+      const auto ev = gather_evidence(r.value().templates, seg.value().stream.parts, r.value().matches, ro);
+      out["evidence"] = nlohmann::json::array();
+      for (const auto& e : ev) out["evidence"].push_back(evidence_to_json(e));
+    }
+    return out;
   }
   LocateJob job{templates, spec.at("recordings").get<std::vector<std::string>>()};
   auto r = run_locate(job, lo);

@@ -117,4 +117,34 @@ Result<LocateResult> search_segment(const Segment& seg, const std::vector<std::s
   return std::move(res);
 }
 
+nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e) {
+  if (!e) return {{"unverified", true}};
+  const Profile& p = e->profile;
+  nlohmann::json missing = nlohmann::json::array();
+  for (const auto& [from, to] : p.missing_s) missing.push_back({from, to});
+  nlohmann::json j{{"segment_s", p.segment_s}, {"scores", p.scores}, {"aired", p.aired},
+                   {"coverage", p.coverage}, {"missing_s", missing}, {"weak", e->weak}};
+  if (e->spot_lufs) j["spot_lufs"] = *e->spot_lufs;
+  if (e->programme_lufs) j["programme_lufs"] = *e->programme_lufs;
+  return j;
+}
+
+Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json& j) {
+  try {
+    if (j.value("unverified", false)) return std::optional<DetectionEvidence>{};
+    DetectionEvidence e;
+    e.profile.segment_s = j.at("segment_s").get<double>();
+    e.profile.scores = j.at("scores").get<std::vector<float>>();
+    e.profile.aired = j.at("aired").get<std::vector<bool>>();
+    e.profile.coverage = j.at("coverage").get<double>();
+    for (const auto& r : j.at("missing_s")) e.profile.missing_s.emplace_back(r.at(0).get<double>(), r.at(1).get<double>());
+    e.weak = j.at("weak").get<bool>();
+    if (j.contains("spot_lufs")) e.spot_lufs = j["spot_lufs"].get<double>();
+    if (j.contains("programme_lufs")) e.programme_lufs = j["programme_lufs"].get<double>();
+    return std::optional<DetectionEvidence>{std::move(e)};
+  } catch (const nlohmann::json::exception& ex) {
+    return Error{ErrorCode::internal, std::string("evidence: ") + ex.what(), "", std::nullopt};
+  }
+}
+
 }  // namespace godwit

@@ -21,6 +21,7 @@
 
 #include "godwit/concat_source.h"
 #include "godwit/job.h"
+#include "godwit/reconcile_job.h"
 
 namespace godwit {
 
@@ -59,5 +60,10 @@ Result<Segment> segment_from_json(const nlohmann::json& j);
 // recording's duration_s is how far into the stream the task decoded.
 Result<LocateResult> search_segment(const Segment& segment, const std::vector<std::string>& templates,
                                     LocateOptions options);
+
+// A reconcile task's evidence of one detection (null: it could not be
+// verified), exact numbers.
+nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e);
+Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json& j);
 
 }  // namespace godwit

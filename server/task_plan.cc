@@ -25,6 +25,7 @@ struct Found {
   Match match;
   size_t stream = 0;
   size_t task = 0;
+  nlohmann::json evidence;
 };
 
 }  // namespace
@@ -55,7 +56,7 @@ std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::j
   return out;
 }
 
-Result<LocateResult> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                    const std::vector<PlannedTask>& tasks, const std::vector<nlohmann::json>& results) {
   auto internal = [](const std::string& m) { return Error{ErrorCode::internal, "merge: " + m, "", std::nullopt}; };
   if (tasks.size() != results.size()) return internal("task and result counts differ");
@@ -81,7 +82,11 @@ Result<LocateResult> merge_results(const std::vector<Stream>& streams, const std
       const double at = rec.error && rec.error->offset_s ? *rec.error->offset_s : 0;
       if (rec.error && (!have->error || at < have->error->offset_s.value_or(0))) have->error = rec.error;
     }
-    for (auto& m : r.value().matches) found.push_back({std::move(m), s, i});
+    const nlohmann::json* ev = results[i].contains("evidence") ? &results[i]["evidence"] : nullptr;
+    if (ev && (!ev->is_array() || ev->size() != r.value().matches.size()))
+      return internal("task " + tasks[i].id + " gives evidence for other matches than its own");
+    for (size_t k = 0; k < r.value().matches.size(); ++k)
+      found.push_back({std::move(r.value().matches[k]), s, i, ev ? (*ev)[k] : nlohmann::json()});
   }
   for (const auto& path : templates) {
     if (tasks.empty()) break;  // nothing searched (a reconcile job whose recordings all failed)
@@ -120,8 +125,13 @@ Result<LocateResult> merge_results(const std::vector<Stream>& streams, const std
     if (a.match.offset_s != b.match.offset_s) return a.match.offset_s < b.match.offset_s;
     return a.match.template_id < b.match.template_id;
   });
-  for (auto& f : kept) out.matches.push_back(std::move(f.match));
-  return out;
+  MergedSearch merged;
+  for (auto& f : kept) {
+    out.matches.push_back(std::move(f.match));
+    merged.evidence.push_back(std::move(f.evidence));
+  }
+  merged.search = std::move(out);
+  return merged;
 }
 
 }  // namespace godwit

@@ -45,12 +45,19 @@ std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::j
                                     const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                     double margin_s, const PlanOptions& options);
 
+struct MergedSearch {
+  LocateResult search;
+  // One per match of `search`: the evidence its task gathered (reconcile
+  // tasks, evidence_to_json), null where its task gave none.
+  std::vector<nlohmann::json> evidence;
+};
+
 // The job's search from its tasks' results (in plan order): templates in
 // `templates` order; one recording report per stream, keeping the
 // earliest error and the furthest point decoded; matches by stream, then
 // offset, then template. Errors: a result that is not a locate document,
 // or a count that differs from the plan's.
-Result<LocateResult> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                    const std::vector<PlannedTask>& tasks, const std::vector<nlohmann::json>& results);
 
 }  // namespace godwit

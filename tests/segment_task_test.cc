@@ -103,7 +103,7 @@ TEST_CASE("a stream searched in segments and merged gives the matches of one sea
   auto merged = merge_results({stream}, templates, tasks, results);
   REQUIRE(merged);
   const auto& a = whole.value().matches;
-  const auto& b = merged.value().matches;
+  const auto& b = merged.value().search.matches;
   REQUIRE(b.size() == a.size());
   for (size_t i = 0; i < a.size(); ++i) {
     CAPTURE(i);
@@ -114,8 +114,8 @@ TEST_CASE("a stream searched in segments and merged gives the matches of one sea
     CHECK(std::fabs(b[i].score - a[i].score) < 1e-3);
     CHECK(std::fabs(b[i].speed - a[i].speed) < 1e-5);
   }
-  REQUIRE(merged.value().recordings.size() == 1);
-  CHECK(std::fabs(merged.value().recordings[0].duration_s - 1500) < 1e-6);
-  REQUIRE(merged.value().templates.size() == 3);
-  CHECK(merged.value().templates[1].id == "tern");
+  REQUIRE(merged.value().search.recordings.size() == 1);
+  CHECK(std::fabs(merged.value().search.recordings[0].duration_s - 1500) < 1e-6);
+  REQUIRE(merged.value().search.templates.size() == 3);
+  CHECK(merged.value().search.templates[1].id == "tern");
 }

@@ -86,7 +86,7 @@ TEST_CASE("merging orders matches as one process does and keeps a recording's ea
                                             doc("b.flac", "t2", {{2.0, 0.7}}, true, 20, 20)};
   auto m = merge_results(streams, templates, tasks, results);
   REQUIRE(m);
-  const auto& r = m.value();
+  const auto& r = m.value().search;
   REQUIRE(r.matches.size() == 4);
   CHECK(r.matches[0].offset_s == 3.0);  // a.flac first, by offset
   CHECK(r.matches[1].offset_s == 9.0);
@@ -109,15 +109,23 @@ TEST_CASE("a detection reported by two neighbouring segments is kept once, with 
   const auto tasks = plan_tasks("j", nlohmann::json::object(), {s}, templates, 45, PlanOptions{1, 3600});
   REQUIRE(tasks.size() == 2);  // 3600 + 3900 (the last 300 s join the second span)
   // Both saw the airing at 3599.99 / 3600.01 (a peak either side of the boundary).
-  const std::vector<nlohmann::json> results{doc("long.flac", "t1", {{100.0, 0.9}, {3599.99, 0.81}}, false, 0, 3645),
-                                            doc("long.flac", "t1", {{3600.01, 0.83}, {3610.5, 0.9}}, false, 0, 7500)};
+  std::vector<nlohmann::json> results{doc("long.flac", "t1", {{100.0, 0.9}, {3599.99, 0.81}}, false, 0, 3645),
+                                      doc("long.flac", "t1", {{3600.01, 0.83}, {3610.5, 0.9}}, false, 0, 7500)};
+  // Reconcile tasks' evidence travels with its match.
+  results[0]["evidence"] = {{{"coverage", 1.0}}, {{"coverage", 0.81}}};
+  results[1]["evidence"] = {{{"coverage", 0.83}}, {{"coverage", 0.9}}};
   auto m = merge_results({s}, templates, tasks, results);
   REQUIRE(m);
-  const auto& ms = m.value().matches;
+  const auto& ms = m.value().search.matches;
   REQUIRE(ms.size() == 3);  // 3610.5 is 10.49 s after 3600.01: a new airing of a 10 s master
   CHECK(ms[0].offset_s == 100.0);
   CHECK(ms[1].offset_s == 3600.01);
   CHECK(ms[1].score == 0.83);
   CHECK(ms[2].offset_s == 3610.5);
-  CHECK(m.value().recordings[0].duration_s == 7500);  // the furthest decoded
+  REQUIRE(m.value().evidence.size() == 3);
+  CHECK(m.value().evidence[1]["coverage"] == 0.83);
+  CHECK(m.value().evidence[2]["coverage"] == 0.9);
+  results[1]["evidence"].erase(1);  // evidence for other matches than the task's: refused
+  CHECK(!merge_results({s}, templates, tasks, results));
+  CHECK(m.value().search.recordings[0].duration_s == 7500);  // the furthest decoded
 }

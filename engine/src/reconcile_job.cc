@@ -37,6 +37,7 @@ struct Detection {
   double file_offset_s = 0;
   LocalSeconds aired_s = 0;
   Profile profile;
+  std::optional<double> spot_lufs, programme_lufs;
 };
 
 }  // namespace
@@ -108,7 +109,8 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 }
 
 Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
-                                         const ReconcileOptions& o) {
+                                         const ReconcileOptions& o,
+                                         std::vector<std::optional<DetectionEvidence>> evidence) {
   ReconcileResult res;
   res.placements = job.log.placements;
   res.log_problems = job.log.problems;
@@ -190,49 +192,36 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     return it->second.get();
   };
 
-  // 4. Verify each detection at the native rate.
+  // 4. The evidence of each detection (gathered here unless given).
+  if (evidence.size() != matches.size()) {
+    evidence.assign(matches.size(), std::nullopt);
+    std::map<size_t, std::vector<size_t>> by_run;
+    for (size_t i = 0; i < matches.size(); ++i) by_run[std::stoul(matches[i].recording.substr(4))].push_back(i);
+    for (const auto& [run, which] : by_run) {
+      if (run >= timeline.runs.size()) continue;
+      std::vector<Match> ms;
+      for (size_t i : which) ms.push_back(matches[i]);
+      auto ev = gather_evidence(templates, run_parts(timeline, run), ms, o);
+      for (size_t k = 0; k < which.size(); ++k) evidence[which[k]] = std::move(ev[k]);
+    }
+  }
   std::vector<Detection> dets;
-  // A master as it aired: at the recording's rate, and at the speed it
-  // aired at (decoded at rate / speed, it plays at `rate` as it aired).
-  std::map<std::tuple<size_t, double, double>, Samples> native_master;
-  for (const auto& m : matches) {
+  for (size_t i = 0; i < matches.size(); ++i) {
+    const Match& m = matches[i];
     Detection d;
     d.master = index_of.at(m.template_id);
     d.run = std::stoul(m.recording.substr(4));
     d.match = m;
     ConcatSource* concat = run_source(d.run);
-    if (!concat) continue;
+    if (!concat || !evidence[i]) continue;
     const double rate = concat->info().native_rate_hz;
-    auto key = std::make_tuple(d.master, rate, m.speed);
-    if (!native_master.count(key)) {
-      auto ms = base(job.masters[d.master], ChannelChoice{});
-      if (!ms) continue;
-      auto s = decode_all(*ms.value(), rate / m.speed);
-      if (!s) continue;
-      native_master[key] = std::move(s.value());
-    }
-    const Samples& master = native_master[key];
-    const Samples span = read_native_span(*concat, std::llround(m.offset_s * rate), master.size());
-    // Segments of segment_s of the master last segment_s / speed on air;
-    // the profile is then put back in master time.
-    VerifyOptions vo = o.verify;
-    vo.segment_s = o.verify.segment_s / m.speed;
-    d.profile = verify_airing(master, span, rate, m.polarity, vo);
-    d.profile.segment_s = o.verify.segment_s;
-    const double length_s = templates[d.master].duration_s;
-    for (auto& [from, to] : d.profile.missing_s) {
-      from = std::min(from * m.speed, length_s);
-      to = std::min(to * m.speed, length_s);
-      if (to > length_s - 1e-3) to = length_s;  // a sample's rounding at the end
-    }
-    // Match quality of the part that aired: a cut-off airing of coverage c
-    // scores about q * sqrt(c) overall, q being how well its aired part
-    // matches.
-    if (d.profile.coverage <= 0 ||
-        std::fabs(m.score) / std::sqrt(std::max(d.profile.coverage, 0.05)) < o.min_airing_score) {
+    if (evidence[i]->weak) {
       ++res.rejected_weak;
       continue;
     }
+    d.profile = std::move(evidence[i]->profile);
+    d.spot_lufs = evidence[i]->spot_lufs;
+    d.programme_lufs = evidence[i]->programme_lufs;
     const auto [part, frame] = concat->locate(m.offset_s * rate);
     const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;
@@ -299,29 +288,9 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     a.run = d.run;
     a.run_offset_s = d.match.offset_s;
     a.length_s = templates[d.master].duration_s;
+    a.spot_lufs = d.spot_lufs;  // 6. loudness, in the evidence
+    a.programme_lufs = d.programme_lufs;
     res.airings.push_back(std::move(a));
-  }
-
-  // 6. Loudness of each airing and of the programme before it.
-  if (o.loudness.enabled) {
-    for (auto& a : res.airings) {
-      ConcatSource* src = run_source(a.run);
-      if (!src) continue;
-      const double rate = src->info().native_rate_hz;
-      // The aired part: up to the first missing range that reaches the end.
-      double aired_s = a.length_s;
-      if (!a.missing_s.empty() && a.missing_s.back().second >= a.length_s - 1e-6) aired_s = a.missing_s.back().first;
-      aired_s /= a.speed;  // master time to air time
-      if (aired_s > 0.4) {
-        auto l = measure_span_lufs(*src, std::llround(a.run_offset_s * rate), std::llround(aired_s * rate));
-        if (l) a.spot_lufs = l.value();
-      }
-      const double from_s = std::max(0.0, a.run_offset_s - o.loudness.programme_s);
-      if (a.run_offset_s - from_s > 0.4) {
-        auto l = measure_span_lufs(*src, std::llround(from_s * rate), std::llround((a.run_offset_s - from_s) * rate));
-        if (l) a.programme_lufs = l.value();
-      }
-    }
   }
 
   // 7. Verdicts.

@@ -138,10 +138,34 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& op
 // The name under which run i is searched ("run:0") and its files as one stream.
 std::string run_name(size_t run);
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run);
+
+// The evidence of one detection, taken from its run's stream (steps 4 and
+// 6, which need the audio): how much of the master aired (verify_airing at
+// the native rate, in master time), whether it is too weak to be an airing
+// (min_airing_score), and, for one that is not, the loudness of what aired
+// and of the programme before it.
+struct DetectionEvidence {
+  Profile profile;
+  bool weak = false;
+  std::optional<double> spot_lufs, programme_lufs;
+};
+
+// Evidence of `matches` (found in the stream of `run`, offsets in its time),
+// one each in order; empty where the run or the master cannot be read (the
+// detection is then left out). `templates` give each master's path and
+// length.
+std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<TemplateReport>& templates,
+                                                              const std::vector<ConcatPart>& run,
+                                                              const std::vector<Match>& matches,
+                                                              const ReconcileOptions& options);
+
 // Steps 3 to 7, from the search of the plan's runs: `search` as run_locate
 // returns it for the recordings run_name(0..runs-1) (matches with offsets
 // in run time; a failed run's error, with its offset in the run).
+// `evidence`, one per match of `search` when given (gathered where the
+// search ran); else it is gathered here.
 Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
-                                         const ReconcileOptions& options);
+                                         const ReconcileOptions& options,
+                                         std::vector<std::optional<DetectionEvidence>> evidence = {});
 
 }  // namespace godwit

@@ -1,0 +1,82 @@
+// Steps 4 and 6 of a reconcile job, for the detections of one run: what a
+// distributed job's tasks gather next to their search (reconcile_job.h).
+#include <cmath>
+#include <map>
+#include <tuple>
+
+#include "godwit/analysis_stream.h"
+#include "godwit/reconcile_job.h"
+#include "godwit/resampler.h"
+
+namespace godwit {
+
+std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<TemplateReport>& templates,
+                                                              const std::vector<ConcatPart>& run,
+                                                              const std::vector<Match>& matches,
+                                                              const ReconcileOptions& o) {
+  std::vector<std::optional<DetectionEvidence>> out(matches.size());
+  if (matches.empty() || run.empty()) return out;
+  const SourceOpener& base = o.locate.opener;
+  auto opened = ConcatSource::open("run", run, base, o.locate.channel);
+  if (!opened) return out;
+  ConcatSource& concat = *opened.value();
+  const double rate = concat.info().native_rate_hz;
+  std::map<std::string, const TemplateReport*> by_id;
+  for (const auto& t : templates) by_id[t.id] = &t;
+  // A master as it aired: at the recording's rate, and at the speed it
+  // aired at (decoded at rate / speed, it plays at `rate` as it aired).
+  std::map<std::tuple<std::string, double>, Samples> native_master;
+  for (size_t i = 0; i < matches.size(); ++i) {
+    const Match& m = matches[i];
+    auto t = by_id.find(m.template_id);
+    if (t == by_id.end()) continue;
+    const auto key = std::make_tuple(m.template_id, m.speed);
+    if (!native_master.count(key)) {
+      auto ms = base(t->second->path, ChannelChoice{});
+      if (!ms) continue;
+      auto s = decode_all(*ms.value(), rate / m.speed);
+      if (!s) continue;
+      native_master[key] = std::move(s.value());
+    }
+    const Samples& master = native_master[key];
+    const Samples span = read_native_span(concat, std::llround(m.offset_s * rate), master.size());
+    DetectionEvidence e;
+    // Segments of segment_s of the master last segment_s / speed on air;
+    // the profile is then put back in master time.
+    VerifyOptions vo = o.verify;
+    vo.segment_s = o.verify.segment_s / m.speed;
+    e.profile = verify_airing(master, span, rate, m.polarity, vo);
+    e.profile.segment_s = o.verify.segment_s;
+    const double length_s = t->second->duration_s;
+    for (auto& [from, to] : e.profile.missing_s) {
+      from = std::min(from * m.speed, length_s);
+      to = std::min(to * m.speed, length_s);
+      if (to > length_s - 1e-3) to = length_s;  // a sample's rounding at the end
+    }
+    // Match quality of the part that aired: a cut-off airing of coverage c
+    // scores about q * sqrt(c) overall, q being how well its aired part
+    // matches.
+    e.weak = e.profile.coverage <= 0 ||
+             std::fabs(m.score) / std::sqrt(std::max(e.profile.coverage, 0.05)) < o.min_airing_score;
+    if (!e.weak && o.loudness.enabled) {
+      // The aired part: up to the first missing range that reaches the end.
+      double aired_s = length_s;
+      if (!e.profile.missing_s.empty() && e.profile.missing_s.back().second >= length_s - 1e-6)
+        aired_s = e.profile.missing_s.back().first;
+      aired_s /= m.speed;  // master time to air time
+      if (aired_s > 0.4) {
+        auto l = measure_span_lufs(concat, std::llround(m.offset_s * rate), std::llround(aired_s * rate));
+        if (l) e.spot_lufs = l.value();
+      }
+      const double from_s = std::max(0.0, m.offset_s - o.loudness.programme_s);
+      if (m.offset_s - from_s > 0.4) {
+        auto l = measure_span_lufs(concat, std::llround(from_s * rate), std::llround((m.offset_s - from_s) * rate));
+        if (l) e.programme_lufs = l.value();
+      }
+    }
+    out[i] = std::move(e);
+  }
+  return out;
+}
+
+}  // namespace godwit
