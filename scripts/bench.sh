@@ -14,4 +14,4 @@ $B speed --hours 2
 build/tests/bench/accuracy_bench --hours 3 --seed 1
 build/tests/bench/accuracy_bench --hours 6 --seed 2
 /usr/bin/python3 tests/bench/queue_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth
-/usr/bin/python3 tests/bench/queue_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth --templates-per-task 6
+/usr/bin/python3 tests/bench/queue_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth --templates-per-task 6 --day-minutes 0
