@@ -249,7 +249,7 @@ int main(int argc, char** argv) {
   if (dropper) dropper->stop();
   pool.drain();
   if (queue_worker) queue_worker->stop();
-  cache.save(rc.costs);
+  cache.save(runner.costs());
   spdlog::info("godwitd stopped");
   return 0;
 }

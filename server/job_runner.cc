@@ -196,7 +196,15 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
 Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
                                       const std::function<void(std::string_view)>& warn, std::string* html) const {
-  FftCostTable costs = config_.costs;
+  FftCostTable costs = this->costs();
+  struct KeepCosts {  // whatever the job measured, kept for the next ones
+    const JobRunner& runner;
+    FftCostTable& costs;
+    ~KeepCosts() {
+      std::lock_guard lock(runner.costs_mu_);
+      runner.costs_.insert(costs.begin(), costs.end());
+    }
+  } keep{*this, costs};
   const std::string kind = spec.value("kind", "");
   if (kind == "reconcile") {
     auto rec = load_reconcile(spec, warn);
@@ -238,6 +246,11 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   auto r = run_locate(job, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
+}
+
+FftCostTable JobRunner::costs() const {
+  std::lock_guard lock(costs_mu_);
+  return costs_;
 }
 
 JobExecutor local_executor(const JobRunner& runner) {

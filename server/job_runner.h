@@ -20,6 +20,7 @@
 #pragma once
 
 #include <functional>
+#include <mutex>
 #include <nlohmann/json.hpp>
 #include <string>
 
@@ -38,12 +39,13 @@ struct RunnerConfig {
   size_t max_inline_bytes = 16u << 20;       // decoded, per spot
   int threads_per_job = 1;
   Planner planner = Planner::measure;
-  FftCostTable costs;  // copied per job
+  FftCostTable costs;  // the cache's, at start
 };
 
 class JobRunner {
  public:
-  JobRunner(RunnerConfig config, const PathGuard& guard) : config_(std::move(config)), guard_(guard) {}
+  JobRunner(RunnerConfig config, const PathGuard& guard)
+      : config_(std::move(config)), guard_(guard), costs_(config_.costs) {}
 
   Result<nlohmann::json> prepare(const nlohmann::json& job) const;
   // For a reconcile job, `html` (when given) receives the HTML report too.
@@ -51,6 +53,8 @@ class JobRunner {
                              const std::function<bool()>& should_stop,
                              const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
   const RunnerConfig& config() const { return config_; }
+  // The FFT costs measured so far, by every job (for the cache at exit).
+  FftCostTable costs() const;
 
   // A prepared reconcile job's inputs and options, loaded (the library
   // scanned, the planned log read; its warnings go to `warn`).
@@ -65,6 +69,10 @@ class JobRunner {
  private:
   RunnerConfig config_;
   const PathGuard& guard_;
+  // Shared by the jobs: each runs on a copy and adds what it measured, so
+  // FFT sizes are measured once per daemon, not once per job or task.
+  mutable std::mutex costs_mu_;
+  mutable FftCostTable costs_;  // GUARDED_BY(costs_mu_)
 };
 
 // How a prepared job runs: on this machine (JobRunner::run; the default

@@ -325,6 +325,20 @@ class DaemonTests(unittest.TestCase):
             p.terminate()
             p.wait(timeout=30)
 
+    def test_fft_costs_measured_by_jobs_are_kept_for_the_next_start(self):
+        # A fresh state folder: the first job measures the FFT sizes it
+        # needs; they are shared with later jobs and saved at exit, so a
+        # restarted daemon does not measure them again.
+        d = self.start()
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS[:1]}})
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+        sizes = {t["fft_size"] for t in c.req({"op": "result", "job": r["job"]})["result"]["templates"]}
+        d.stop()
+        with open(os.path.join(d.state, "fft-costs.json")) as f:
+            saved = json.load(f)
+        self.assertTrue(sizes <= {int(k) for k in saved}, (sizes, sorted(saved)))
+
     def test_reconcile_job_over_tcp_gives_the_demo_verdicts(self):
         d = self.start()
         c = d.connect()
