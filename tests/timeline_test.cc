@@ -24,9 +24,9 @@ TEST_CASE("contiguous files form one run; gaps split runs; overlaps are trimmed 
   CHECK(t.issues[1].seconds == doctest::Approx(5.0));
 }
 
-TEST_CASE("a change of sample rate starts a new run") {
+TEST_CASE("a change of sample rate stays in the run: the run's stream resamples it") {
   const Timeline t = build_timeline({{"a", 0, 10, 44100, 0}, {"b", 10, 10, 48000, 0}});
-  CHECK(t.runs.size() == 2);
-  REQUIRE(t.issues.size() == 1);
-  CHECK(t.issues[0].kind == TimelineIssue::Kind::rate_change);
+  REQUIRE(t.runs.size() == 1);
+  CHECK(t.runs[0].files.size() == 2);
+  CHECK(t.issues.empty());
 }

@@ -38,7 +38,9 @@ AirMaster make_master(const SpotSpec& s, size_t index, uint64_t seed) {
   m.id = s.id;
   m.family = s.family;
   m.duration_s = s.duration_s;
-  m.rate_hz = index % 2 ? 44100 : 48000;
+  // Made at 48 kHz (siblings must share their audio sample for sample),
+  // then every other master delivered at 44.1 kHz.
+  m.rate_hz = 48000;
   Rng rng(seed * 131 + index);
   m.bed = music(s.duration_s, m.rate_hz, seed * 100 + s.base * 3 + 1);
   set_rms(m.bed, 0.07);
@@ -53,6 +55,12 @@ AirMaster make_master(const SpotSpec& s, size_t index, uint64_t seed) {
   }
   set_rms(full, 0.1);
   m.audio = std::move(full);
+  if (index % 2) {
+    m.audio = resample_all(m.audio, 48000, 44100);
+    m.bed = resample_all(m.bed, 48000, 44100);
+    if (!m.tag.empty()) m.tag = resample_all(m.tag, 48000, 44100);
+    m.rate_hz = 44100;
+  }
   return m;
 }
 

@@ -29,9 +29,13 @@ Result<bool> AnalysisStream::next(Samples& out) {
 }
 
 Samples read_native_span(AudioSource& source, int64_t start, size_t frames) {
-  Samples span(frames);
+  Samples span(frames, 0.0f);
   size_t got = 0;
-  if (source.seek(start)) {
+  if (start < 0) {  // before the recording began: silence
+    got = std::min(frames, static_cast<size_t>(-start));
+    start = 0;
+  }
+  if (got < frames && source.seek(start)) {
     while (got < frames) {
       auto r = source.read(span.data() + got, frames - got);
       if (!r || r.value() == 0) break;

@@ -19,18 +19,29 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
   const SourceOpener& base = o.locate.opener;
   auto opened = ConcatSource::open("run", run, base, o.locate.channel);
   if (!opened) return out;
-  ConcatSource& concat = *opened.value();
-  const double rate = concat.info().native_rate_hz;
+  // Each detection is read at the rate of the file where it starts, so
+  // that it is verified and measured at that file's native rate; the next
+  // file of a run, if logged at another rate, is resampled to it.
+  std::map<double, std::unique_ptr<ConcatSource>> at_rate;
+  const double stream_rate = opened.value()->info().native_rate_hz;
+  at_rate[stream_rate] = std::move(opened.value());
   std::map<std::string, const TemplateReport*> by_id;
   for (const auto& t : templates) by_id[t.id] = &t;
   // A master as it aired: at the recording's rate, and at the speed it
   // aired at (decoded at rate / speed, it plays at `rate` as it aired).
-  std::map<std::tuple<std::string, double>, Samples> native_master;
+  std::map<std::tuple<std::string, double, double>, Samples> native_master;
   for (size_t i = 0; i < matches.size(); ++i) {
     const Match& m = matches[i];
     auto t = by_id.find(m.template_id);
     if (t == by_id.end()) continue;
-    const auto key = std::make_tuple(m.template_id, m.speed);
+    const double rate = at_rate[stream_rate]->part_rate_at(m.offset_s * stream_rate);
+    if (!at_rate.count(rate)) {
+      auto c = ConcatSource::open("run", run, base, o.locate.channel, rate);
+      if (!c) continue;
+      at_rate[rate] = std::move(c.value());
+    }
+    ConcatSource& concat = *at_rate[rate];
+    const auto key = std::make_tuple(m.template_id, m.speed, rate);
     if (!native_master.count(key)) {
       auto ms = base(t->second->path, ChannelChoice{});
       if (!ms) continue;

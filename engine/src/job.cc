@@ -86,10 +86,12 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
     for (auto& [ti, m] : found) {
       if (ti != t || m.speed != speed) continue;
       const double coarse = m.offset_s * native;
-      int64_t start = static_cast<int64_t>(std::floor(coarse)) - radius;
-      if (start < 0) start = 0;
+      // An airing cut by the start or the end of the recording: silence
+      // stands for what was not recorded.
+      const int64_t start = static_cast<int64_t>(std::floor(coarse)) - radius;
       const size_t want = tmpl.size() + static_cast<size_t>(2 * radius + 1);
-      const Samples span = read_native_span(src, start, want);
+      Samples span = read_native_span(src, start, want);
+      span.resize(want, 0.0f);
       auto refined = refine_offset(tmpl, span, m.polarity);
       if (!refined) continue;
       const double off_s = (static_cast<double>(start) + refined->offset_frames) / native;
@@ -104,9 +106,12 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
 
 // Step 2 and 3 of the speed search for the coarse peaks of one recording:
 // spans read in turn from the one source, refined on `threads` threads.
+// `pad` analysis samples of silence preceded the recording in the stream the
+// candidates were found in.
 std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string& path, const TemplateBank& bank,
                                                               const LocateOptions& o,
-                                                              const std::vector<detail::SpeedCandidate>& cands) {
+                                                              const std::vector<detail::SpeedCandidate>& cands,
+                                                              int64_t pad) {
   std::vector<std::pair<size_t, Match>> out;
   if (cands.empty()) return out;
   auto rec = o.opener(path, o.channel);
@@ -154,7 +159,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       const auto& c = cands[order[first + i]];
       const Samples& master = masters.at(c.template_index);
       if (master.empty()) continue;
-      const double from_s = std::max(0.0, c.offset / fs - margin_s);
+      const double from_s = (c.offset - static_cast<double>(pad)) / fs - margin_s;
       const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
       const auto start = static_cast<int64_t>(std::floor(from_s * native));
       const Samples span_native = read_native_span(src, start, static_cast<size_t>(std::ceil(len_s * native)));
@@ -165,7 +170,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
     pool.run(n, [&](size_t i, size_t) {
       const auto& c = cands[order[first + i]];
       if (spans[i].empty()) return;
-      const detail::SpeedSeed seed{c.speed, c.offset - span_start[i], c.speed_step};
+      const detail::SpeedSeed seed{c.speed, c.offset - static_cast<double>(pad) - span_start[i], c.speed_step};
       const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
       if (!fit || std::fabs(fit->score) < o.picker.threshold) return;
       if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
@@ -244,6 +249,16 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
 
     AnalysisStream stream(src, o.analysis_rate_hz);
     Samples block;
+    // Silence of half the longest master before and after the recording,
+    // so that an airing cut by its start or end is scored on the half or
+    // more that was recorded; offsets are counted from the recording's
+    // first sample (negative for an airing that began before it).
+    size_t longest = 0;
+    for (const auto& t : bank->templates()) longest = std::max(longest, t.len_samples);
+    const Samples edge(longest / 2, 0.0f);
+    const auto pad = static_cast<int64_t>(edge.size());
+    correlator.push(edge.data(), edge.size(), sink);
+    if (speed_pass) speed_pass->push(edge.data(), edge.size());
     Progress prog;
     prog.recording_index = ri;
     prog.recordings = nrec;
@@ -251,7 +266,8 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     int64_t last_report = 0;
     for (;;) {
       if (o.should_stop && o.should_stop())
-        return Error{ErrorCode::cancelled, "cancelled", path, static_cast<double>(correlator.samples_pushed()) / o.analysis_rate_hz};
+        return Error{ErrorCode::cancelled, "cancelled", path,
+                     static_cast<double>(std::max<int64_t>(0, correlator.samples_pushed() - pad)) / o.analysis_rate_hz};
       auto more = stream.next(block);
       if (!block.empty()) {
         correlator.push(block.data(), block.size(), sink);
@@ -266,13 +282,17 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       if (!more.value()) break;
       if (o.on_progress && correlator.samples_pushed() - last_report >= static_cast<int64_t>(o.analysis_rate_hz * 10)) {
         last_report = correlator.samples_pushed();
-        prog.recording_done_s = static_cast<double>(last_report) / o.analysis_rate_hz;
+        prog.recording_done_s = static_cast<double>(last_report - pad) / o.analysis_rate_hz;
         double within = 0;
         if (prog.recording_total_s && *prog.recording_total_s > 0)
           within = std::min(1.0, prog.recording_done_s / *prog.recording_total_s);
         prog.fraction = (static_cast<double>(ri) + within) / static_cast<double>(nrec);
         o.on_progress(prog);
       }
+    }
+    if (stream.native_frames_read() > 0) {
+      correlator.push(edge.data(), edge.size(), sink);
+      if (speed_pass) speed_pass->push(edge.data(), edge.size());
     }
     correlator.finish(sink);
     if (speed_pass) speed_pass->finish();
@@ -287,7 +307,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
         Match m;
         m.template_id = bank->at(t).id;
         m.recording = path;
-        m.offset_s = c.offset / o.analysis_rate_hz;
+        m.offset_s = (c.offset - static_cast<double>(pad)) / o.analysis_rate_hz;
         m.score = c.score;
         m.polarity = c.polarity;
         found.emplace_back(t, std::move(m));
@@ -296,9 +316,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     src_r.value().reset();  // close before reopening for refinement
     if (speed_pass) {
       std::vector<std::pair<size_t, double>> plain;
-      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz);
+      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
       const auto cands = speed_pass->candidates(plain, report.duration_s);
-      for (auto& f : refine_speed_candidates(path, *bank, o, cands)) found.push_back(std::move(f));
+      for (auto& f : refine_speed_candidates(path, *bank, o, cands, pad)) found.push_back(std::move(f));
     }
     if (o.refine) refine_matches(path, *bank, o, found);
     std::vector<Match> matches;

@@ -47,7 +47,8 @@ std::string run_name(size_t run) { return kRunPrefix + std::to_string(run); }
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
   std::vector<ConcatPart> parts;
   for (const auto& f : timeline.runs.at(run).files)
-    parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz)});
+    parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz),
+                     f.native_rate_hz});
   return parts;
 }
 
@@ -222,10 +223,10 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     d.profile = std::move(evidence[i]->profile);
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
-    const auto [part, frame] = concat->locate(m.offset_s * rate);
+    const auto [part, in_file_s] = concat->locate_s(m.offset_s * rate);
     const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;
-    d.file_offset_s = frame / rate;
+    d.file_offset_s = in_file_s;
     d.aired_s = f.start_s + d.file_offset_s;
     dets.push_back(std::move(d));
   }

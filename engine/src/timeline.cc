@@ -8,7 +8,6 @@ const char* timeline_issue_name(TimelineIssue::Kind kind) {
   switch (kind) {
     case TimelineIssue::Kind::gap: return "gap";
     case TimelineIssue::Kind::overlap: return "overlap";
-    case TimelineIssue::Kind::rate_change: return "rate_change";
   }
   return "gap";
 }
@@ -27,11 +26,6 @@ Timeline build_timeline(std::vector<TimelineFile> files, double tolerance_s) {
     const double delta = f.start_s - prev_end;  // > 0 gap, < 0 overlap
     if (delta > tolerance_s) {
       t.issues.push_back({TimelineIssue::Kind::gap, prev.path, f.path, prev_end, delta});
-      t.runs.push_back({{f}});
-      continue;
-    }
-    if (f.native_rate_hz != prev.native_rate_hz) {
-      t.issues.push_back({TimelineIssue::Kind::rate_change, prev.path, f.path, f.start_s, 0});
       t.runs.push_back({{f}});
       continue;
     }

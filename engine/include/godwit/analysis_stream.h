@@ -35,8 +35,9 @@ class AnalysisStream {
   bool done_ = false;
 };
 
-// Mono native frames [start, start + frames) of `source`; fewer when the
-// source ends or fails first (a span that cannot be read is empty).
+// Mono native frames [start, start + frames) of `source`; frames before 0
+// (the recording had not begun) are zeros; fewer when the source ends or
+// fails first.
 Samples read_native_span(AudioSource& source, int64_t start, size_t frames);
 
 // Decodes a whole (short) source to mono at `rate_hz` (the native rate when

@@ -26,12 +26,12 @@ struct TimelineFile {
 };
 
 struct TimelineRun {
-  std::vector<TimelineFile> files;  // consecutive, same native rate
+  std::vector<TimelineFile> files;  // consecutive; rates and codecs may differ
   LocalSeconds start_s() const { return files.front().start_s + files.front().skip_s; }
 };
 
 struct TimelineIssue {
-  enum class Kind { gap, overlap, rate_change };
+  enum class Kind { gap, overlap };
   Kind kind = Kind::gap;
   std::string before;  // file that ends
   std::string after;   // file that starts
