@@ -6,6 +6,7 @@
 
 #include "godwit/html_report.h"
 #include "godwit/locate_report.h"
+#include "godwit/timeline_locate.h"
 #include "godwit/reconcile_report.h"
 
 namespace godwit {
@@ -62,6 +63,8 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   std::vector<std::string> templates;
   std::optional<JobRunner::Reconcile> rec;
   ReconcilePlan plan;
+  LocateOptions lo;
+  LocatePlan lplan;
   if (reconcile) {
     auto r = runner_.load_reconcile(spec, warn);
     if (!r) return r.error();
@@ -76,8 +79,19 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   } else {
     for (const char* field : {"threshold", "floor_k", "fft_size"})
       if (spec.contains(field)) base[field] = spec[field];
-    for (const auto& r : spec.at("recordings")) streams.push_back(recording_stream(r.get<std::string>(), plan_.span_s));
+    // The same plan as a local locate job (timeline_locate.h): runs of
+    // consecutive files as streams, files not readable whole alone; the
+    // tasks confirm their detections beside the audio.
     templates = spec.at("templates").get<std::vector<std::string>>();
+    lo = runner_.locate_options(spec, warn);
+    lplan = plan_locate({templates, spec.at("recordings").get<std::vector<std::string>>()}, lo, {});
+    for (const auto& a : lplan.alone) streams.push_back(recording_stream(a, plan_.span_s));
+    for (size_t i = 0; i < lplan.plan.timeline.runs.size(); ++i) {
+      Stream s{run_name(i), run_parts(lplan.plan.timeline, i), lplan.plan.timeline.runs[i].files.front().native_rate_hz, 0};
+      for (const auto& p : s.parts) s.duration_s += static_cast<double>(p.frames - p.skip_frames) / (p.rate_hz > 0 ? p.rate_hz : s.rate_hz);
+      streams.push_back(std::move(s));
+    }
+    base["evidence"] = true;
   }
   const auto tasks = plan_tasks(job_id, base, streams, templates, margin_for(templates, speed_pct), plan_);
   // A reconcile job's finish (verification, loudness) follows the tasks.
@@ -89,14 +103,6 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   LocateResult& search = merged.value().search;
   // Best effort, once the job's result exists: leftovers expire with nothing.
   auto forget = [&] { (void)TaskQueue(url_, default_consumer_name() + "/submit", options_).forget(job_id, tasks); };
-  if (!reconcile) {
-    nlohmann::json out = locate_to_json(search);
-    out["tasks"] = tasks.size();
-    forget();
-    return out;
-  }
-  ReconcileOptions& ro = rec->options;
-  ro.locate.should_stop = should_stop;
   // The evidence the tasks gathered; gathered here should any task have
   // given none.
   std::vector<std::optional<DetectionEvidence>> evidence;
@@ -109,6 +115,17 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
     if (!x) return x.error();
     evidence.push_back(std::move(x.value()));
   }
+  if (!reconcile) {
+    lo.should_stop = should_stop;
+    auto r = finish_locate(lplan, std::move(search), lo, {}, std::move(evidence));
+    if (!r) return r.error();
+    nlohmann::json out = locate_to_json(r.value());
+    out["tasks"] = tasks.size();
+    forget();
+    return out;
+  }
+  ReconcileOptions& ro = rec->options;
+  ro.locate.should_stop = should_stop;
   auto r = finish_reconcile(rec->job, std::move(plan), std::move(search), ro, std::move(evidence));
   if (!r) return r.error();
   if (html) *html = reconcile_to_html(r.value(), {rec->title, ro.loudness});

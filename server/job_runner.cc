@@ -1,5 +1,7 @@
 #include "job_runner.h"
 
+#include "godwit/timeline_locate.h"
+
 #include <filesystem>
 #include <random>
 
@@ -175,6 +177,15 @@ void apply_search_fields(const nlohmann::json& spec, LocateOptions& lo) {
 
 }  // namespace
 
+LocateOptions JobRunner::locate_options(const nlohmann::json& spec, const std::function<void(std::string_view)>& warn) const {
+  LocateOptions lo;
+  lo.correlator.threads = config_.threads_per_job;
+  lo.correlator.planner = config_.planner;
+  lo.on_diagnostic = warn;
+  apply_search_fields(spec, lo);
+  return lo;
+}
+
 Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spec,
                                                        const std::function<void(std::string_view)>& warn) const {
   std::vector<std::string> warnings;
@@ -218,14 +229,10 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     if (html) *html = reconcile_to_html(r.value(), {rec.value().title, ro.loudness});
     return reconcile_to_json(r.value(), ro.loudness);
   }
-  LocateOptions lo;
-  lo.correlator.threads = config_.threads_per_job;
-  lo.correlator.planner = config_.planner;
+  LocateOptions lo = locate_options(spec, warn);
   lo.bank.costs = &costs;
   lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
   lo.should_stop = should_stop;
-  lo.on_diagnostic = warn;
-  apply_search_fields(spec, lo);
   const auto templates = spec.at("templates").get<std::vector<std::string>>();
   if (kind == "segment") {
     auto seg = segment_from_json(spec.at("segment"));
@@ -243,7 +250,7 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     return out;
   }
   LocateJob job{templates, spec.at("recordings").get<std::vector<std::string>>()};
-  auto r = run_locate(job, lo);
+  auto r = run_locate_job(job, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
 }

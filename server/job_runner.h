@@ -65,6 +65,10 @@ class JobRunner {
   };
   Result<Reconcile> load_reconcile(const nlohmann::json& prepared,
                                    const std::function<void(std::string_view)>& warn) const;
+  // A locate job's search options: the daemon's (threads, planner) and the
+  // job's (threshold, floor, speed range); no FFT cost table, no callbacks
+  // but `warn`.
+  LocateOptions locate_options(const nlohmann::json& prepared, const std::function<void(std::string_view)>& warn) const;
 
  private:
   RunnerConfig config_;

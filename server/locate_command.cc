@@ -8,6 +8,7 @@
 #include "engine_options.h"
 #include "godwit/job.h"
 #include "godwit/locate_report.h"
+#include "godwit/timeline_locate.h"
 #include "library_scan.h"
 
 namespace godwit {
@@ -19,6 +20,10 @@ struct LocateArgs {
   std::vector<std::string> recordings;
   std::string format = "json";
   std::string out;
+  std::string name_pattern = "%Y%m%dT%H%M%S";
+  bool separate = false;
+  bool all_versions = false;
+  bool unconfirmed = false;
   EngineArgs engine;
 };
 
@@ -40,7 +45,11 @@ int run(const LocateArgs& a) {
   LocateOptions o;
   EngineSetup setup;
   if (auto msg = setup.configure(a.engine, o); !msg.empty()) return fail({ErrorCode::usage, msg, "", {}});
-  auto result = run_locate(job, o);
+  TimelineLocateOptions to;
+  to.name_pattern = a.separate ? std::string() : a.name_pattern;
+  to.resolve_versions = !a.all_versions;
+  to.confirm = !a.unconfirmed;
+  auto result = run_locate_job(job, o, to);
   setup.finish();
   if (!result) {
     if (result.error().code == ErrorCode::cancelled) {
@@ -83,6 +92,17 @@ std::function<int()> add_locate_command(CLI::App& app) {
   cmd->add_option("--format", a->format, "output format: json or csv (default json)")
       ->check(CLI::IsMember({"json", "csv"}));
   cmd->add_option("--out,-o", a->out, "write the output to FILE (atomically) instead of standard output");
+  cmd->add_option("--name-pattern", a->name_pattern,
+                  "where file names carry their start (%Y %m %d %H %M %S; default %Y%m%dT%H%M%S): recordings that "
+                  "all carry one and follow each other are searched as one timeline, so an airing across two files "
+                  "is found once, in the file holding its first sample");
+  cmd->add_flag("--separate", a->separate, "search every recording on its own, even when their names carry times");
+  cmd->add_flag("--all-versions", a->all_versions,
+                "report every sibling version detected at an airing as a match of its own, instead of the best "
+                "one with the others as its alternatives");
+  cmd->add_flag("--unconfirmed", a->unconfirmed,
+                "also report detections that fail the confirmation (a foreground that matches worse than the "
+                "background: a music bed aired alone, a presenter over the bed)");
   add_engine_options(cmd, a->engine);
   cmd->footer(
       "Exit codes: 0 done; 2 usage error; 3 a master or every recording could not be read;\n"

@@ -124,6 +124,7 @@ nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e) {
   for (const auto& [from, to] : p.missing_s) missing.push_back({from, to});
   nlohmann::json j{{"segment_s", p.segment_s}, {"scores", p.scores}, {"aired", p.aired},
                    {"coverage", p.coverage}, {"missing_s", missing}, {"weak", e->weak}};
+  if (e->foreground_contrast) j["foreground_contrast"] = *e->foreground_contrast;
   if (e->spot_lufs) j["spot_lufs"] = *e->spot_lufs;
   if (e->programme_lufs) j["programme_lufs"] = *e->programme_lufs;
   return j;
@@ -139,6 +140,7 @@ Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json
     e.profile.coverage = j.at("coverage").get<double>();
     for (const auto& r : j.at("missing_s")) e.profile.missing_s.emplace_back(r.at(0).get<double>(), r.at(1).get<double>());
     e.weak = j.at("weak").get<bool>();
+    if (j.contains("foreground_contrast")) e.foreground_contrast = j["foreground_contrast"].get<double>();
     if (j.contains("spot_lufs")) e.spot_lufs = j["spot_lufs"].get<double>();
     if (j.contains("programme_lufs")) e.programme_lufs = j["programme_lufs"].get<double>();
     return std::optional<DetectionEvidence>{std::move(e)};

@@ -113,9 +113,11 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
     AirMaster m = make_master(kSpots[i], i, o.seed);
     m.path = (dir / "library" / (m.id + ".wav")).string();
     const bool stereo = m.rate_hz == 44100;
-    const std::string err =
-        write_audio(m.path, stereo ? to_stereo(m.audio, 1.0) : m.audio, stereo ? 2 : 1, m.rate_hz);
-    if (!err.empty()) return fail(err);
+    if (!(o.reuse && fs::exists(m.path))) {
+      const std::string err =
+          write_audio(m.path, stereo ? to_stereo(m.audio, 1.0) : m.audio, stereo ? 2 : 1, m.rate_hz);
+      if (!err.empty()) return fail(err);
+    }
     day.masters.push_back(std::move(m));
   }
 
@@ -266,6 +268,7 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
   for (size_t k = 0; k < day.files.size(); ++k) {
     const AirFile& f = day.files[k];
     const double R = f.rate_hz;
+    if (o.reuse && fs::exists(f.path)) continue;
     Samples prog = programme(f.duration_s, kProgrammeRate, o.seed * 1000 + k);
     Samples air = resample_all(prog, kProgrammeRate, R);
     air.resize(static_cast<size_t>(std::llround(f.duration_s * R)), 0.0f);

@@ -35,6 +35,7 @@ struct AirDayOptions {
   uint64_t seed = 1;
   std::string dir;       // library/, air/ and planned.csv are written here
   bool gap = true;       // a gap of 60-150 s in the timeline, mid-day
+  bool reuse = false;    // keep audio files already in dir (made by the same seed and options)
   ChainOdds odds;
   std::function<void(const std::string&)> log;  // progress lines (optional)
 };

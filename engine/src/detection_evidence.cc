@@ -7,6 +7,7 @@
 #include "godwit/analysis_stream.h"
 #include "godwit/reconcile_job.h"
 #include "godwit/resampler.h"
+#include "foreground_contrast.h"
 
 namespace godwit {
 
@@ -25,6 +26,7 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
   std::map<double, std::unique_ptr<ConcatSource>> at_rate;
   const double stream_rate = opened.value()->info().native_rate_hz;
   at_rate[stream_rate] = std::move(opened.value());
+  detail::FftPlans plans(Planner::estimate);
   std::map<std::string, const TemplateReport*> by_id;
   for (const auto& t : templates) by_id[t.id] = &t;
   // A master as it aired: at the recording's rate, and at the speed it
@@ -67,8 +69,11 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
     // matches.
+    if (auto fc = detail::foreground_contrast(plans, master, span, rate, e.profile.aired, vo.segment_s))
+      e.foreground_contrast = fc->contrast;
     e.weak = e.profile.coverage <= 0 ||
-             std::fabs(m.score) / std::sqrt(std::max(e.profile.coverage, 0.05)) < o.min_airing_score;
+             std::fabs(m.score) / std::sqrt(std::max(e.profile.coverage, 0.05)) < o.min_airing_score ||
+             (e.foreground_contrast && *e.foreground_contrast < -o.max_foreground_deficit);
     if (!e.weak && o.loudness.enabled) {
       // The aired part: up to the first missing range that reaches the end.
       double aired_s = length_s;

@@ -43,15 +43,28 @@ nlohmann::json locate_to_json(const LocateResult& r, bool exact) {
     if (rec.error) x["error"] = error_to_json(*rec.error, exact);
     j["recordings"].push_back(std::move(x));
   }
+  j["unconfirmed_detections"] = r.unconfirmed;
   j["matches"] = nlohmann::json::array();
-  for (const auto& m : r.matches)
-    j["matches"].push_back({{"template", m.template_id},
-                            {"recording", m.recording},
-                            {"offset_s", round_decimals(m.offset_s, 6)},
-                            {"score", round_decimals(m.score, 4)},
-                            {"polarity", m.polarity},
-                            {"speed", round_decimals(m.speed, 6)},
-                            {"refined", m.refined}});
+  for (const auto& m : r.matches) {
+    nlohmann::json x{{"template", m.template_id},
+                     {"recording", m.recording},
+                     {"offset_s", round_decimals(m.offset_s, 6)},
+                     {"score", round_decimals(m.score, 4)},
+                     {"polarity", m.polarity},
+                     {"speed", round_decimals(m.speed, 6)},
+                     {"refined", m.refined}};
+    if (!m.alternatives.empty()) {
+      x["distinguishing_score"] = round_decimals(m.distinguishing, 4);
+      x["version_undetermined"] = m.version_undetermined;
+      nlohmann::json alts = nlohmann::json::array();
+      for (const auto& a : m.alternatives)
+        alts.push_back({{"template", a.template_id},
+                        {"score", round_decimals(a.score, 4)},
+                        {"distinguishing_score", round_decimals(a.distinguishing, 4)}});
+      x["alternatives"] = std::move(alts);
+    }
+    j["matches"].push_back(std::move(x));
+  }
   return j;
 }
 
@@ -63,6 +76,7 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
   try {
     LocateResult r;
     r.analysis_rate_hz = j.value("analysis_rate_hz", 0.0);
+    r.unconfirmed = j.value("unconfirmed_detections", size_t{0});
     for (const auto& t : j["templates"])
       r.templates.push_back({t.at("id").get<std::string>(), t.at("path").get<std::string>(),
                              t.at("duration_s").get<double>(), t.at("fft_size").get<size_t>()});
@@ -85,6 +99,12 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
       m.polarity = x.value("polarity", 1);
       m.speed = x.value("speed", 1.0);
       m.refined = x.value("refined", false);
+      m.distinguishing = x.value("distinguishing_score", 0.0);
+      m.version_undetermined = x.value("version_undetermined", false);
+      if (x.contains("alternatives"))
+        for (const auto& a : x.at("alternatives"))
+          m.alternatives.push_back({a.at("template").get<std::string>(), a.at("score").get<double>(),
+                                    a.value("distinguishing_score", 0.0)});
       r.matches.push_back(std::move(m));
     }
     return r;

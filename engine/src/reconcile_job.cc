@@ -9,6 +9,7 @@
 #include "godwit/analysis_stream.h"
 #include "godwit/concat_source.h"
 #include "godwit/resampler.h"
+#include "godwit/version_choice.h"
 
 namespace godwit {
 namespace {
@@ -37,12 +38,34 @@ struct Detection {
   double file_offset_s = 0;
   LocalSeconds aired_s = 0;
   Profile profile;
+  std::optional<double> foreground_contrast;
   std::optional<double> spot_lufs, programme_lufs;
 };
 
 }  // namespace
 
 std::string run_name(size_t run) { return kRunPrefix + std::to_string(run); }
+
+std::optional<size_t> run_index(const std::string& name) {
+  if (name.rfind(kRunPrefix, 0) != 0 || name.size() <= 4 || name.size() > 24) return std::nullopt;
+  size_t i = 0;
+  for (size_t k = 4; k < name.size(); ++k) {
+    if (name[k] < '0' || name[k] > '9') return std::nullopt;
+    i = i * 10 + static_cast<size_t>(name[k] - '0');
+  }
+  return i;
+}
+
+SourceOpener run_opener(const Timeline& timeline, SourceOpener base) {
+  return [&timeline, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
+    const auto i = run_index(path);
+    if (!i) return base(path, choice);
+    if (*i >= timeline.runs.size()) return Error{ErrorCode::internal, "no such run", path, std::nullopt};
+    auto c = ConcatSource::open(path, run_parts(timeline, *i), base, choice);
+    if (!c) return c.error();
+    return SourcePtr(std::move(c.value()));
+  };
+}
 
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
   std::vector<ConcatPart> parts;
@@ -69,6 +92,8 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o)
     } else {
       auto frames = count_frames(*src.value());
       st.native_rate_hz = src.value()->info().native_rate_hz;
+      st.format = src.value()->info().format;
+      st.channels = src.value()->info().channels;
       if (!frames) {
         st.error = frames.error();
       } else if (frames.value() == 0) {
@@ -90,13 +115,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
   const SourceOpener& base = o.locate.opener;
   const Timeline& timeline = plan.timeline;
   LocateOptions lo = o.locate;
-  lo.opener = [&, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
-    if (path.rfind(kRunPrefix, 0) != 0) return base(path, choice);
-    const size_t i = std::stoul(path.substr(4));
-    auto c = ConcatSource::open(path, run_parts(timeline, i), base, choice);
-    if (!c) return c.error();
-    return SourcePtr(std::move(c.value()));
-  };
+  lo.opener = run_opener(timeline, base);
   LocateJob lj;
   lj.templates = job.masters;
   for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(run_name(i));
@@ -197,7 +216,8 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   if (evidence.size() != matches.size()) {
     evidence.assign(matches.size(), std::nullopt);
     std::map<size_t, std::vector<size_t>> by_run;
-    for (size_t i = 0; i < matches.size(); ++i) by_run[std::stoul(matches[i].recording.substr(4))].push_back(i);
+    for (size_t i = 0; i < matches.size(); ++i)
+      if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);
     for (const auto& [run, which] : by_run) {
       if (run >= timeline.runs.size()) continue;
       std::vector<Match> ms;
@@ -211,7 +231,9 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     const Match& m = matches[i];
     Detection d;
     d.master = index_of.at(m.template_id);
-    d.run = std::stoul(m.recording.substr(4));
+    const auto run = run_index(m.recording);
+    if (!run) continue;
+    d.run = *run;
     d.match = m;
     ConcatSource* concat = run_source(d.run);
     if (!concat || !evidence[i]) continue;
@@ -221,6 +243,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
       continue;
     }
     d.profile = std::move(evidence[i]->profile);
+    d.foreground_contrast = evidence[i]->foreground_contrast;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
     const auto [part, in_file_s] = concat->locate_s(m.offset_s * rate);
@@ -233,48 +256,19 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   std::sort(dets.begin(), dets.end(), [](const Detection& a, const Detection& b) { return a.aired_s < b.aired_s; });
 
   // 5. One airing per group of overlapping sibling detections.
-  std::vector<bool> taken(dets.size(), false);
-  for (size_t i = 0; i < dets.size(); ++i) {
-    if (taken[i]) continue;
-    std::vector<size_t> group{i};
-    taken[i] = true;
-    const double len_i = static_cast<double>(templates[dets[i].master].duration_s);
-    for (size_t j = i + 1; j < dets.size(); ++j) {
-      if (taken[j] || !fam.siblings(dets[i].master, dets[j].master)) continue;
-      const double len = std::min(len_i, templates[dets[j].master].duration_s);
-      if (std::fabs(dets[j].aired_s - dets[i].aired_s) > 0.5 * len) continue;
-      if (std::any_of(group.begin(), group.end(), [&](size_t g) { return dets[g].master == dets[j].master; })) continue;
-      group.push_back(j);
-      taken[j] = true;
-    }
-    size_t win = group[0];
+  std::vector<VersionInput> vin;
+  for (const auto& d : dets)
+    vin.push_back({d.master, d.aired_s, templates[d.master].duration_s, d.match.score, &d.profile});
+  VersionOptions vo;
+  vo.min_segment_score = o.verify.min_segment_score;
+  vo.margin = o.version_margin;
+  for (const VersionChoice& choice : choose_versions(vin, fam, vo)) {
     AiringRecord a;
-    if (group.size() > 1) {
-      double best = -2;
-      for (size_t g : group) {
-        std::vector<size_t> others;
-        for (size_t h : group)
-          if (h != g) others.push_back(dets[h].master);
-        const double s = mean_over(dets[g].profile, fam.distinguishing(dets[g].master, others));
-        a.versions.push_back({ids[dets[g].master], s});
-        if (s > best || (s == best && std::fabs(dets[g].match.score) > std::fabs(dets[win].match.score))) {
-          best = s;
-          win = g;
-        }
-      }
-    }
-    if (group.size() > 1) {
-      std::vector<double> sc;
-      for (const auto& v : a.versions) sc.push_back(v.score);
-      const double best = *std::max_element(sc.begin(), sc.end());
-      if (best < o.verify.min_segment_score) {
-        for (const auto& v : a.versions) a.undetermined_among.push_back(v.spot);
-      } else {
-        for (const auto& v : a.versions)
-          if (best - v.score < o.version_margin) a.undetermined_among.push_back(v.spot);
-        if (a.undetermined_among.size() < 2) a.undetermined_among.clear();
-      }
-    }
+    if (choice.members.size() > 1)
+      for (size_t k = 0; k < choice.members.size(); ++k)
+        a.versions.push_back({ids[dets[choice.members[k]].master], choice.distinguishing[k]});
+    for (size_t u : choice.undetermined) a.undetermined_among.push_back(ids[dets[u].master]);
+    const size_t win = choice.winner;
     const Detection& d = dets[win];
     a.spot = ids[d.master];
     a.recording = d.file;
@@ -285,6 +279,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     a.speed = d.match.speed;
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
+    a.foreground_contrast = d.foreground_contrast;
     a.profile = d.profile;
     a.run = d.run;
     a.run_offset_s = d.match.offset_s;

@@ -27,6 +27,7 @@
 #include "godwit/civil_time.h"
 #include "godwit/reconcile_job.h"
 #include "godwit/reconciler.h"
+#include "godwit/timeline_locate.h"
 
 using namespace godwit;
 using namespace godwit::synth;
@@ -209,16 +210,19 @@ int main(int argc, char** argv) {
   double hours = 6, file_min = 20;
   uint64_t seed = 1;
   std::string keep;
-  bool no_locate = false, verbose = false;
-  double threshold = -1, floor_k = -1;
+  bool no_locate = false, verbose = false, reuse = false;
+  double threshold = -1, floor_k = -1, min_airing = -1, deficit = -1;
   app.add_option("--hours", hours, "length of the day in hours (default 6)");
   app.add_option("--file-min", file_min, "length of each recording in minutes (default 20)");
   app.add_option("--seed", seed, "scenario seed (default 1)");
   app.add_option("--keep", keep, "write the scenario to this folder and keep it");
   app.add_flag("--no-locate", no_locate, "score reconcile only");
+  app.add_flag("--reuse", reuse, "with --keep: reuse the audio a previous run with the same seed and options wrote there");
   app.add_flag("--verbose", verbose, "list every planted airing and hard negative with what each command reported there");
   app.add_option("--threshold", threshold, "engine --threshold (default: the engine's)");
   app.add_option("--floor-k", floor_k, "engine --floor-k (default: the engine's)");
+  app.add_option("--min-airing-score", min_airing, "reconcile's min_airing_score (default: the engine's)");
+  app.add_option("--max-foreground-deficit", deficit, "reconcile's max_foreground_deficit (default: the engine's)");
   CLI11_PARSE(app, argc, argv);
   const fs::path dir = keep.empty() ? fs::temp_directory_path() / ("godwit-accuracy-" + std::to_string(seed)) : fs::path(keep);
 
@@ -226,6 +230,7 @@ int main(int argc, char** argv) {
   ao.hours = hours;
   ao.file_s = file_min * 60;
   ao.seed = seed;
+  ao.reuse = reuse && !keep.empty();
   ao.dir = dir.string();
   ao.log = [](const std::string& s) { std::fprintf(stderr, "accuracy_bench: %s\n", s.c_str()); };
   std::string err;
@@ -247,6 +252,8 @@ int main(int argc, char** argv) {
   o.locate.correlator.planner = Planner::estimate;
   if (threshold >= 0) o.locate.picker.threshold = threshold;
   if (floor_k >= 0) o.locate.picker.floor_k = floor_k;
+  if (min_airing >= 0) o.min_airing_score = min_airing;
+  if (deficit >= 0) o.max_foreground_deficit = deficit;
   auto t0 = std::chrono::steady_clock::now();
   auto res = run_reconcile(job, o);
   const double rec_wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
@@ -264,7 +271,7 @@ int main(int argc, char** argv) {
     for (const auto& m : day.masters) lj.templates.push_back(m.path);
     for (const auto& f : day.files) lj.recordings.push_back(f.path);
     t0 = std::chrono::steady_clock::now();
-    auto l = run_locate(lj, o.locate);
+    auto l = run_locate_job(lj, o.locate);
     loc_wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
     if (!l) {
       std::fprintf(stderr, "accuracy_bench: %s\n", l.error().describe().c_str());
@@ -298,7 +305,12 @@ int main(int argc, char** argv) {
     for (const auto& f : day.files) start_of[f.path] = f.start_s;
     std::vector<Reported> loc_reports;
     for (const auto& m : loc->matches) {
-      Reported x{m.template_id, start_of[m.recording] + m.offset_s, m.speed, -1, std::vector<std::string>{}, m.recording};
+      std::vector<std::string> undetermined;
+      if (m.version_undetermined) {
+        undetermined.push_back(m.template_id);
+        for (const auto& a : m.alternatives) undetermined.push_back(a.template_id);
+      }
+      Reported x{m.template_id, start_of[m.recording] + m.offset_s, m.speed, -1, undetermined, m.recording};
       loc_reports.push_back(x);
     }
     print_scored("locate: matches (siblings beside an airing count as false alarms)", score(day, loc_reports, true), hours,
@@ -318,7 +330,8 @@ int main(int argc, char** argv) {
       const double tol = p.kind == PlantKind::airing ? 0.5 : 0.5 * m.duration_s + 1;
       for (const auto& a : r.airings)
         if (std::fabs(a.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f", a.spot.c_str(), a.score, a.coverage, a.speed);
+          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f dt %+.3f ms", a.spot.c_str(),
+                        a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), (a.aired_s - start) * 1e3);
           line += buf;
         }
       if (loc) {

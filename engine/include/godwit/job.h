@@ -67,6 +67,18 @@ struct Match {
   // master / speed, pitch * speed); 1 when unchanged.
   double speed = 1;
   bool refined = false;   // offset refined at the recording's native rate
+  // Sibling versions also detected at this airing (version_choice.h), with
+  // their scores; this match is the version whose distinguishing audio
+  // matched best. `version_undetermined`: that audio did not air (or
+  // matched alike), so the alternatives fit as well as this one.
+  struct Alternative {
+    std::string template_id;
+    double score = 0;           // its detection score
+    double distinguishing = 0;  // mean segment score over its distinguishing audio
+  };
+  std::vector<Alternative> alternatives;
+  double distinguishing = 0;    // this version's, when alternatives exist
+  bool version_undetermined = false;
 };
 
 struct RecordingReport {
@@ -93,6 +105,7 @@ struct LocateResult {
   std::vector<TemplateReport> templates;
   std::vector<RecordingReport> recordings;
   std::vector<Match> matches;  // by recording (job order), then offset
+  size_t unconfirmed = 0;      // detections that failed the confirmation (timeline_locate.h)
   bool complete() const {
     for (const auto& r : recordings)
       if (r.error) return false;

@@ -11,6 +11,7 @@
 #pragma once
 
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "godwit/civil_time.h"
@@ -28,6 +29,18 @@ struct TimelineFile {
 struct TimelineRun {
   std::vector<TimelineFile> files;  // consecutive; rates and codecs may differ
   LocalSeconds start_s() const { return files.front().start_s + files.front().skip_s; }
+  // Where `t_s` seconds into the run's stream lies: file index and seconds
+  // from that file's own start (negative before the first file began,
+  // beyond its length after the last one ended).
+  std::pair<size_t, double> locate_s(double t_s) const {
+    size_t i = 0;
+    for (; i + 1 < files.size(); ++i) {
+      const double len = files[i].duration_s - files[i].skip_s;
+      if (t_s < len) break;
+      t_s -= len;
+    }
+    return {i, files[i].skip_s + t_s};
+  }
 };
 
 struct TimelineIssue {
