@@ -13,7 +13,7 @@
 namespace godwit {
 
 struct EngineArgs {
-  double threshold = 0.4;
+  double threshold = 0.3;
   double floor_k = 10;
   double rate_hz = 8000;
   int channel = -1;

@@ -150,7 +150,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
     return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
                                            std::to_string(config_.max_templates) + " per job", "", std::nullopt};
   out["templates"] = templates;
-  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.4}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
+  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.3}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
     auto v = number_in(job, field, lo, hi, dflt);
     if (!v) return v.error();
     out[field] = v.value();

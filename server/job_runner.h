@@ -9,7 +9,7 @@
 //
 // Job object:
 //   {"kind": "locate", "templates": [paths], "library": "DIR", "recordings": [paths],
-//    "threshold": 0.4, "floor_k": 10, "fft_size": 0,
+//    "threshold": 0.3, "floor_k": 10, "fft_size": 0,
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
 //   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60}
 // and, from the queue only (never prepared): a task of a distributed job,

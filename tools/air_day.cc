@@ -263,6 +263,45 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
     if (p.first_file >= 0) p.conditions.push_back("in " + day.files[static_cast<size_t>(p.first_file)].codec);
   }
 
+  // The chain's delay for each airing, at the rate of its first file.
+  for (auto& p : day.planted) {
+    if (p.kind != PlantKind::airing || p.first_file < 0) continue;
+    const AirMaster& m = day.masters[p.master];
+    const double R = day.files[static_cast<size_t>(p.first_file)].rate_hz;
+    const Samples head(m.audio.begin(), m.audio.begin() + static_cast<long>(std::min(m.audio.size(), static_cast<size_t>(4 * m.rate_hz))));
+    AirChain c = p.chain;
+    c.coverage = 1;
+    const Samples out = render_chain(head, m.rate_hz, c, R);
+    const Samples ref = resample_all(head, m.rate_hz * p.chain.speed, R);
+    const auto from = static_cast<long>(1.0 * R), to = static_cast<long>(std::min<double>(3.0 * R, static_cast<double>(ref.size()) - 0.01 * R));
+    const long max_lag = static_cast<long>(0.004 * R);
+    auto corr = [&](long lag) {
+      double xy = 0, xx = 0, yy = 0;
+      for (long i = from; i < to; ++i) {
+        const long j = i + lag;
+        if (j < 0 || j >= static_cast<long>(out.size())) continue;
+        xy += static_cast<double>(ref[static_cast<size_t>(i)]) * out[static_cast<size_t>(j)];
+        xx += static_cast<double>(ref[static_cast<size_t>(i)]) * ref[static_cast<size_t>(i)];
+        yy += static_cast<double>(out[static_cast<size_t>(j)]) * out[static_cast<size_t>(j)];
+      }
+      return xx > 0 && yy > 0 ? std::fabs(xy) / std::sqrt(xx * yy) : 0.0;
+    };
+    long best = 0;
+    double best_c = -1;
+    std::vector<double> cs(static_cast<size_t>(2 * max_lag + 1));
+    for (long lag = -max_lag; lag <= max_lag; ++lag) {
+      cs[static_cast<size_t>(lag + max_lag)] = corr(lag);
+      if (cs[static_cast<size_t>(lag + max_lag)] > best_c) best_c = cs[static_cast<size_t>(lag + max_lag)], best = lag;
+    }
+    double frac = 0;
+    if (best > -max_lag && best < max_lag) {
+      const double a = cs[static_cast<size_t>(best - 1 + max_lag)], b = best_c, d = cs[static_cast<size_t>(best + 1 + max_lag)];
+      const double den = a - 2 * b + d;
+      if (den < 0) frac = 0.5 * (a - d) / den;
+    }
+    p.chain_delay_s = (static_cast<double>(best) + frac) / R;
+  }
+
   // Render each file at its rate.
   std::map<std::pair<size_t, double>, Samples> clips;  // (planted, rate) -> clip
   for (size_t k = 0; k < day.files.size(); ++k) {

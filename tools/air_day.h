@@ -55,6 +55,11 @@ struct Planted {
   LocalSeconds aired_s = 0;  // wall time of the master's first sample (may be before the recordings)
   double on_air_s = 0;       // its length on air (after speed change and truncation)
   AirChain chain;
+  // How late the chain's filters deliver the audio (minimum-phase EQ, a
+  // telephone band: up to 1.5 ms), measured on the noiseless chain output
+  // at its first file's rate by a direct cross-correlation with the master
+  // (parabolic peak); the airing is heard at aired_s + chain_delay_s.
+  double chain_delay_s = 0;
   double coverage = 1;       // fraction of the master that aired and was recorded
   std::string cut;           // "", "truncated", "recording_start", "recording_end", "gap"
   bool straddle = false;     // crosses the boundary between two recordings

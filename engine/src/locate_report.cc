@@ -53,6 +53,12 @@ nlohmann::json locate_to_json(const LocateResult& r, bool exact) {
                      {"polarity", m.polarity},
                      {"speed", round_decimals(m.speed, 6)},
                      {"refined", m.refined}};
+    if (m.coverage) {
+      x["coverage"] = round_decimals(*m.coverage, 4);
+      nlohmann::json missing = nlohmann::json::array();
+      for (const auto& [from, to] : m.missing_s) missing.push_back({round_decimals(from, 3), round_decimals(to, 3)});
+      x["missing_s"] = std::move(missing);
+    }
     if (!m.alternatives.empty()) {
       x["distinguishing_score"] = round_decimals(m.distinguishing, 4);
       x["version_undetermined"] = m.version_undetermined;
@@ -101,6 +107,9 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
       m.refined = x.value("refined", false);
       m.distinguishing = x.value("distinguishing_score", 0.0);
       m.version_undetermined = x.value("version_undetermined", false);
+      if (x.contains("coverage")) m.coverage = x.at("coverage").get<double>();
+      if (x.contains("missing_s"))
+        for (const auto& r : x.at("missing_s")) m.missing_s.emplace_back(r.at(0).get<double>(), r.at(1).get<double>());
       if (x.contains("alternatives"))
         for (const auto& a : x.at("alternatives"))
           m.alternatives.push_back({a.at("template").get<std::string>(), a.at("score").get<double>(),

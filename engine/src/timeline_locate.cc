@@ -57,6 +57,10 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
         ++rejected;
         continue;
       }
+      if (ev[k]) {
+        matches[which[k]].coverage = ev[k]->profile.coverage;
+        matches[which[k]].missing_s = ev[k]->profile.missing_s;
+      }
       evidence[which[k]] = std::move(ev[k]);
     }
   }

@@ -77,6 +77,11 @@ struct Match {
     double distinguishing = 0;  // mean segment score over its distinguishing audio
   };
   std::vector<Alternative> alternatives;
+  // From the confirmation (timeline_locate.h): the fraction of the master
+  // that aired and was recorded, and the parts that did not ([from, to) in
+  // master seconds: a cut, the edge of the recordings, a gap).
+  std::optional<double> coverage;
+  std::vector<std::pair<double, double>> missing_s;
   double distinguishing = 0;    // this version's, when alternatives exist
   bool version_undetermined = false;
 };
