@@ -8,7 +8,7 @@ namespace godwit {
 
 QueueWorker::QueueWorker(QueueUrl url, QueueOptions options, const JobRunner& runner, size_t threads, std::string name)
     : url_(std::move(url)), options_(options), runner_(runner), threads_n_(std::max<size_t>(1, threads)),
-      name_(std::move(name)), running_(threads_n_) {}
+      name_(std::move(name)), running_(threads_n_), entries_(threads_n_) {}
 
 QueueWorker::~QueueWorker() { stop(); }
 
@@ -35,10 +35,27 @@ nlohmann::json QueueWorker::state() const {
 void QueueWorker::heartbeat_loop() {
   TaskQueue q(url_, name_, options_);
   auto next = std::chrono::steady_clock::now();
+  auto next_keep = next;
+  // The tasks running here are claimed afresh well within claim_idle_s, so
+  // that a long task is not taken by another worker while this one lives;
+  // a worker that dies stops doing it, and its tasks are reclaimed.
+  const double keep_s = std::min(options_.heartbeat_s, options_.claim_idle_s / 3);
   while (!stop_.load()) {
-    if (std::chrono::steady_clock::now() >= next) {
+    const auto now = std::chrono::steady_clock::now();
+    if (now >= next) {
       if (auto st = q.heartbeat(state()); !st) spdlog::debug("queue heartbeat: {}", st.error().message);
-      next = std::chrono::steady_clock::now() + std::chrono::milliseconds(static_cast<long>(options_.heartbeat_s * 1000));
+      next = now + std::chrono::milliseconds(static_cast<long>(options_.heartbeat_s * 1000));
+    }
+    if (now >= next_keep) {
+      std::vector<std::pair<std::string, std::string>> held;  // consumer, entry
+      {
+        std::lock_guard lock(mu_);
+        for (size_t i = 0; i < entries_.size(); ++i)
+          if (!entries_[i].empty()) held.emplace_back(name_ + "/" + std::to_string(i), entries_[i]);
+      }
+      for (const auto& [consumer, entry] : held)
+        if (auto st = q.keep(consumer, entry); !st) spdlog::debug("queue keep-alive: {}", st.error().message);
+      next_keep = now + std::chrono::milliseconds(static_cast<long>(keep_s * 1000));
     }
     std::this_thread::sleep_for(std::chrono::milliseconds(100));
   }
@@ -78,6 +95,7 @@ void QueueWorker::loop(size_t slot) {
     {
       std::lock_guard lock(mu_);
       running_[slot] = task.task;
+      entries_[slot] = task.entry;
     }
     spdlog::info("task {} of job {} started (attempt {})", task.task, task.job, task.attempt);
     // Cancellation of the job is checked every two seconds at most.
@@ -102,6 +120,7 @@ void QueueWorker::loop(size_t slot) {
     {
       std::lock_guard lock(mu_);
       running_[slot].clear();
+      entries_[slot].clear();
     }
     Status st = ok_status();
     if (result) {

@@ -46,6 +46,7 @@ class QueueWorker {
   std::vector<std::thread> threads_;
   mutable std::mutex mu_;
   std::vector<std::string> running_;  // GUARDED_BY(mu_): task id per slot ("" idle)
+  std::vector<std::string> entries_;  // GUARDED_BY(mu_): its stream entry per slot ("" idle)
   size_t done_ = 0, failed_ = 0;      // GUARDED_BY(mu_)
 };
 

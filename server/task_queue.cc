@@ -199,6 +199,16 @@ Status TaskQueue::forget(const std::string& job, const std::vector<PlannedTask>&
   return ok_status();
 }
 
+Status TaskQueue::keep(const std::string& consumer, const std::string& entry) {
+  // Only while `consumer` holds it: XPENDING for that entry and consumer.
+  auto p = redis_.command({"XPENDING", stream_, kGroup, entry, entry, "1", consumer});
+  if (!p) return p.error();
+  if (p.value().type != RedisReply::Type::array || p.value().elements.empty()) return ok_status();
+  auto c = redis_.command({"XCLAIM", stream_, kGroup, consumer, "0", entry, "JUSTID"});
+  if (!c) return c.error();
+  return ok_status();
+}
+
 Status TaskQueue::heartbeat(const nlohmann::json& state) {
   nlohmann::json s = state;
   s["worker"] = consumer_;

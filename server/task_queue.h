@@ -72,6 +72,10 @@ class TaskQueue {
   Status forget(const std::string& job, const std::vector<PlannedTask>& tasks);
 
   Status heartbeat(const nlohmann::json& state);
+  // Resets the idle time of `entry`, pending on `consumer` (XCLAIM ... 0
+  // JUSTID), while that consumer still holds it; an entry another consumer
+  // has reclaimed meanwhile is left to it.
+  Status keep(const std::string& consumer, const std::string& entry);
   // {"workers": [heartbeat...], "pending": N, "lag": N, "dead": N, "stream": S}
   Result<nlohmann::json> cluster();
 

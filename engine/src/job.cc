@@ -249,13 +249,15 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
 
     AnalysisStream stream(src, o.analysis_rate_hz);
     Samples block;
-    // Silence of half the longest master before and after the recording,
-    // so that an airing cut by its start or end is scored on the half or
-    // more that was recorded; offsets are counted from the recording's
-    // first sample (negative for an airing that began before it).
+    // Silence of the longest master's length before and after the
+    // recording, so that an airing cut by its start or end is scored on
+    // the part that was recorded, however small (whether it then clears
+    // the threshold does not depend on which other masters share the
+    // search); offsets are counted from the recording's first sample
+    // (negative for an airing that began before it).
     size_t longest = 0;
     for (const auto& t : bank->templates()) longest = std::max(longest, t.len_samples);
-    const Samples edge(longest / 2, 0.0f);
+    const Samples edge(longest, 0.0f);
     const auto pad = static_cast<int64_t>(edge.size());
     correlator.push(edge.data(), edge.size(), sink);
     if (speed_pass) speed_pass->push(edge.data(), edge.size());
