@@ -1,6 +1,37 @@
 #include "dispatcher.h"
 
+#include <algorithm>
+
 namespace godwit {
+namespace {
+
+// Deepest nesting of arrays and objects in the JSON text `line` (brackets
+// inside strings do not count), or `limit` + 1 as soon as it goes deeper:
+// checked before parsing, because copying, dumping or comparing a deeply
+// nested value recurses once per level and would overflow the stack.
+size_t nesting_depth(std::string_view line, size_t limit) {
+  size_t depth = 0, deepest = 0;
+  bool in_string = false, escaped = false;
+  for (const char ch : line) {
+    if (in_string) {
+      if (escaped) escaped = false;
+      else if (ch == '\\') escaped = true;
+      else if (ch == '"') in_string = false;
+      continue;
+    }
+    if (ch == '"') {
+      in_string = true;
+    } else if (ch == '[' || ch == '{') {
+      deepest = std::max(deepest, ++depth);
+      if (deepest > limit) return deepest;
+    } else if ((ch == ']' || ch == '}') && depth > 0) {
+      --depth;
+    }
+  }
+  return deepest;
+}
+
+}  // namespace
 
 bool constant_time_equal(std::string_view a, std::string_view b) {
   // Length is not secret; the contents are compared without early exit.
@@ -27,6 +58,10 @@ nlohmann::json Dispatcher::error_response(ErrorCode code, const std::string& mes
 }
 
 Reply Dispatcher::handle(std::string_view line) const {
+  if (nesting_depth(line, kMaxRequestDepth) > kMaxRequestDepth)
+    return {error_response(ErrorCode::bad_request,
+                           "a request nests arrays and objects over " + std::to_string(kMaxRequestDepth) + " deep"),
+            false, {}};
   nlohmann::json req;
   try {
     req = nlohmann::json::parse(line);
@@ -34,6 +69,13 @@ Reply Dispatcher::handle(std::string_view line) const {
     return {error_response(ErrorCode::bad_request, "not a JSON object on one line"), false, {}};
   }
   if (!req.is_object()) return {error_response(ErrorCode::bad_request, "a request is a JSON object"), false, {}};
+  if (const auto id = req.find("id"); id != req.end()) {
+    const bool fits = id->is_number() || (id->is_string() && id->get_ref<const std::string&>().size() <= kMaxIdBytes);
+    if (!fits)
+      return {error_response(ErrorCode::bad_request,
+                             "'id' must be a number or a string of at most " + std::to_string(kMaxIdBytes) + " bytes"),
+              false, {}};
+  }
   Reply r;
   {
     std::string token;

@@ -1,7 +1,10 @@
 // Dispatcher: one request line in, one response object out. Knows no
 // sockets: the session frames lines and writes what this returns.
 //
-// Requests: {"op": "...", "id": any (echoed), "token": "..." (when required), ...}
+// Requests: {"op": "...", "id": number or string (echoed), "token": "..." (when required), ...}
+// A request nesting arrays and objects over kMaxRequestDepth deep, or whose
+// id is anything else or a string over kMaxIdBytes, is refused
+// (bad_request, no id echoed) before anything else is looked at.
 //   submit {job}            -> {"ok":true,"job":"<id>"}          errors: bad_request, forbidden, busy, too_large, ...
 //   status {job}            -> {"ok":true,"job","state","progress", "error"?}
 //   result {job}            -> {"ok":true,"job","result":{...}}  (job done)
@@ -35,6 +38,8 @@ struct Reply {
 
 class Dispatcher {
  public:
+  static constexpr size_t kMaxRequestDepth = 32;
+  static constexpr size_t kMaxIdBytes = 256;
   Dispatcher(JobStore& store, const JobRunner& runner, size_t workers);
   // Empty token: none required.
   void set_token(std::string token);

@@ -393,6 +393,38 @@ class DaemonTests(unittest.TestCase):
         with open(report[: -len(".json")] + ".html") as f:
             self.assertEqual(f.read().count('class="placement"'), len(doc["placements"]))
 
+    # Hostile input (issue 14). Each test reproduced its defect before the fix.
+
+    def token_daemon(self, **kw):
+        tok = os.path.join(self.tmp, "token")
+        with open(tok, "w") as f:
+            f.write("correct-horse-battery-staple\n")
+        return self.start(args=("--token-file", tok, *kw.pop("args", ())), **kw), "correct-horse-battery-staple"
+
+    def test_deeply_nested_id_without_token_is_refused_and_the_daemon_lives(self):
+        d, token = self.token_daemon()
+        c = d.connect()
+        deep = 100000
+        c.send_raw(b'{"op":"health","id":' + b"[" * deep + b"]" * deep + b"}\n")
+        r = c.read()
+        self.assertIsNotNone(r, "the daemon closed the connection (crashed?)")
+        self.assertEqual(r["error"]["code"], "bad_request")
+        self.assertIn("nest", r["error"]["message"])
+        self.assertNotIn("id", r)
+        # Deep nesting elsewhere in a request, and in objects, too.
+        c.send_raw(b'{"op":"health","x":' + b'{"a":' * deep + b"1" + b"}" * deep + b"}\n")
+        self.assertEqual(c.read()["error"]["code"], "bad_request")
+        # Brackets inside strings do not count.
+        self.assertTrue(c.req({"op": "health", "token": token, "id": "[" * 200})["ok"])
+        # Ids are a string of bounded size or a number.
+        for bad_id in [[1], {"a": 1}, "x" * 5000, True, None]:
+            r = c.req({"op": "health", "token": token, "id": bad_id})
+            self.assertEqual(r["error"]["code"], "bad_request", bad_id)
+            self.assertNotIn("id", r)
+        self.assertEqual(c.req({"op": "health", "token": token, "id": 7})["id"], 7)
+        self.assertIsNone(d.proc.poll(), "godwitd died")
+        self.assertTrue(d.connect().req({"op": "health", "token": token})["ok"])
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
