@@ -14,6 +14,7 @@
 #include "godwit/civil_time.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace fs = std::filesystem;
@@ -66,10 +67,20 @@ void DropFolder::stop() {
 
 void DropFolder::loop() {
   const fs::path incoming = fs::path(o_.dir) / "incoming", work = fs::path(o_.dir) / "work";
-  // Claimed before a crash: run again.
+  // Claimed before a crash: run again (under a name JSON can carry, for
+  // files claimed before names were made so).
   std::error_code ec;
-  for (fs::directory_iterator it(work, ec), end; !ec && it != end && !stop_; it.increment(ec))
-    if (it->is_regular_file()) process(it->path().filename().string());
+  std::vector<std::string> left;
+  for (fs::directory_iterator it(work, ec), end; !ec && it != end; it.increment(ec))
+    if (it->is_regular_file()) left.push_back(it->path().filename().string());
+  for (const auto& name : left) {
+    if (stop_) break;
+    const std::string safe = escape_invalid_utf8(name);
+    std::error_code rc;
+    if (safe != name) fs::rename(work / name, work / safe, rc);
+    if (rc) spdlog::warn("drop folder: cannot rename {}: {}", safe, rc.message());
+    else process(safe);
+  }
 
   std::map<std::string, Seen> seen;
   std::set<std::string> ready;
@@ -116,20 +127,35 @@ void DropFolder::loop() {
       if (stop_) break;
       if (!present.count(name)) continue;
       std::error_code rc;
-      fs::rename(incoming / name, work / name, rc);  // the claim
+      // Claimed under a name JSON can carry: bytes that are not UTF-8 as %XX.
+      const std::string claimed = escape_invalid_utf8(name);
+      fs::rename(incoming / name, work / claimed, rc);  // the claim
       if (rc) {
-        spdlog::warn("drop folder: cannot claim {}: {}", name, rc.message());
+        spdlog::warn("drop folder: cannot claim {}: {}", claimed, rc.message());
         continue;
       }
       seen.erase(name);
       preexisting.erase(name);
-      process(name);
+      process(claimed);
     }
     ready.clear();
   }
 }
 
 void DropFolder::process(const std::string& name) {
+  try {
+    process_file(name);
+  } catch (const std::exception& e) {  // a bug: this file fails, the daemon carries on
+    spdlog::error("drop folder: {} failed: internal error: {}", name, e.what());
+    const fs::path base(o_.dir);
+    std::error_code ec;
+    fs::rename(base / "work" / name, base / "failed" / name, ec);
+    (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(),
+                                json_text({{"code", "internal"}, {"message", e.what()}, {"file", name}}, 2) + "\n");
+  }
+}
+
+void DropFolder::process_file(const std::string& name) {
   const fs::path base(o_.dir);
   const std::string path = (base / "work" / name).string();
   spdlog::info("drop folder: processing {}", name);
@@ -157,7 +183,7 @@ void DropFolder::process(const std::string& name) {
       }
   }
   if (doc) {
-    if (auto st = write_file_atomically((base / "results" / (name + ".json")).string(), doc.value().dump(2) + "\n"); !st) {
+    if (auto st = write_file_atomically((base / "results" / (name + ".json")).string(), json_text(doc.value(), 2) + "\n"); !st) {
       failed = true;
       reason = st.error().describe();
     }
@@ -170,7 +196,7 @@ void DropFolder::process(const std::string& name) {
   }
   nlohmann::json err = doc ? nlohmann::json{{"code", "corrupt"}, {"message", reason}} : error_to_json(doc.error());
   err["file"] = name;
-  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), err.dump(2) + "\n");
+  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   fs::rename(path, base / "failed" / name, ec);
   spdlog::warn("drop folder: {} failed: {}", name, err.value("message", ""));
 }
@@ -213,7 +239,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   const std::string out = (fs::path(o_.dir) / "results" / (fs::path(schedule).stem().string() + ".reconcile.json")).string();
   const std::string out_html = out.substr(0, out.size() - 5) + ".html";
   if (auto st = write_file_atomically(out_html, html); !st) spdlog::warn("drop folder: {}", st.error().describe());
-  if (auto st = write_file_atomically(out, doc.value().dump(2) + "\n"); !st)
+  if (auto st = write_file_atomically(out, json_text(doc.value(), 2) + "\n"); !st)
     spdlog::warn("drop folder: {}", st.error().describe());
   else
     spdlog::info("drop folder: {} reconciled over {} recording(s)", day, recordings.size());

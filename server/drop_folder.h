@@ -53,7 +53,9 @@ class DropFolder {
 
  private:
   void loop();
+  // Runs process_file(); an exception fails that file, not the daemon.
   void process(const std::string& name);
+  void process_file(const std::string& name);
   void reconcile_day(const std::string& name);
   DropOptions o_;
   const JobRunner& runner_;

@@ -22,6 +22,7 @@
 #include "queue_worker.h"
 #include "server.h"
 #include "worker_pool.h"
+#include "json_text.h"
 
 using namespace godwit;
 
@@ -214,7 +215,7 @@ int main(int argc, char** argv) {
     }
   }
   // Machine-readable first line for supervisors and tests.
-  std::cout << nlohmann::json{{"listening", host}, {"port", server->port()}}.dump() << std::endl;
+  std::cout << json_text(nlohmann::json{{"listening", host}, {"port", server->port()}}) << std::endl;
   spdlog::info("godwitd listening on {}:{} (state {}, {} worker(s), {} root(s))", host, server->port(), cfg.state_dir,
                cfg.workers, cfg.roots.size());
 

@@ -4,6 +4,7 @@
 #include <random>
 
 #include "atomic_file.h"
+#include "json_text.h"
 #include "base64.h"
 #include "godwit/html_report.h"
 #include "godwit/job.h"
@@ -147,6 +148,12 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   if (templates.size() > config_.max_templates)
     return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
                                            std::to_string(config_.max_templates) + " per job", "", std::nullopt};
+  // The journal and the queue carry paths as JSON text, which holds only
+  // UTF-8: such a file could not be found again after a restart.
+  for (const auto& t : templates)
+    if (!is_valid_utf8(t))
+      return Error{ErrorCode::unsupported,
+                   "file name is not valid UTF-8 (rename the file): " + escape_invalid_utf8(t), "", std::nullopt};
   out["templates"] = templates;
   for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.4}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
     auto v = number_in(job, field, lo, hi, dflt);

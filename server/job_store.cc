@@ -12,6 +12,7 @@
 #include <sstream>
 
 #include "atomic_file.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -111,7 +112,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
 }
 
 Status JobStore::append(const nlohmann::json& line) {
-  const std::string text = line.dump() + "\n";
+  const std::string text = json_text(line) + "\n";
   size_t done = 0;
   while (done < text.size()) {
     const ssize_t n = ::write(journal_fd_, text.data() + done, text.size() - done);
@@ -263,7 +264,7 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
 }
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {
-  if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", result.dump() + "\n"); !st) {
+  if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", json_text(result) + "\n"); !st) {
     fail(id, {{"code", "io"}, {"message", st.error().describe()}});
     return;
   }

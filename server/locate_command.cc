@@ -9,6 +9,7 @@
 #include "godwit/job.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -50,7 +51,7 @@ int run(const LocateArgs& a) {
     return fail(result.error());
   }
   const LocateResult& r = result.value();
-  const std::string doc = a.format == "csv" ? locate_to_csv(r) : locate_to_json(r).dump(2) + "\n";
+  const std::string doc = a.format == "csv" ? locate_to_csv(r) : json_text(locate_to_json(r), 2) + "\n";
   if (a.out.empty() || a.out == "-") {
     std::fwrite(doc.data(), 1, doc.size(), stdout);
     if (std::fflush(stdout) != 0) return fail({ErrorCode::io, "cannot write to standard output", "", {}});

@@ -6,6 +6,7 @@
 #include <deque>
 
 #include "line_framer.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -56,14 +57,13 @@ class Session : public std::enable_shared_from_this<Session> {
       last_byte_ = Clock::now();
       for (auto& ev : framer_.feed(std::string_view(buf_.data(), n))) {
         if (ev.kind == LineFramer::Event::too_long) {
-          send(Dispatcher::error_response(ErrorCode::too_large, "request line over " +
-                                                                    std::to_string(limits_.max_line_bytes) + " bytes")
-                   .dump());
+          send(json_text(Dispatcher::error_response(
+              ErrorCode::too_large, "request line over " + std::to_string(limits_.max_line_bytes) + " bytes")));
           continue;
         }
         if (ev.text.empty()) continue;
         Reply r = dispatcher_.handle(ev.text);
-        send(r.response.dump());
+        send(json_text(r.response));
         if (r.watch) subscribe(r.watch_job);
       }
       line_started_ = framer_.pending() > 0 ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
@@ -77,7 +77,7 @@ class Session : public std::enable_shared_from_this<Session> {
     auto exec = socket_.get_executor();
     subscription_ = store_.subscribe([weak, exec, job](const nlohmann::json& ev) {
       if (!job.empty() && ev.value("job", "") != job) return;
-      boost::asio::post(exec, [weak, line = ev.dump()]() mutable {
+      boost::asio::post(exec, [weak, line = json_text(ev)]() mutable {
         if (auto s = weak.lock()) s->send(std::move(line));
       });
     });
@@ -164,7 +164,7 @@ void Server::accept() {
     if (!ec) {
       if (*connections_ >= limits_.max_connections) {
         auto line = std::make_shared<std::string>(
-            Dispatcher::error_response(ErrorCode::busy, "too many connections").dump() + "\n");
+            json_text(Dispatcher::error_response(ErrorCode::busy, "too many connections")) + "\n");
         auto sock = std::make_shared<tcp::socket>(std::move(socket));
         boost::asio::async_write(*sock, boost::asio::buffer(*line), [sock, line](boost::system::error_code, size_t) {
           boost::system::error_code ignored;

@@ -113,6 +113,17 @@ class DemoLocate(unittest.TestCase):
         p = run("locate", "--library", self.lib, "--recording", "/nonexistent/h06.flac", *self.common, check=3)
         self.assertIn("/nonexistent/h06.flac", p.stderr)
 
+    def test_library_file_name_that_is_not_utf8(self):
+        lib = os.path.join(os.fsencode(self.tmp.name), b"lib-latin1")
+        os.makedirs(lib, exist_ok=True)
+        with open(os.path.join(self.lib, "marlow-bakery.wav"), "rb") as src, \
+                open(os.path.join(lib, b"marl\xf6w-bakery.wav"), "wb") as dst:
+            dst.write(src.read())
+        p = run("locate", "--library", os.fsdecode(lib), "--recording", self.rec, *self.common, check=0)
+        doc = json.loads(p.stdout)
+        self.assertEqual([t["id"] for t in doc["templates"]], ["marl\ufffdw-bakery"])
+        self.assertIn(37.25, [m["offset_s"] for m in doc["matches"]])
+
     def test_usage_errors_exit_2(self):
         run("locate", "--recording", self.rec, *self.common, check=2)  # no templates
         run("locate", "--library", self.lib, *self.common, check=2)  # no recordings

@@ -425,6 +425,39 @@ class DaemonTests(unittest.TestCase):
         self.assertIsNone(d.proc.poll(), "godwitd died")
         self.assertTrue(d.connect().req({"op": "health", "token": token})["ok"])
 
+    def test_file_names_that_are_not_utf8(self):
+        bad = b"h\xe9-0600.flac"  # Latin-1, as some loggers write
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("work", "incoming"):
+            os.makedirs(os.path.join(drop, sub))
+        # Left in work/ by an earlier run: it aborted every start.
+        shutil.copy(DEMO_RECS[0], os.path.join(os.fsencode(drop), b"work", bad))
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", os.path.join(os.fsencode(lib), b"marl\xf6w.wav"))
+        d = self.start(args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        tmpname = os.path.join(os.fsencode(drop), b"incoming", b".x")
+        shutil.copy(DEMO_RECS[1], tmpname)
+        os.rename(tmpname, os.path.join(os.fsencode(drop), b"incoming", b"h\xe9-0605.flac"))
+        results = os.path.join(drop, "results")
+        want = {"h%E9-0600.flac.json", "h%E9-0605.flac.json"}
+        end = time.time() + 120
+        while time.time() < end and not want <= set(os.listdir(results)):
+            self.assertIsNone(d.proc.poll(), "godwitd died")
+            time.sleep(0.2)
+        self.assertTrue(want <= set(os.listdir(results)), os.listdir(results))
+        with open(os.path.join(results, "h%E9-0600.flac.json")) as f:
+            self.assertGreaterEqual(len(json.load(f)["matches"]), 3)
+        self.assertEqual(sorted(os.listdir(os.path.join(drop, "done"))), ["h%E9-0600.flac", "h%E9-0605.flac"])
+        # A library holding such a name: a clear error, not an exception's text.
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertFalse(r["ok"], r)
+        self.assertEqual(r["error"]["code"], "unsupported")
+        self.assertIn("UTF-8", r["error"]["message"])
+        self.assertNotIn("json.exception", r["error"]["message"])
+        self.assertTrue(c.req({"op": "health"})["ok"])
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
