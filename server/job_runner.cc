@@ -12,6 +12,7 @@
 #include "godwit/reconcile_job.h"
 #include "godwit/reconcile_report.h"
 #include "library_scan.h"
+#include "repair_report.h"
 #include "reconcile_inputs.h"
 #include "segment_task.h"
 
@@ -195,6 +196,7 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
   r.options.locate.correlator.threads = config_.threads_per_job;
   r.options.locate.correlator.planner = config_.planner;
   r.options.locate.on_diagnostic = warn;
+  r.options.locate.opener = reporting_opener(r.options.locate.opener, warn);
   apply_search_fields(spec, r.options.locate);
   r.title = std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string();
   return r;
@@ -232,6 +234,7 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
   lo.should_stop = should_stop;
   lo.on_diagnostic = warn;
+  lo.opener = reporting_opener(lo.opener, warn);
   apply_search_fields(spec, lo);
   const auto templates = spec.at("templates").get<std::vector<std::string>>();
   if (kind == "segment") {

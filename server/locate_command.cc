@@ -64,7 +64,11 @@ int run(const LocateArgs& a) {
     std::cerr << "godwit: " << r.matches.size() << " match(es) in " << r.recordings.size() << " recording(s)"
               << (failed ? ", " + std::to_string(failed) + " with errors (see \"error\" in the output)" : "")
               << "\n";
-  if (failed == r.recordings.size()) return 3;
+  // 3 when nothing could be read at all; a recording that broke part way
+  // was read up to its break, and its matches are in the output.
+  bool any_audio = false;
+  for (const auto& rec : r.recordings) any_audio = any_audio || rec.duration_s > 0;
+  if (failed == r.recordings.size() && !any_audio) return 3;
   return failed ? 4 : 0;
 }
 
