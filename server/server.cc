@@ -17,9 +17,10 @@ using Clock = std::chrono::steady_clock;
 class Session : public std::enable_shared_from_this<Session> {
  public:
   Session(tcp::socket socket, Dispatcher& d, JobStore& store, const ServerLimits& limits,
-          std::shared_ptr<size_t> counter)
+          std::shared_ptr<size_t> counter, boost::asio::thread_pool& handlers)
       : socket_(std::move(socket)),
         timer_(socket_.get_executor()),
+        handlers_(handlers),
         dispatcher_(d),
         store_(store),
         limits_(limits),
@@ -56,19 +57,44 @@ class Session : public std::enable_shared_from_this<Session> {
       if (ec) return close();
       last_byte_ = Clock::now();
       for (auto& ev : framer_.feed(std::string_view(buf_.data(), n))) {
-        if (ev.kind == LineFramer::Event::too_long) {
-          send(json_text(Dispatcher::error_response(
-              ErrorCode::too_large, "request line over " + std::to_string(limits_.max_line_bytes) + " bytes")));
-          continue;
-        }
-        if (ev.text.empty()) continue;
-        Reply r = dispatcher_.handle(ev.text);
-        send(json_text(r.response));
-        if (r.watch) subscribe(r.watch_job);
+        if (ev.kind == LineFramer::Event::line && ev.text.empty()) continue;
+        lines_.push_back(std::move(ev));
       }
       line_started_ = framer_.pending() > 0 ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
-      if (!closed_) read();
+      if (closed_) return;
+      if (lines_.empty()) read();
+      else handle_next();
     });
+  }
+
+  // Requests are handled one at a time, in order, on the handler threads,
+  // never on the I/O thread: a submit opens recordings and fsyncs the
+  // journal, `cluster` asks Redis. Reading pauses meanwhile and resumes
+  // once the lines of the last read are answered.
+  void handle_next() {
+    while (!closed_ && !lines_.empty() && lines_.front().kind == LineFramer::Event::too_long) {
+      lines_.pop_front();
+      send(json_text(Dispatcher::error_response(
+          ErrorCode::too_large, "request line over " + std::to_string(limits_.max_line_bytes) + " bytes")));
+    }
+    if (closed_) return;
+    if (lines_.empty()) {
+      handling_ = false;
+      last_byte_ = Clock::now();  // the idle time starts after the answer
+      read();
+      return;
+    }
+    handling_ = true;
+    auto self = shared_from_this();
+    boost::asio::post(handlers_, [this, self, text = std::move(lines_.front().text)] {
+      auto reply = std::make_shared<Reply>(dispatcher_.handle(text));
+      boost::asio::post(socket_.get_executor(), [this, self, reply] {
+        send(json_text(reply->response));
+        if (reply->watch && !closed_) subscribe(reply->watch_job);
+        handle_next();
+      });
+    });
+    lines_.pop_front();
   }
 
   void subscribe(const std::string& job) {
@@ -98,6 +124,7 @@ class Session : public std::enable_shared_from_this<Session> {
     timer_.expires_after(std::chrono::milliseconds(250));
     timer_.async_wait([this, self](boost::system::error_code ec) {
       if (ec || closed_) return;
+      if (handling_) return arm_timer();  // deadlines are for the client, not for us
       const auto now = Clock::now();
       const double idle = std::chrono::duration<double>(now - last_byte_).count();
       const bool watching = subscription_ != 0;
@@ -125,6 +152,7 @@ class Session : public std::enable_shared_from_this<Session> {
 
   tcp::socket socket_;
   boost::asio::steady_timer timer_;
+  boost::asio::thread_pool& handlers_;
   Dispatcher& dispatcher_;
   JobStore& store_;
   const ServerLimits& limits_;
@@ -132,6 +160,8 @@ class Session : public std::enable_shared_from_this<Session> {
   std::shared_ptr<size_t> counter_;
   std::array<char, 8192> buf_{};
   std::deque<std::string> out_;
+  std::deque<LineFramer::Event> lines_;  // read, not yet handled
+  bool handling_ = false;                // a request is with the handler threads
   size_t queued_bytes_ = 0;
   Clock::time_point last_byte_;
   std::optional<Clock::time_point> line_started_;
@@ -171,7 +201,7 @@ void Server::accept() {
           sock->close(ignored);
         });
       } else {
-        std::make_shared<Session>(std::move(socket), dispatcher_, store_, limits_, connections_)->start();
+        std::make_shared<Session>(std::move(socket), dispatcher_, store_, limits_, connections_, handlers_)->start();
       }
     }
     accept();

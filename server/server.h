@@ -3,15 +3,17 @@
 //   Acceptor  accepts connections; over max_connections, it answers one
 //             error line and closes.
 //   Session   one per connection: reads bytes into a LineFramer, hands
-//             each line to the Dispatcher and queues the response; a write
-//             loop sends queued lines in order. Deadlines:
+//             each line to the Dispatcher on a handler thread (never on
+//             the I/O thread: a submit opens files and fsyncs; one line at
+//             a time, reading paused meanwhile) and queues the response;
+//             a write loop sends queued lines in order. Deadlines:
 //               idle  no bytes at all for idle_timeout_s -> closed
 //               read  a started line not finished within read_timeout_s -> closed
 //             A client that does not read (write queue over 8 MiB) is closed.
 //             `watch` subscribes the session to job events; events are
 //             posted from worker threads onto the I/O thread.
 //
-//   read loop --bytes--> framer --line--> dispatcher --json--> write queue --> write loop
+//   read loop --bytes--> framer --line--> post(handlers): dispatcher --json--> post(io) --> write queue --> write loop
 //   worker threads --event--> post(io) --> write queue
 #pragma once
 
@@ -48,6 +50,7 @@ class Server {
   JobStore& store_;
   ServerLimits limits_;
   std::shared_ptr<size_t> connections_ = std::make_shared<size_t>(0);
+  boost::asio::thread_pool handlers_{4};  // runs Dispatcher::handle; joined on destruction
 };
 
 }  // namespace godwit

@@ -458,6 +458,18 @@ class DaemonTests(unittest.TestCase):
         self.assertNotIn("json.exception", r["error"]["message"])
         self.assertTrue(c.req({"op": "health"})["ok"])
 
+    def test_a_fifo_under_a_root_does_not_freeze_the_daemon(self):
+        d = self.start()
+        fifo = os.path.join(self.tmp, "root", "h07.wav")
+        os.mkfifo(fifo)
+        c = Client(d.port, timeout=10)
+        t0 = time.time()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [fifo]}})
+        self.assertEqual(r["error"]["code"], "unreadable", r)
+        self.assertIn("regular file", r["error"]["message"])
+        self.assertLess(time.time() - t0, 5)
+        self.assertTrue(Client(d.port, timeout=10).req({"op": "health"})["ok"])
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
