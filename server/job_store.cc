@@ -1,6 +1,7 @@
 #include "job_store.h"
 
 #include <fcntl.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <chrono>
@@ -8,6 +9,7 @@
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <iterator>
 #include <random>
 #include <sstream>
 
@@ -33,6 +35,20 @@ std::string new_job_id() {
   char buf[24];
   std::snprintf(buf, sizeof buf, "j%015llx", static_cast<unsigned long long>(rng() >> 4));
   return buf;
+}
+
+// A journal line, or the last of two glued together: after a write that
+// failed part way (a full disk) left half a line without its newline, the
+// next line was appended to it. Events start with "error" or "event" (keys
+// are written sorted).
+std::optional<nlohmann::json> parse_journal_line(const std::string& line) {
+  for (size_t at = 0; at != std::string::npos; at = line.find("{\"e", at + 1)) {
+    try {
+      return nlohmann::json::parse(line.begin() + static_cast<std::ptrdiff_t>(at), line.end());
+    } catch (const std::exception&) {
+    }
+  }
+  return std::nullopt;
 }
 
 double now_s() {
@@ -73,12 +89,9 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
     std::ifstream in(journal);
     std::string line;
     while (std::getline(in, line)) {
-      nlohmann::json j;
-      try {
-        j = nlohmann::json::parse(line);
-      } catch (const std::exception&) {
-        continue;  // a torn last line after a crash
-      }
+      const auto parsed = parse_journal_line(line);
+      if (!parsed || !parsed->is_object()) continue;  // torn: never acknowledged
+      const nlohmann::json& j = *parsed;
       const std::string ev = j.value("event", ""), id = j.value("job", "");
       if (id.empty()) continue;
       if (ev == "submit") {
@@ -108,20 +121,36 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (s->journal_fd_ < 0)
     return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
+  // A torn tail (a crash or a full disk mid-append; never acknowledged) is
+  // cut off, so the next line starts on a line of its own.
+  {
+    std::ifstream in(journal, std::ios::binary);
+    std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+    const size_t keep = text.rfind('\n') == std::string::npos ? 0 : text.rfind('\n') + 1;
+    if (keep < text.size() && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
+      s->torn_ = true;  // then the next append starts with a newline
+  }
   return s;
 }
 
 Status JobStore::append(const nlohmann::json& line) {
-  const std::string text = json_text(line) + "\n";
+  const std::string text = (torn_ ? "\n" : "") + json_text(line) + "\n";
+  struct stat st {};
+  const off_t before = ::fstat(journal_fd_, &st) == 0 ? st.st_size : -1;
   size_t done = 0;
   while (done < text.size()) {
     const ssize_t n = ::write(journal_fd_, text.data() + done, text.size() - done);
     if (n < 0) {
       if (errno == EINTR) continue;
-      return Error{ErrorCode::io, std::string("journal write failed: ") + std::strerror(errno), dir_, std::nullopt};
+      const std::string why = std::strerror(errno);
+      // Part of the line may be written (a full disk): cut it off, or, if
+      // that fails too, start the next line on a line of its own.
+      if (done > 0 && (before < 0 || ::ftruncate(journal_fd_, before) != 0)) torn_ = true;
+      return Error{ErrorCode::io, "journal write failed: " + why, dir_, std::nullopt};
     }
     done += static_cast<size_t>(n);
   }
+  torn_ = false;
   if (::fsync(journal_fd_) != 0)
     return Error{ErrorCode::io, std::string("journal fsync failed: ") + std::strerror(errno), dir_, std::nullopt};
   return ok_status();

@@ -6,7 +6,10 @@
 // (STATE/results/<id>.json) are written atomically (temp, fsync, rename)
 // before their "done" line. On open the journal is replayed: a job whose
 // last event is submit (it was queued or running at a crash), or whose
-// result file is missing, is queued again; a torn last line is ignored.
+// result file is missing, is queued again. A torn line (a crash or a full
+// disk part way through an append, never acknowledged) is skipped, and a
+// line glued to it is still read; a torn tail is cut off at open, and an
+// append that fails part way cuts off what it wrote.
 //
 // Thread contract: safe for concurrent use; no lock is held over an fsync
 // of a result or over a job.
@@ -81,6 +84,7 @@ class JobStore {
   std::string dir_;
   size_t max_queued_ = 0;
   int journal_fd_ = -1;
+  bool torn_ = false;  // GUARDED_BY(journal_mu_): the journal may end inside a line
   std::mutex journal_mu_;  // serializes journal appends (held over their fsync only)
   mutable std::mutex mu_;
   std::condition_variable cv_;

@@ -470,6 +470,63 @@ class DaemonTests(unittest.TestCase):
         self.assertLess(time.time() - t0, 5)
         self.assertTrue(Client(d.port, timeout=10).req({"op": "health"})["ok"])
 
+    def test_a_torn_journal_line_loses_no_acknowledged_job(self):
+        d = self.start()
+        c = d.connect()
+        b = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]]}})["job"]
+        self.assertEqual(wait_state(c, b)["state"], "done")
+        d.stop()
+        journal = os.path.join(d.state, "journal.jsonl")
+        with open(journal) as f:
+            lines = f.read().splitlines()
+        submit_b = lines[0]
+        torn = submit_b.replace(b, "j000000000000aaa")[: len(submit_b) // 2]
+        with open(journal, "w") as f:  # a half line, then the next acknowledged job glued to it
+            f.write(torn + "\n".join(lines) + "\n" + torn)  # and a torn tail
+        d2 = self.start(state=d.state)
+        c2 = d2.connect()
+        self.assertEqual(c2.req({"op": "status", "job": b}).get("state"), "done")
+        self.assertTrue(c2.req({"op": "result", "job": b})["ok"])
+        self.assertEqual(c2.req({"op": "status", "job": "j000000000000aaa"})["error"]["code"], "unknown_job")
+        # The torn tail was cut off: the next job starts on a line of its own.
+        e = c2.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[1]]}})["job"]
+        d2.stop(signal.SIGKILL)
+        d3 = self.start(state=d.state)
+        self.assertEqual(wait_state(d3.connect(), e)["state"], "done")
+
+    def test_a_full_disk_tears_no_acknowledged_job(self):
+        mnt = os.path.join(self.tmp, "small")
+        os.makedirs(mnt)
+        p = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=2m", "tmpfs", mnt], capture_output=True, text=True)
+        if p.returncode != 0:
+            self.skipTest("cannot mount a 2 MiB tmpfs here (needs root): " + p.stderr.strip())
+        self.addCleanup(subprocess.run, ["umount", "-l", mnt])
+        d = self.start(state=os.path.join(mnt, "state"))
+        c = d.connect()
+        first = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]]}})["job"]
+        self.assertEqual(wait_state(c, first)["state"], "done")
+        filler = os.path.join(mnt, "filler")
+        fd = os.open(filler, os.O_WRONLY | os.O_CREAT)
+        for chunk in (65536, 4096, 1):
+            try:
+                while True:
+                    os.write(fd, b"\0" * chunk)
+            except OSError:
+                pass
+        os.close(fd)
+        # A long line: part of it fits in the journal's last page, then the disk is full.
+        big = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS[:1] * 200}})
+        self.assertFalse(big["ok"], big)
+        self.assertEqual(big["error"]["code"], "io")
+        os.remove(filler)
+        second = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[1]]}})
+        self.assertTrue(second["ok"], second)
+        d.stop(signal.SIGKILL)
+        d2 = self.start(state=d.state)
+        c2 = d2.connect()
+        self.assertEqual(wait_state(c2, second["job"])["state"], "done")
+        self.assertEqual(c2.req({"op": "status", "job": first})["state"], "done")
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
