@@ -121,7 +121,10 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     auto spec = runner_.prepare(*it);
     if (!spec) return {error_response(spec.error().code, spec.error().describe()), false, {}};
     auto id = store_.submit(spec.value());
-    if (!id) return {error_response(id.error().code, id.error().message), false, {}};
+    if (!id) {
+      runner_.discard(spec.value());
+      return {error_response(id.error().code, id.error().message), false, {}};
+    }
     return {{{"ok", true}, {"job", id.value()}}, false, {}};
   }
   if (op == "status") {

@@ -51,6 +51,8 @@ Status DropFolder::start() {
     }
     if (inotify_fd_ < 0) spdlog::warn("drop folder: inotify unavailable, polling every {} s", o_.poll_s);
   }
+  for (const char* sub : {"results", "failed"})  // left by a kill mid-write
+    remove_stale_temporaries((fs::path(o_.dir) / sub).string());
   // Listed after the watch is in place, so nothing falls between the two.
   for (fs::directory_iterator it(fs::path(o_.dir) / "incoming", ec), end; !ec && it != end; it.increment(ec))
     preexisting_.insert(it->path().filename().string());

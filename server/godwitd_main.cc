@@ -9,6 +9,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <set>
 #include <sstream>
 
 #include "cache_dir.h"
@@ -40,6 +41,22 @@ std::string read_token(const std::string& path, std::string& err) {
   while (!t.empty() && (t.back() == '\r' || t.back() == ' ')) t.pop_back();
   if (t.size() < 16) err = "the token in " + path + " is shorter than 16 characters";
   return t;
+}
+
+// Inline spots saved for a submit that was never journaled (the daemon was
+// killed between the two): no job will read them.
+void remove_orphan_inline_spots(const JobStore& store, const std::string& inline_dir) {
+  namespace fs = std::filesystem;
+  std::set<std::string> used;
+  for (const auto& j : store.list(std::nullopt))
+    for (const auto& t : j.spec.value("templates", nlohmann::json::array()))
+      if (t.is_string()) used.insert(fs::path(t.get<std::string>()).parent_path().filename().string());
+  std::error_code ec;
+  for (fs::directory_iterator it(inline_dir, ec), end; !ec && it != end; it.increment(ec)) {
+    if (used.count(it->path().filename().string())) continue;
+    std::error_code rc;
+    fs::remove_all(it->path(), rc);
+  }
 }
 
 }  // namespace
@@ -141,7 +158,9 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: listening on " << host << " (beyond loopback) needs --token-file\n";
     return 2;
   }
-  if (cfg.roots.empty() && !cfg.library.empty()) cfg.roots.push_back(cfg.library);
+  // The configured library is read by jobs that name none, and by the drop
+  // folder, so it is always a root (its files are checked like any other).
+  if (!cfg.library.empty() && !PathGuard(cfg.roots).resolve(cfg.library)) cfg.roots.push_back(cfg.library);
 
   auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued);
   if (!store_r) {
@@ -161,6 +180,7 @@ int main(int argc, char** argv) {
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   JobRunner runner(rc, guard);
+  remove_orphan_inline_spots(store, rc.inline_dir);
   Dispatcher dispatcher(store, runner, cfg.workers);
   dispatcher.set_token(token);
 

@@ -53,6 +53,15 @@ std::string random_name() {
   return buf;
 }
 
+// Every file must resolve under a root, as the paths a request names do:
+// a symlink in a permitted library may lead anywhere.
+Status all_under_roots(const PathGuard& g, const std::vector<std::string>& files) {
+  for (const auto& f : files)
+    if (!g.resolve(f))
+      return Error{ErrorCode::forbidden, "library file leads outside the allowed roots: " + f, "", std::nullopt};
+  return ok_status();
+}
+
 Result<double> number_in(const nlohmann::json& job, const char* field, double lo, double hi, double dflt) {
   if (!job.contains(field)) return dflt;
   if (!job[field].is_number()) return bad(std::string("'") + field + "' must be a number");
@@ -65,6 +74,26 @@ Result<double> number_in(const nlohmann::json& job, const char* field, double lo
 }  // namespace
 
 Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
+  std::string inline_dir;
+  auto r = prepare_job(job, inline_dir);
+  if (!r && !inline_dir.empty()) {  // refused: its inline spots are not kept
+    std::error_code ec;
+    std::filesystem::remove_all(inline_dir, ec);
+  }
+  return r;
+}
+
+void JobRunner::discard(const nlohmann::json& prepared) const {
+  if (config_.inline_dir.empty()) return;
+  const std::string prefix = config_.inline_dir + "/";
+  for (const auto& t : prepared.value("templates", nlohmann::json::array())) {
+    if (!t.is_string() || t.get_ref<const std::string&>().compare(0, prefix.size(), prefix) != 0) continue;
+    std::error_code ec;
+    std::filesystem::remove_all(std::filesystem::path(t.get<std::string>()).parent_path(), ec);
+  }
+}
+
+Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::string& inline_dir) const {
   if (!job.is_object()) return bad("'job' must be an object");
   const std::string kind = job.value("kind", "");
   nlohmann::json out{{"kind", kind}};
@@ -95,6 +124,8 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
     if (!sched) return sched.error();
     auto w = number_in(job, "window_s", 0, 86400, 60);
     if (!w) return w.error();
+    auto files = library_files(lib.value());
+    if (!files) return files.error();
     out["library"] = lib.value();
     out["schedule"] = sched.value();
     out["window_s"] = w.value();
@@ -115,6 +146,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
     if (!job["inline"].is_array()) return bad("'inline' must be an array");
     const std::string dir = config_.inline_dir + "/" + random_name();
     std::error_code ec;
+    inline_dir = dir;
     std::filesystem::create_directories(dir, ec);
     if (ec) return Error{ErrorCode::io, "cannot store inline spots: " + ec.message(), dir, std::nullopt};
     for (const auto& s : job["inline"]) {
@@ -141,7 +173,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   }
   if (templates.empty() && library.empty()) library = config_.default_library;
   if (!library.empty()) {
-    auto files = scan_library(library);
+    auto files = library_files(library);
     if (!files) return files.error();
     templates.insert(templates.end(), files.value().begin(), files.value().end());
   }
@@ -191,6 +223,7 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
                                 warnings);
   for (const auto& w : warnings) warn(w);
   if (!job) return job.error();
+  if (auto st = all_under_roots(guard_, job.value().masters); !st) return st.error();
   Reconcile r;
   r.job = std::move(job.value());
   r.options.locate.correlator.threads = config_.threads_per_job;
@@ -256,6 +289,13 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   auto r = run_locate(job, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
+}
+
+Result<std::vector<std::string>> JobRunner::library_files(const std::string& dir) const {
+  auto files = scan_library(dir);
+  if (!files) return files;
+  if (auto st = all_under_roots(guard_, files.value()); !st) return st.error();
+  return files;
 }
 
 FftCostTable JobRunner::costs() const {

@@ -121,6 +121,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (s->journal_fd_ < 0)
     return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
+  remove_stale_temporaries(dir + "/results");  // results half-written when the daemon was killed
   // A torn tail (a crash or a full disk mid-append; never acknowledged) is
   // cut off, so the next line starts on a line of its own.
   {

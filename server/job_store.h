@@ -9,7 +9,8 @@
 // result file is missing, is queued again. A torn line (a crash or a full
 // disk part way through an append, never acknowledged) is skipped, and a
 // line glued to it is still read; a torn tail is cut off at open, and an
-// append that fails part way cuts off what it wrote.
+// append that fails part way cuts off what it wrote. Temporary result
+// files left by a kill are removed at open.
 //
 // Thread contract: safe for concurrent use; no lock is held over an fsync
 // of a result or over a job.

@@ -95,7 +95,8 @@ class DaemonTests(unittest.TestCase):
     def tearDown(self):
         for d in self.daemons:
             d.stop(signal.SIGKILL)
-        shutil.rmtree(self.tmp, ignore_errors=True)
+        if os.environ.get("KEEP_TMP"): print("kept", self.tmp)
+        else: shutil.rmtree(self.tmp, ignore_errors=True)
 
     def start(self, **kw):
         d = Daemon(self.tmp, **kw)
@@ -526,6 +527,64 @@ class DaemonTests(unittest.TestCase):
         c2 = d2.connect()
         self.assertEqual(wait_state(c2, second["job"])["state"], "done")
         self.assertEqual(c2.req({"op": "status", "job": first})["state"], "done")
+
+    def test_a_library_symlink_leading_outside_the_roots_is_forbidden(self):
+        outside = os.path.join(self.tmp, "outside")
+        os.makedirs(outside)
+        shutil.copy(f"{DEMO}/library/kestrel-fm-id.wav", os.path.join(outside, "secret.wav"))
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", lib)
+        os.symlink(os.path.join(outside, "secret.wav"), os.path.join(lib, "kestrel-fm-id.wav"))
+        d = self.start()
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertEqual(r.get("error", {}).get("code"), "forbidden", r)
+        self.assertIn("kestrel-fm-id.wav", r["error"]["message"])
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "recordings": DEMO_RECS,
+                                           "schedule": f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv"}})
+        self.assertEqual(r.get("error", {}).get("code"), "forbidden", r)
+        # A link that stays inside the roots is fine.
+        os.remove(os.path.join(lib, "kestrel-fm-id.wav"))
+        os.symlink(f"{DEMO}/library/kestrel-fm-id.wav", os.path.join(lib, "kestrel-fm-id.wav"))
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+
+    def test_refused_inline_spots_and_killed_writes_leave_nothing_behind(self):
+        import base64
+        state = os.path.join(self.tmp, "state")
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("results", "inline/0123456789abcdef"):
+            os.makedirs(os.path.join(state, sub))
+        os.makedirs(os.path.join(drop, "results"))
+        # Left by a kill mid-write, and by a kill between saving inline spots and journaling.
+        stale = [os.path.join(state, "results", ".j0123456789abcde.json.tmp.4242"),
+                 os.path.join(drop, "results", ".h0600.flac.json.tmp.4242"),
+                 os.path.join(state, "inline", "0123456789abcdef", "x.wav")]
+        for p in stale:
+            with open(p, "w") as f:
+                f.write("{")
+        d = self.start(args=("--drop", drop), extra_config="[limits]\nmax_queued = 1\n")
+        for p in stale:
+            self.assertFalse(os.path.exists(p), p)
+        c = d.connect()
+        wav = base64.b64encode(open(f"{DEMO}/library/marlow-bakery.wav", "rb").read()).decode()
+        junk = base64.b64encode(b"not audio at all" * 100).decode()
+        refused = [{"inline": [{"id": "a", "audio_base64": "not base64!"}]},
+                   {"inline": [{"id": "b", "audio_base64": junk}]},
+                   {"inline": [{"id": "c", "audio_base64": wav}], "threshold": 7}]
+        for extra in refused:
+            r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]], **extra}})
+            self.assertFalse(r["ok"], r)
+        self.assertEqual(os.listdir(os.path.join(state, "inline")), [])
+        # Refused by a full queue after its spots were saved.
+        codes = []
+        for _ in range(4):
+            r = c.req({"op": "submit", "job": {**long_job(), "inline": [{"id": "d", "audio_base64": wav}]}})
+            codes.append(r["job"] if r["ok"] else r["error"]["code"])
+        self.assertIn("busy", codes)
+        self.assertEqual(len(os.listdir(os.path.join(state, "inline"))), len([x for x in codes if x != "busy"]))
 
 
 if __name__ == "__main__":
