@@ -83,7 +83,9 @@ int main(int argc, char** argv) {
   app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
   app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
   app.add_option("--planner", planner, "FFTW planning: measure or estimate");
-  app.add_option("--drop-stable-s", stable_s, "polling: a file is complete when unchanged this long (default 5)");
+  app.add_option("--drop-stable-s", stable_s,
+                 "a dropped file is complete when unchanged this long (with inotify: and closed after writing or "
+                 "moved in; default 5)");
   app.add_option("--drop-poll-s", poll_s, "drop folder polling period (default 2)");
   app.add_flag("--no-inotify", no_inotify, "poll the drop folder instead of using inotify (network shares)");
   std::string queue;

@@ -586,6 +586,74 @@ class DaemonTests(unittest.TestCase):
         self.assertIn("busy", codes)
         self.assertEqual(len(os.listdir(os.path.join(state, "inline"))), len([x for x in codes if x != "busy"]))
 
+    def test_drop_folder_loses_and_strands_nothing(self):
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("incoming", "work"):
+            os.makedirs(os.path.join(drop, sub))
+        incoming = os.path.join(drop, "incoming")
+        outside = os.path.join(self.tmp, "outside")
+        os.makedirs(outside)
+        shutil.copy(DEMO_RECS[1], os.path.join(outside, "secret.flac"))
+        # A link left in work/: set aside at start, never read.
+        os.symlink(os.path.join(outside, "secret.flac"), os.path.join(drop, "work", "w0600.flac"))
+        d = self.start(args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+
+        def move_in(src, name):
+            tmp = os.path.join(incoming, "." + name)
+            shutil.copy(src, tmp)
+            os.rename(tmp, os.path.join(incoming, name))
+
+        def wait_for(paths, timeout=120):
+            end = time.time() + timeout
+            while time.time() < end and not all(os.path.exists(p) for p in paths):
+                time.sleep(0.2)
+            for p in paths:
+                self.assertTrue(os.path.exists(p), p)
+
+        results, done, failed = (os.path.join(drop, x) for x in ("results", "done", "failed"))
+        # The same name twice: both kept, neither result overwritten.
+        move_in(DEMO_RECS[0], "h0600.flac")
+        wait_for([os.path.join(results, "h0600.flac.json")])
+        move_in(DEMO_RECS[1], "h0600.flac")
+        wait_for([os.path.join(results, "h0600-2.flac.json")])
+        with open(os.path.join(results, "h0600.flac.json")) as a, open(os.path.join(results, "h0600-2.flac.json")) as b:
+            self.assertNotEqual(json.load(a)["matches"], json.load(b)["matches"])
+        self.assertEqual(sorted(os.listdir(done)), ["h0600-2.flac", "h0600.flac"])
+        # A writer appending in chunks, closing the file after each.
+        data = open(DEMO_RECS[2], "rb").read()
+        chunks = [data[i: i + len(data) // 4 + 1] for i in range(0, len(data), len(data) // 4 + 1)]
+        for chunk in chunks:
+            with open(os.path.join(incoming, "h0610.flac"), "ab") as f:
+                f.write(chunk)
+            time.sleep(0.3)
+        # A writer's partial file, renamed when complete.
+        with open(os.path.join(incoming, "h0615.flac.part"), "wb") as f:
+            f.write(data)
+        time.sleep(2.5)
+        self.assertTrue(os.path.exists(os.path.join(incoming, "h0615.flac.part")), "a .part file was taken")
+        os.rename(os.path.join(incoming, "h0615.flac.part"), os.path.join(incoming, "h0615.flac"))
+        # Links, folders, dangling links: set aside with a reason.
+        os.symlink(os.path.join(outside, "secret.flac"), os.path.join(incoming, "link.flac"))
+        os.symlink(os.path.join(outside, "nothing.flac"), os.path.join(incoming, "dangling.flac"))
+        os.makedirs(os.path.join(incoming, "folder.flac"))
+        wait_for([os.path.join(results, "h0610.flac.json"), os.path.join(results, "h0615.flac.json")] +
+                 [os.path.join(failed, n + ".error.json") for n in ("w0600.flac", "link.flac", "dangling.flac",
+                                                                    "folder.flac")])
+        self.assertEqual(open(os.path.join(done, "h0610.flac"), "rb").read(), data)
+        self.assertFalse(any(n.startswith("h0610-") for n in os.listdir(results)), os.listdir(results))
+        for n, why in (("w0600.flac", "link"), ("link.flac", "link"), ("dangling.flac", "link"),
+                       ("folder.flac", "folder")):
+            with open(os.path.join(failed, n + ".error.json")) as f:
+                self.assertIn(why, json.load(f)["message"])
+            self.assertTrue(os.path.lexists(os.path.join(failed, n)), n)
+            self.assertFalse(os.path.exists(os.path.join(results, n + ".json")), n)
+        self.assertEqual(os.listdir(incoming), [])
+        self.assertTrue(os.path.exists(os.path.join(outside, "secret.flac")))
+        with open(os.path.join(self.tmp, "godwitd.log")) as f:
+            log = f.read()
+        for n in ("link.flac", "dangling.flac", "folder.flac", "w0600.flac"):
+            self.assertIn(n, log)
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
