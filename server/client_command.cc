@@ -151,10 +151,23 @@ int run(const std::string& op, const ClientArgs& a) {
     for (;;) {
       auto ev = c.read();
       if (!ev) return report(ev);
+      if (ev.value().value("event", "") == "heartbeat") continue;
       std::cout << json_text(ev.value()) << std::endl;
       const std::string state = ev.value().value("state", "");
       if (!a.job.empty() && (state == "done" || state == "failed" || state == "cancelled")) return 0;
     }
+  }
+  if (op == "jobs") {  // every page
+    auto r = c.request(req);
+    while (r && r.value().value("ok", false) && r.value().contains("next")) {
+      req["cursor"] = r.value()["next"];
+      auto more = c.request(req);
+      if (!more || !more.value().value("ok", false)) return report(more);
+      for (auto& j : more.value()["jobs"]) r.value()["jobs"].push_back(std::move(j));
+      if (more.value().contains("next")) r.value()["next"] = more.value()["next"];
+      else r.value().erase("next");
+    }
+    return report(r);
   }
   return report(c.request(req), op == "result" ? a.out : "", op == "result" && !a.out.empty());
 }

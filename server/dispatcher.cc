@@ -157,11 +157,38 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
       filter = req["state"].is_string() ? job_state_from(req["state"]) : std::nullopt;
       if (!filter) return {error_response(ErrorCode::bad_request, "'state' must be queued, running, done, failed or cancelled"), false, {}};
     }
+    // Paged: at most `limit` jobs (default and maximum kMaxJobsPage) after
+    // the `cursor` of the previous page; "next" is there when more remain.
+    size_t limit = kMaxJobsPage;
+    if (req.contains("limit")) {
+      const auto& l = req["limit"];
+      if (!l.is_number_integer() || l.get<int64_t>() < 1 || l.get<int64_t>() > int64_t(kMaxJobsPage))
+        return {error_response(ErrorCode::bad_request,
+                               "'limit' must be an integer from 1 to " + std::to_string(kMaxJobsPage)), false, {}};
+      limit = l.get<size_t>();
+    }
+    std::string cursor;
+    if (req.contains("cursor")) {
+      if (!req["cursor"].is_string()) return {error_response(ErrorCode::bad_request, "'cursor' must be a string"), false, {}};
+      cursor = req["cursor"].get<std::string>();
+    }
+    auto key = [](const JobInfo& j) { return j.submitted + "/" + j.id; };  // the order of list()
     nlohmann::json list = nlohmann::json::array();
-    for (const auto& j : store_.list(filter))
+    std::string last;
+    bool more = false;
+    for (const auto& j : store_.list(filter)) {
+      if (!cursor.empty() && key(j) <= cursor) continue;
+      if (list.size() == limit) {
+        more = true;
+        break;
+      }
       list.push_back({{"job", j.id}, {"state", job_state_name(j.state)}, {"progress", j.progress},
                       {"submitted", j.submitted}, {"kind", j.spec.value("kind", "")}});
-    return {{{"ok", true}, {"jobs", list}}, false, {}};
+      last = key(j);
+    }
+    nlohmann::json r{{"ok", true}, {"jobs", list}};
+    if (more) r["next"] = last;
+    return {r, false, {}};
   }
   if (op == "watch") {
     auto id = job_id();

@@ -9,7 +9,7 @@
 //   status {job}            -> {"ok":true,"job","state","progress", "error"?}
 //   result {job}            -> {"ok":true,"job","result":{...}}  (job done)
 //   cancel {job}            -> {"ok":true,"job","cancelled":true}
-//   jobs   {state?}         -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}]}
+//   jobs   {state?, limit?, cursor?} -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}],"next"?}
 //   watch  {job?}           -> {"ok":true,"watching":"<id>"|"all"}, then events on the connection
 //   health                  -> {"ok":true,"version","uptime_s","queued","running","workers","queue"?}
 //   cluster                 -> {"ok":true,"stream","workers":[...],"pending","lag","dead"}  (queue mode)
@@ -40,6 +40,7 @@ class Dispatcher {
  public:
   static constexpr size_t kMaxRequestDepth = 32;
   static constexpr size_t kMaxIdBytes = 256;
+  static constexpr size_t kMaxJobsPage = 1000;  // jobs per `jobs` answer
   Dispatcher(JobStore& store, const JobRunner& runner, size_t workers);
   // Empty token: none required.
   void set_token(std::string token);

@@ -164,7 +164,7 @@ int main(int argc, char** argv) {
   // folder, so it is always a root (its files are checked like any other).
   if (!cfg.library.empty() && !PathGuard(cfg.roots).resolve(cfg.library)) cfg.roots.push_back(cfg.library);
 
-  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued);
+  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued, cfg.max_finished_jobs);
   if (!store_r) {
     std::cerr << "godwitd: " << store_r.error().describe() << "\n";
     return 5;
@@ -221,7 +221,8 @@ int main(int argc, char** argv) {
   try {
     server = std::make_unique<Server>(io, boost::asio::ip::tcp::endpoint(address, port), dispatcher, store,
                                       ServerLimits{cfg.max_line_bytes, cfg.max_connections, cfg.idle_timeout_s,
-                                                   cfg.read_timeout_s});
+                                                   cfg.read_timeout_s, cfg.max_connections_per_address,
+                                                   cfg.max_reply_bytes, cfg.watch_heartbeat_s});
   } catch (const std::exception& e) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return 5;

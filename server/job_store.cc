@@ -11,6 +11,8 @@
 #include <fstream>
 #include <iterator>
 #include <random>
+#include <set>
+#include <tuple>
 #include <sstream>
 
 #include "atomic_file.h"
@@ -74,7 +76,7 @@ std::optional<JobState> job_state_from(const std::string& n) {
   return std::nullopt;
 }
 
-Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued) {
+Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued, size_t max_finished) {
   namespace fs = std::filesystem;
   std::error_code ec;
   fs::create_directories(fs::path(dir) / "results", ec);
@@ -82,6 +84,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   std::unique_ptr<JobStore> s(new JobStore());
   s->dir_ = dir;
   s->max_queued_ = max_queued;
+  s->max_finished_ = std::max<size_t>(1, max_finished);
   const std::string journal = dir + "/journal.jsonl";
   // Replay.
   std::vector<std::string> order;
@@ -101,13 +104,18 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         info.submitted = j.value("submitted", "");
         if (!s->jobs_.count(id)) order.push_back(id);
         s->jobs_[id] = info;
+      } else if (ev == "pruned") {
+        s->jobs_.erase(id);
       } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
         if (auto st = job_state_from(ev)) it->second.state = *st;
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
       }
     }
   }
+  std::vector<std::string> kept;
   for (const auto& id : order) {
+    if (!s->jobs_.count(id)) continue;  // pruned
+    kept.push_back(id);
     JobInfo& info = s->jobs_[id];
     const bool have_result = fs::exists(fs::path(dir) / "results" / (id + ".json"));
     if (info.state == JobState::done && !have_result) info.state = JobState::queued;
@@ -117,6 +125,27 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
       s->queue_.push_back(id);
     }
     if (info.state == JobState::done) info.progress = 1;
+    if (info.state != JobState::queued) s->finished_.push_back(id);
+  }
+  // Beyond max_finished, the oldest finished jobs are forgotten, and the
+  // journal is rewritten with the rest (else it would grow forever).
+  if (s->finished_.size() > s->max_finished_) {
+    std::set<std::string> gone;
+    while (s->finished_.size() > s->max_finished_) {
+      gone.insert(s->finished_.front());
+      s->forget(s->finished_.front());
+    }
+    std::string text;
+    for (const auto& id : kept) {
+      if (gone.count(id)) continue;
+      const JobInfo& info = s->jobs_[id];
+      text += json_text({{"event", "submit"}, {"job", id}, {"spec", info.spec}, {"submitted", info.submitted}}) + "\n";
+      if (info.state == JobState::queued) continue;
+      nlohmann::json end{{"event", job_state_name(info.state)}, {"job", id}};
+      if (info.state == JobState::failed) end["error"] = info.error;
+      text += json_text(end) + "\n";
+    }
+    if (auto st = write_file_atomically(journal, text); !st) return st.error();
   }
   s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (s->journal_fd_ < 0)
@@ -134,8 +163,19 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   return s;
 }
 
+void JobStore::forget(const std::string& id) {
+  std::error_code ec;
+  std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
+  jobs_.erase(id);
+  cancel_.erase(id);
+  last_emit_.erase(id);
+  finished_.pop_front();
+}
+
 Status JobStore::append(const nlohmann::json& line) {
-  const std::string text = (torn_ ? "\n" : "") + json_text(line) + "\n";
+  std::string text = torn_ ? "\n" : "";
+  text += json_text(line);
+  text += '\n';
   struct stat st {};
   const off_t before = ::fstat(journal_fd_, &st) == 0 ? st.st_size : -1;
   size_t done = 0;
@@ -201,7 +241,8 @@ std::vector<JobInfo> JobStore::list(std::optional<JobState> state) const {
   std::vector<JobInfo> out;
   for (const auto& [id, j] : jobs_)
     if (!state || j.state == *state) out.push_back(j);
-  std::sort(out.begin(), out.end(), [](const JobInfo& a, const JobInfo& b) { return a.submitted < b.submitted; });
+  std::sort(out.begin(), out.end(),
+            [](const JobInfo& a, const JobInfo& b) { return std::tie(a.submitted, a.id) < std::tie(b.submitted, b.id); });
   return out;
 }
 
@@ -288,9 +329,24 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
     if (s == JobState::failed) j.error = extra.value("error", nlohmann::json());
     cancel_.erase(id);
     last_emit_.erase(id);
+    if (s == JobState::done || s == JobState::failed || s == JobState::cancelled) finished_.push_back(id);
   }
   nlohmann::json ev{{"event", "state"}, {"job", id}, {"state", job_state_name(s)}};
   emit(ev);
+  prune();
+}
+
+void JobStore::prune() {
+  std::vector<std::string> gone;
+  {
+    std::lock_guard lock(mu_);
+    while (finished_.size() > max_finished_) {
+      gone.push_back(finished_.front());
+      forget(finished_.front());
+    }
+  }
+  std::lock_guard jl(journal_mu_);
+  for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
 }
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {

@@ -95,8 +95,10 @@ class DaemonTests(unittest.TestCase):
     def tearDown(self):
         for d in self.daemons:
             d.stop(signal.SIGKILL)
-        if os.environ.get("KEEP_TMP"): print("kept", self.tmp)
-        else: shutil.rmtree(self.tmp, ignore_errors=True)
+        if os.environ.get("KEEP_TMP"):  # for a post-mortem of a failing test
+            print("kept", self.tmp)
+        else:
+            shutil.rmtree(self.tmp, ignore_errors=True)
 
     def start(self, **kw):
         d = Daemon(self.tmp, **kw)
@@ -653,6 +655,85 @@ class DaemonTests(unittest.TestCase):
             log = f.read()
         for n in ("link.flac", "dangling.flac", "folder.flac", "w0600.flac"):
             self.assertIn(n, log)
+
+    def test_large_answers_are_refused_and_finished_jobs_are_paged_and_pruned(self):
+        state = os.path.join(self.tmp, "state")
+        os.makedirs(state)
+        n = 90000  # a `jobs` answer of over 8 MiB
+        with open(os.path.join(state, "journal.jsonl"), "w") as f:
+            for i in range(n):
+                job = f"j{i:015x}"
+                f.write(json.dumps({"event": "submit", "job": job, "spec": {"kind": "locate", "recordings": []},
+                                    "submitted": f"2026-12-01T{i // 3600 % 24:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z"})
+                        + "\n" + json.dumps({"event": "cancelled", "job": job}) + "\n")
+        d = self.start(extra_config="[limits]\nmax_finished_jobs = 500\nmax_reply_bytes = 2048\n")
+        c = d.connect()
+        r = c.req({"op": "jobs", "id": "page1"})
+        self.assertIsNotNone(r, "connection closed without an answer")
+        # 500 jobs are over 2048 bytes: refused, with the id, and the connection stays usable.
+        self.assertEqual(r["error"]["code"], "too_large", r)
+        self.assertEqual(r["id"], "page1")
+        seen = []
+        cursor = None
+        while True:
+            req = {"op": "jobs", "limit": 15}
+            if cursor:
+                req["cursor"] = cursor
+            r = c.req(req)
+            self.assertTrue(r["ok"], r)
+            self.assertLessEqual(len(r["jobs"]), 15)
+            seen += [j["job"] for j in r["jobs"]]
+            cursor = r.get("next")
+            if not cursor:
+                break
+        self.assertEqual(seen, [f"j{i:015x}" for i in range(n - 500, n)])  # the newest, oldest first, each once
+        self.assertEqual(c.req({"op": "status", "job": f"j{0:015x}"})["error"]["code"], "unknown_job")
+        self.assertEqual(c.req({"op": "jobs", "limit": 0})["error"]["code"], "bad_request")
+        with open(os.path.join(state, "journal.jsonl")) as f:
+            self.assertLessEqual(len(f.readlines()), 1000)  # rewritten without the pruned jobs
+        # A finished job beyond the bound is pruned at once, with its result.
+        job = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS}})["job"]
+        self.assertEqual(wait_state(c, job)["state"], "done")
+        self.assertEqual(c.req({"op": "status", "job": f"j{n - 500:015x}"})["error"]["code"], "unknown_job")
+        r = c.req({"op": "result", "job": job, "id": 9})
+        self.assertEqual(r.get("error", {}).get("code"), "too_large", r)  # the locate document is over 2048 bytes
+        self.assertEqual(r["id"], 9)
+        self.assertTrue(c.req({"op": "health"})["ok"])
+
+    def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
+        d = self.start(extra_config="[limits]\nmax_connections = 8\nmax_connections_per_address = 4\n"
+                                    "idle_timeout_s = 2\nwatch_heartbeat_s = 1\n")
+        held = [d.connect() for _ in range(4)]
+        extra = d.connect()
+        r = extra.read()
+        self.assertEqual(r["error"]["code"], "busy", r)
+        self.assertIn("127.0.0.1", r["error"]["message"])
+        # Another address still gets in.
+        s2 = socket.create_connection(("127.0.0.1", d.port), timeout=10, source_address=("127.0.0.2", 0))
+        f2 = s2.makefile("rwb")
+        f2.write(b'{"op":"health"}\n')
+        f2.flush()
+        self.assertTrue(json.loads(f2.readline())["ok"])
+        s2.close()
+        # Empty lines do not keep a connection open.
+        t0 = time.time()
+        closed = set()
+        while time.time() - t0 < 8 and len(closed) < len(held):
+            for i, c in enumerate(held):
+                if i in closed:
+                    continue
+                try:
+                    c.send_raw(b"\n")
+                except OSError:
+                    closed.add(i)
+            time.sleep(0.3)
+        self.assertEqual(len(closed), len(held), "connections kept open by empty lines")
+        self.assertTrue(d.connect().req({"op": "health"})["ok"])
+        # A watcher is not closed for idleness, and hears a heartbeat.
+        w = d.connect()
+        self.assertTrue(w.req({"op": "watch"})["ok"])
+        time.sleep(3)
+        self.assertEqual(w.read(), {"event": "heartbeat"})
 
 
 if __name__ == "__main__":
