@@ -126,6 +126,9 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (!w) return w.error();
     auto files = library_files(lib.value());
     if (!files) return files.error();
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(sched.value(), ec))  // a FIFO would hold a worker forever
+      return Error{ErrorCode::unreadable, "the planned log is not a regular file", sched.value(), std::nullopt};
     out["library"] = lib.value();
     out["schedule"] = sched.value();
     out["window_s"] = w.value();

@@ -472,6 +472,22 @@ class DaemonTests(unittest.TestCase):
         self.assertIn("regular file", r["error"]["message"])
         self.assertLess(time.time() - t0, 5)
         self.assertTrue(Client(d.port, timeout=10).req({"op": "health"})["ok"])
+        # A planned log or a sidecar that is a FIFO would hold a worker forever.
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", lib)
+        os.mkfifo(os.path.join(lib, "marlow-bakery.meta.json"))
+        sched = os.path.join(self.tmp, "root", "kestrel-fm-2026-03-14.csv")
+        os.mkfifo(sched)
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "schedule": sched,
+                                           "recordings": DEMO_RECS[:1]}})
+        self.assertEqual(r["error"]["code"], "unreadable", r)
+        os.remove(sched)
+        shutil.copy(f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv", sched)
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "schedule": sched,
+                                           "recordings": DEMO_RECS[:1]}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"], timeout=60)["state"], "done")
 
     def test_a_torn_journal_line_loses_no_acknowledged_job(self):
         d = self.start()
