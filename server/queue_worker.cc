@@ -82,9 +82,15 @@ void QueueWorker::loop(size_t slot) {
     spdlog::info("task {} of job {} started (attempt {})", task.task, task.job, task.attempt);
     // Cancellation of the job is checked every two seconds at most.
     auto checked = std::chrono::steady_clock::now();
+    auto touched = checked;
+    const auto touch_every = std::chrono::duration<double>(std::max(0.2, options_.claim_idle_s / 3));
     bool job_cancelled = false;
     auto should_stop = [&] {
       if (stop_.load()) return true;
+      if (std::chrono::steady_clock::now() - touched > touch_every) {  // still ours: not to be reclaimed
+        touched = std::chrono::steady_clock::now();
+        (void)q.touch(task);
+      }
       if (std::chrono::steady_clock::now() - checked > std::chrono::seconds(2)) {
         checked = std::chrono::steady_clock::now();
         if (auto c = q.cancelled(task.job); c && c.value()) job_cancelled = true;

@@ -120,6 +120,12 @@ Result<std::optional<QueuedTask>> TaskQueue::next(double block_s) {
   return parse_entry(v.elements[0].elements[1].elements[0], 0);
 }
 
+Status TaskQueue::touch(const QueuedTask& t) {
+  auto r = redis_.command({"XCLAIM", stream_, kGroup, consumer_, "0", t.entry, "JUSTID"});
+  if (!r) return r.error();
+  return ok_status();
+}
+
 Status TaskQueue::complete(const QueuedTask& t, const nlohmann::json& result) {
   auto s = redis_.command({"SET", key("result:" + t.task), json_text(result), "NX"});
   if (!s) return s.error();

@@ -13,7 +13,8 @@
 //
 // Delivery is at least once: a task read and not acknowledged (its worker
 // died) stays pending and is reclaimed by another worker once idle for
-// `claim_idle_s` (XAUTOCLAIM); a task is acknowledged only after its
+// `claim_idle_s` (XAUTOCLAIM; a worker running it keeps it from going idle,
+// touch()); a task is acknowledged only after its
 // result is stored, and storing twice keeps the first. A task that failed,
 // or whose workers died, `max_attempts` times goes to S:dead.
 //
@@ -61,6 +62,10 @@ class TaskQueue {
   Status fail(const QueuedTask& t, const std::string& reason);
   // Acknowledges without running (its job was cancelled).
   Status drop(const QueuedTask& t);
+  // Tells the group that this consumer still runs `t` (its idle time
+  // restarts; the delivery count does not grow), so a task that runs
+  // longer than claim_idle_s is not reclaimed and run twice.
+  Status touch(const QueuedTask& t);
 
   // How many of `tasks` (the job's plan) are stored.
   Result<size_t> stored_count(const std::string& job, const std::vector<PlannedTask>& tasks);
