@@ -449,6 +449,8 @@ class DaemonTests(unittest.TestCase):
             self.assertIsNone(d.proc.poll(), "godwitd died")
             time.sleep(0.2)
         self.assertTrue(want <= set(os.listdir(results)), os.listdir(results))
+        while time.time() < end and len(os.listdir(os.path.join(drop, "done"))) < 2:  # moved after its result
+            time.sleep(0.2)
         with open(os.path.join(results, "h%E9-0600.flac.json")) as f:
             self.assertGreaterEqual(len(json.load(f)["matches"]), 3)
         self.assertEqual(sorted(os.listdir(os.path.join(drop, "done"))), ["h%E9-0600.flac", "h%E9-0605.flac"])
@@ -631,9 +633,9 @@ class DaemonTests(unittest.TestCase):
         results, done, failed = (os.path.join(drop, x) for x in ("results", "done", "failed"))
         # The same name twice: both kept, neither result overwritten.
         move_in(DEMO_RECS[0], "h0600.flac")
-        wait_for([os.path.join(results, "h0600.flac.json")])
+        wait_for([os.path.join(done, "h0600.flac")])  # its result is written first
         move_in(DEMO_RECS[1], "h0600.flac")
-        wait_for([os.path.join(results, "h0600-2.flac.json")])
+        wait_for([os.path.join(done, "h0600-2.flac")])
         with open(os.path.join(results, "h0600.flac.json")) as a, open(os.path.join(results, "h0600-2.flac.json")) as b:
             self.assertNotEqual(json.load(a)["matches"], json.load(b)["matches"])
         self.assertEqual(sorted(os.listdir(done)), ["h0600-2.flac", "h0600.flac"])
@@ -654,7 +656,7 @@ class DaemonTests(unittest.TestCase):
         os.symlink(os.path.join(outside, "secret.flac"), os.path.join(incoming, "link.flac"))
         os.symlink(os.path.join(outside, "nothing.flac"), os.path.join(incoming, "dangling.flac"))
         os.makedirs(os.path.join(incoming, "folder.flac"))
-        wait_for([os.path.join(results, "h0610.flac.json"), os.path.join(results, "h0615.flac.json")] +
+        wait_for([os.path.join(done, "h0610.flac"), os.path.join(done, "h0615.flac")] +
                  [os.path.join(failed, n + ".error.json") for n in ("w0600.flac", "link.flac", "dangling.flac",
                                                                     "folder.flac")])
         self.assertEqual(open(os.path.join(done, "h0610.flac"), "rb").read(), data)
