@@ -45,4 +45,16 @@ Status write_file_atomically(const std::string& path, const std::string& content
   return ok_status();
 }
 
+void remove_stale_temporaries(const std::string& dir) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
+    const std::string n = it->path().filename().string();
+    if (n.size() > 1 && n[0] == '.' && n.find(".tmp.") != std::string::npos && it->is_regular_file(ec)) {
+      std::error_code rc;
+      fs::remove(it->path(), rc);
+    }
+  }
+}
+
 }  // namespace godwit

@@ -11,4 +11,8 @@ namespace godwit {
 
 Status write_file_atomically(const std::string& path, const std::string& content);
 
+// Removes the temporaries (".<name>.tmp.<pid>") that a process killed
+// mid-write left in `dir`. REQUIRES: no one writes there meanwhile.
+void remove_stale_temporaries(const std::string& dir);
+
 }  // namespace godwit

@@ -10,6 +10,7 @@
 
 #include "atomic_file.h"
 #include "daemon_config.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -45,7 +46,7 @@ class Connection {
   }
   Result<nlohmann::json> request(const nlohmann::json& req) {
     try {
-      const std::string line = req.dump() + "\n";
+      const std::string line = json_text(req) + "\n";
       boost::asio::write(socket_, boost::asio::buffer(line));
       return read();
     } catch (const std::exception& e) {
@@ -78,11 +79,11 @@ int report(const Result<nlohmann::json>& r, const std::string& out = "", bool re
   }
   const auto& j = r.value();
   if (!j.value("ok", false)) {
-    std::cerr << "godwit: " << j.dump() << "\n";
+    std::cerr << "godwit: " << json_text(j) << "\n";
     const std::string code = j["error"].value("code", "");
     return code == "busy" || code == "unavailable" ? 7 : 6;
   }
-  const std::string text = (result_only ? j["result"] : j).dump(2) + "\n";
+  const std::string text = json_text(result_only ? j["result"] : j, 2) + "\n";
   if (!out.empty()) {
     if (auto st = write_file_atomically(out, text); !st) {
       std::cerr << "godwit: " << st.error().describe() << "\n";
@@ -146,14 +147,27 @@ int run(const std::string& op, const ClientArgs& a) {
   if (op == "watch") {
     auto r = c.request(req);
     if (!r || !r.value().value("ok", false)) return report(r);
-    std::cout << r.value().dump() << std::endl;
+    std::cout << json_text(r.value()) << std::endl;
     for (;;) {
       auto ev = c.read();
       if (!ev) return report(ev);
-      std::cout << ev.value().dump() << std::endl;
+      if (ev.value().value("event", "") == "heartbeat") continue;
+      std::cout << json_text(ev.value()) << std::endl;
       const std::string state = ev.value().value("state", "");
       if (!a.job.empty() && (state == "done" || state == "failed" || state == "cancelled")) return 0;
     }
+  }
+  if (op == "jobs") {  // every page
+    auto r = c.request(req);
+    while (r && r.value().value("ok", false) && r.value().contains("next")) {
+      req["cursor"] = r.value()["next"];
+      auto more = c.request(req);
+      if (!more || !more.value().value("ok", false)) return report(more);
+      for (auto& j : more.value()["jobs"]) r.value()["jobs"].push_back(std::move(j));
+      if (more.value().contains("next")) r.value()["next"] = more.value()["next"];
+      else r.value().erase("next");
+    }
+    return report(r);
   }
   return report(c.request(req), op == "result" ? a.out : "", op == "result" && !a.out.empty());
 }

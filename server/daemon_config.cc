@@ -48,6 +48,10 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   num(t["limits"]["idle_timeout_s"], c.idle_timeout_s, "limits.idle_timeout_s");
   num(t["limits"]["read_timeout_s"], c.read_timeout_s, "limits.read_timeout_s");
   num(t["limits"]["max_queued"], c.max_queued, "limits.max_queued");
+  num(t["limits"]["max_connections_per_address"], c.max_connections_per_address, "limits.max_connections_per_address");
+  num(t["limits"]["watch_heartbeat_s"], c.watch_heartbeat_s, "limits.watch_heartbeat_s");
+  num(t["limits"]["max_reply_bytes"], c.max_reply_bytes, "limits.max_reply_bytes");
+  num(t["limits"]["max_finished_jobs"], c.max_finished_jobs, "limits.max_finished_jobs");
   num(t["limits"]["max_templates"], c.max_templates, "limits.max_templates");
   num(t["limits"]["max_recording_h"], c.max_recording_h, "limits.max_recording_h");
   num(t["limits"]["max_inline_mb"], c.max_inline_mb, "limits.max_inline_mb");

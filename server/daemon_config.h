@@ -23,10 +23,14 @@ struct DaemonConfig {
   std::string planner = "measure";
   // limits
   size_t max_line_bytes = 24u << 20;  // room for one inline spot of max_inline_mb in base64
-  size_t max_connections = 64;
+  size_t max_connections = 256;
+  size_t max_connections_per_address = 64;
   double idle_timeout_s = 300;
   double read_timeout_s = 10;
+  double watch_heartbeat_s = 30;
+  size_t max_reply_bytes = 32u << 20;
   size_t max_queued = 100;
+  size_t max_finished_jobs = 10000;
   size_t max_templates = 500;
   double max_recording_h = 168;
   size_t max_inline_mb = 16;

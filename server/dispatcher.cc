@@ -1,6 +1,37 @@
 #include "dispatcher.h"
 
+#include <algorithm>
+
 namespace godwit {
+namespace {
+
+// Deepest nesting of arrays and objects in the JSON text `line` (brackets
+// inside strings do not count), or `limit` + 1 as soon as it goes deeper:
+// checked before parsing, because copying, dumping or comparing a deeply
+// nested value recurses once per level and would overflow the stack.
+size_t nesting_depth(std::string_view line, size_t limit) {
+  size_t depth = 0, deepest = 0;
+  bool in_string = false, escaped = false;
+  for (const char ch : line) {
+    if (in_string) {
+      if (escaped) escaped = false;
+      else if (ch == '\\') escaped = true;
+      else if (ch == '"') in_string = false;
+      continue;
+    }
+    if (ch == '"') {
+      in_string = true;
+    } else if (ch == '[' || ch == '{') {
+      deepest = std::max(deepest, ++depth);
+      if (deepest > limit) return deepest;
+    } else if ((ch == ']' || ch == '}') && depth > 0) {
+      --depth;
+    }
+  }
+  return deepest;
+}
+
+}  // namespace
 
 bool constant_time_equal(std::string_view a, std::string_view b) {
   // Length is not secret; the contents are compared without early exit.
@@ -27,6 +58,10 @@ nlohmann::json Dispatcher::error_response(ErrorCode code, const std::string& mes
 }
 
 Reply Dispatcher::handle(std::string_view line) const {
+  if (nesting_depth(line, kMaxRequestDepth) > kMaxRequestDepth)
+    return {error_response(ErrorCode::bad_request,
+                           "a request nests arrays and objects over " + std::to_string(kMaxRequestDepth) + " deep"),
+            false, {}};
   nlohmann::json req;
   try {
     req = nlohmann::json::parse(line);
@@ -34,6 +69,13 @@ Reply Dispatcher::handle(std::string_view line) const {
     return {error_response(ErrorCode::bad_request, "not a JSON object on one line"), false, {}};
   }
   if (!req.is_object()) return {error_response(ErrorCode::bad_request, "a request is a JSON object"), false, {}};
+  if (const auto id = req.find("id"); id != req.end()) {
+    const bool fits = id->is_number() || (id->is_string() && id->get_ref<const std::string&>().size() <= kMaxIdBytes);
+    if (!fits)
+      return {error_response(ErrorCode::bad_request,
+                             "'id' must be a number or a string of at most " + std::to_string(kMaxIdBytes) + " bytes"),
+              false, {}};
+  }
   Reply r;
   {
     std::string token;
@@ -79,7 +121,10 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     auto spec = runner_.prepare(*it);
     if (!spec) return {error_response(spec.error().code, spec.error().describe()), false, {}};
     auto id = store_.submit(spec.value());
-    if (!id) return {error_response(id.error().code, id.error().message), false, {}};
+    if (!id) {
+      runner_.discard(spec.value());
+      return {error_response(id.error().code, id.error().message), false, {}};
+    }
     return {{{"ok", true}, {"job", id.value()}}, false, {}};
   }
   if (op == "status") {
@@ -112,11 +157,38 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
       filter = req["state"].is_string() ? job_state_from(req["state"]) : std::nullopt;
       if (!filter) return {error_response(ErrorCode::bad_request, "'state' must be queued, running, done, failed or cancelled"), false, {}};
     }
+    // Paged: at most `limit` jobs (default and maximum kMaxJobsPage) after
+    // the `cursor` of the previous page; "next" is there when more remain.
+    size_t limit = kMaxJobsPage;
+    if (req.contains("limit")) {
+      const auto& l = req["limit"];
+      if (!l.is_number_integer() || l.get<int64_t>() < 1 || l.get<int64_t>() > int64_t(kMaxJobsPage))
+        return {error_response(ErrorCode::bad_request,
+                               "'limit' must be an integer from 1 to " + std::to_string(kMaxJobsPage)), false, {}};
+      limit = l.get<size_t>();
+    }
+    std::string cursor;
+    if (req.contains("cursor")) {
+      if (!req["cursor"].is_string()) return {error_response(ErrorCode::bad_request, "'cursor' must be a string"), false, {}};
+      cursor = req["cursor"].get<std::string>();
+    }
+    auto key = [](const JobInfo& j) { return j.submitted + "/" + j.id; };  // the order of list()
     nlohmann::json list = nlohmann::json::array();
-    for (const auto& j : store_.list(filter))
+    std::string last;
+    bool more = false;
+    for (const auto& j : store_.list(filter)) {
+      if (!cursor.empty() && key(j) <= cursor) continue;
+      if (list.size() == limit) {
+        more = true;
+        break;
+      }
       list.push_back({{"job", j.id}, {"state", job_state_name(j.state)}, {"progress", j.progress},
                       {"submitted", j.submitted}, {"kind", j.spec.value("kind", "")}});
-    return {{{"ok", true}, {"jobs", list}}, false, {}};
+      last = key(j);
+    }
+    nlohmann::json r{{"ok", true}, {"jobs", list}};
+    if (more) r["next"] = last;
+    return {r, false, {}};
   }
   if (op == "watch") {
     auto id = job_id();

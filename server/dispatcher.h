@@ -1,12 +1,15 @@
 // Dispatcher: one request line in, one response object out. Knows no
 // sockets: the session frames lines and writes what this returns.
 //
-// Requests: {"op": "...", "id": any (echoed), "token": "..." (when required), ...}
+// Requests: {"op": "...", "id": number or string (echoed), "token": "..." (when required), ...}
+// A request nesting arrays and objects over kMaxRequestDepth deep, or whose
+// id is anything else or a string over kMaxIdBytes, is refused
+// (bad_request, no id echoed) before anything else is looked at.
 //   submit {job}            -> {"ok":true,"job":"<id>"}          errors: bad_request, forbidden, busy, too_large, ...
 //   status {job}            -> {"ok":true,"job","state","progress", "error"?}
 //   result {job}            -> {"ok":true,"job","result":{...}}  (job done)
 //   cancel {job}            -> {"ok":true,"job","cancelled":true}
-//   jobs   {state?}         -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}]}
+//   jobs   {state?, limit?, cursor?} -> {"ok":true,"jobs":[{"job","state","progress","submitted","kind"}],"next"?}
 //   watch  {job?}           -> {"ok":true,"watching":"<id>"|"all"}, then events on the connection
 //   health                  -> {"ok":true,"version","uptime_s","queued","running","workers","queue"?}
 //   cluster                 -> {"ok":true,"stream","workers":[...],"pending","lag","dead"}  (queue mode)
@@ -35,6 +38,9 @@ struct Reply {
 
 class Dispatcher {
  public:
+  static constexpr size_t kMaxRequestDepth = 32;
+  static constexpr size_t kMaxIdBytes = 256;
+  static constexpr size_t kMaxJobsPage = 1000;  // jobs per `jobs` answer
   Dispatcher(JobStore& store, const JobRunner& runner, size_t workers);
   // Empty token: none required.
   void set_token(std::string token);

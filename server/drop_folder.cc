@@ -14,6 +14,7 @@
 #include "godwit/civil_time.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace fs = std::filesystem;
@@ -50,6 +51,8 @@ Status DropFolder::start() {
     }
     if (inotify_fd_ < 0) spdlog::warn("drop folder: inotify unavailable, polling every {} s", o_.poll_s);
   }
+  for (const char* sub : {"results", "failed"})  // left by a kill mid-write
+    remove_stale_temporaries((fs::path(o_.dir) / sub).string());
   // Listed after the watch is in place, so nothing falls between the two.
   for (fs::directory_iterator it(fs::path(o_.dir) / "incoming", ec), end; !ec && it != end; it.increment(ec))
     preexisting_.insert(it->path().filename().string());
@@ -66,16 +69,32 @@ void DropFolder::stop() {
 
 void DropFolder::loop() {
   const fs::path incoming = fs::path(o_.dir) / "incoming", work = fs::path(o_.dir) / "work";
-  // Claimed before a crash: run again.
+  // Claimed before a crash: run again (under a name JSON can carry, for
+  // files claimed before names were made so). Anything but a regular file
+  // (a link, which may lead anywhere) is set aside.
   std::error_code ec;
-  for (fs::directory_iterator it(work, ec), end; !ec && it != end && !stop_; it.increment(ec))
-    if (it->is_regular_file()) process(it->path().filename().string());
+  std::vector<std::string> left;
+  for (fs::directory_iterator it(work, ec), end; !ec && it != end; it.increment(ec))
+    left.push_back(it->path().filename().string());
+  for (const auto& name : left) {
+    if (stop_) break;
+    if (auto why = not_regular(work / name)) {
+      reject(work / name, *why);
+      continue;
+    }
+    const std::string safe = escape_invalid_utf8(name);
+    std::error_code rc;
+    if (safe != name) fs::rename(work / name, work / safe, rc);
+    if (rc) spdlog::warn("drop folder: cannot rename {}: {}", safe, rc.message());
+    else process(safe);
+  }
 
   std::map<std::string, Seen> seen;
-  std::set<std::string> ready;
-  // With inotify, a file is complete when closed after writing or moved in;
-  // the stable-size rule is kept for files already there before the watch
-  // began (no event will come for them). Without inotify it is the rule.
+  // With inotify, a file is complete when it was closed after writing or
+  // moved in, and has not changed since for stable_s (a writer that
+  // appends in chunks closes it after each). Files there before the watch
+  // began get no event; for them, and without inotify, stable_s is the rule.
+  std::set<std::string> closed;
   std::set<std::string> preexisting = std::move(preexisting_);
   while (!stop_) {
     if (inotify_fd_ >= 0) {
@@ -86,7 +105,7 @@ void DropFolder::loop() {
         while ((n = ::read(inotify_fd_, buf, sizeof buf)) > 0) {
           for (char* q = buf; q < buf + n;) {
             auto* ev = reinterpret_cast<inotify_event*>(q);
-            if (ev->len) ready.insert(ev->name);
+            if (ev->len) closed.insert(ev->name);
             q += sizeof(inotify_event) + ev->len;
           }
         }
@@ -96,45 +115,123 @@ void DropFolder::loop() {
     }
     const auto now = std::chrono::steady_clock::now();
     std::set<std::string> present;
+    std::vector<std::string> ready;
     for (fs::directory_iterator it(incoming, ec), end; !ec && it != end; it.increment(ec)) {
-      if (!it->is_regular_file(ec)) continue;
       const std::string name = it->path().filename().string();
-      if (name.empty() || name[0] == '.') continue;  // temporaries of atomic writers
+      if (is_temporary_name(name)) continue;
       present.insert(name);
-      const auto size = it->file_size(ec);
-      const auto mtime = it->last_write_time(ec);
+      const auto why = not_regular(it->path());
+      std::error_code se;
+      const auto size = why ? 0 : it->file_size(se);
+      const auto mtime = it->symlink_status(se).type() == fs::file_type::symlink ? fs::file_time_type{}
+                                                                                 : it->last_write_time(se);
       auto s = seen.find(name);
       if (s == seen.end() || s->second.size != size || s->second.mtime != mtime) {
         seen[name] = {size, mtime, now};
         continue;
       }
-      const bool by_size = inotify_fd_ < 0 || preexisting.count(name);
-      if (by_size && std::chrono::duration<double>(now - s->second.since).count() >= o_.stable_s) ready.insert(name);
+      if (std::chrono::duration<double>(now - s->second.since).count() < o_.stable_s) continue;
+      if (why) {  // a link, folder, pipe...: never processed, and not left to pile up
+        reject(it->path(), *why);
+        continue;
+      }
+      if (inotify_fd_ < 0 || preexisting.count(name) || closed.count(name)) ready.push_back(name);
     }
     for (auto it = seen.begin(); it != seen.end();) it = present.count(it->first) ? std::next(it) : seen.erase(it);
+    for (auto it = closed.begin(); it != closed.end();) it = present.count(*it) ? std::next(it) : closed.erase(it);
     for (const auto& name : ready) {
       if (stop_) break;
-      if (!present.count(name)) continue;
       std::error_code rc;
-      fs::rename(incoming / name, work / name, rc);  // the claim
+      // Claimed under a name no earlier file has (its result would be
+      // overwritten) that JSON can carry (bytes that are not UTF-8 as %XX).
+      const std::string claimed = unused_name(escape_invalid_utf8(name));
+      fs::rename(incoming / name, work / claimed, rc);  // the claim
       if (rc) {
-        spdlog::warn("drop folder: cannot claim {}: {}", name, rc.message());
+        spdlog::warn("drop folder: cannot claim {}: {}", claimed, rc.message());
         continue;
       }
       seen.erase(name);
+      closed.erase(name);
       preexisting.erase(name);
-      process(name);
+      if (claimed != name) spdlog::info("drop folder: {} claimed as {} (the name was taken)", name, claimed);
+      process(claimed);
     }
-    ready.clear();
   }
 }
 
+bool DropFolder::is_temporary_name(const std::string& name) {
+  auto ends_with = [&](std::string_view suffix) {
+    return name.size() >= suffix.size() && name.compare(name.size() - suffix.size(), suffix.size(), suffix) == 0;
+  };
+  return name.empty() || name[0] == '.' || ends_with(".part") || ends_with(".tmp") || ends_with("~");
+}
+
+std::optional<std::string> DropFolder::not_regular(const fs::path& p) {
+  std::error_code ec;
+  const auto st = fs::symlink_status(p, ec);
+  if (ec) return "cannot be examined: " + ec.message();
+  switch (st.type()) {
+    case fs::file_type::regular: return std::nullopt;
+    case fs::file_type::symlink: return std::string("a symbolic link (it could lead outside the allowed roots)");
+    case fs::file_type::directory: return std::string("a folder");
+    case fs::file_type::fifo: return std::string("a pipe");
+    default: return std::string("not a regular file");
+  }
+}
+
+std::string DropFolder::unused_name(const std::string& name, const fs::path& itself) const {
+  const fs::path base(o_.dir);
+  auto taken = [&](const std::string& n) {
+    std::error_code ec;
+    for (const fs::path& p : {base / "work" / n, base / "done" / n, base / "failed" / n,
+                              base / "results" / (n + ".json"), base / "failed" / (n + ".error.json")})
+      if (p != itself && fs::exists(fs::symlink_status(p, ec))) return true;
+    return false;
+  };
+  if (!taken(name)) return name;
+  const fs::path p(name);
+  const std::string stem = p.stem().string(), ext = p.extension().string();
+  for (int n = 2;; ++n) {
+    const std::string candidate = stem + "-" + std::to_string(n) + ext;
+    if (!taken(candidate)) return candidate;
+  }
+}
+
+void DropFolder::reject(const fs::path& from, const std::string& why) {
+  const fs::path base(o_.dir);
+  const std::string name = unused_name(escape_invalid_utf8(from.filename().string()), from);
+  std::error_code ec;
+  fs::rename(from, base / "failed" / name, ec);  // the link itself, never what it leads to
+  if (ec) {
+    spdlog::warn("drop folder: {} is {}; cannot move it to failed/: {}", from.filename().string(), why, ec.message());
+    return;
+  }
+  (void)write_file_atomically(
+      (base / "failed" / (name + ".error.json")).string(),
+      json_text({{"code", "unsupported"}, {"message", "not processed: " + why + "; the drop folder takes regular files only"},
+                 {"file", name}}, 2) + "\n");
+  spdlog::warn("drop folder: {} is {}: moved to failed/ unprocessed", name, why);
+}
+
 void DropFolder::process(const std::string& name) {
+  try {
+    process_file(name);
+  } catch (const std::exception& e) {  // a bug: this file fails, the daemon carries on
+    spdlog::error("drop folder: {} failed: internal error: {}", name, e.what());
+    const fs::path base(o_.dir);
+    std::error_code ec;
+    fs::rename(base / "work" / name, base / "failed" / name, ec);
+    (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(),
+                                json_text({{"code", "internal"}, {"message", e.what()}, {"file", name}}, 2) + "\n");
+  }
+}
+
+void DropFolder::process_file(const std::string& name) {
   const fs::path base(o_.dir);
   const std::string path = (base / "work" / name).string();
   spdlog::info("drop folder: processing {}", name);
   Result<nlohmann::json> doc = Error{ErrorCode::internal, "not run", path, std::nullopt};
-  auto lib = scan_library(runner_.config().default_library);
+  auto lib = runner_.library_files(runner_.config().default_library);
   if (!lib) {
     doc = lib.error();
   } else {
@@ -157,7 +254,7 @@ void DropFolder::process(const std::string& name) {
       }
   }
   if (doc) {
-    if (auto st = write_file_atomically((base / "results" / (name + ".json")).string(), doc.value().dump(2) + "\n"); !st) {
+    if (auto st = write_file_atomically((base / "results" / (name + ".json")).string(), json_text(doc.value(), 2) + "\n"); !st) {
       failed = true;
       reason = st.error().describe();
     }
@@ -170,7 +267,7 @@ void DropFolder::process(const std::string& name) {
   }
   nlohmann::json err = doc ? nlohmann::json{{"code", "corrupt"}, {"message", reason}} : error_to_json(doc.error());
   err["file"] = name;
-  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), err.dump(2) + "\n");
+  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   fs::rename(path, base / "failed" / name, ec);
   spdlog::warn("drop folder: {} failed: {}", name, err.value("message", ""));
 }
@@ -213,7 +310,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   const std::string out = (fs::path(o_.dir) / "results" / (fs::path(schedule).stem().string() + ".reconcile.json")).string();
   const std::string out_html = out.substr(0, out.size() - 5) + ".html";
   if (auto st = write_file_atomically(out_html, html); !st) spdlog::warn("drop folder: {}", st.error().describe());
-  if (auto st = write_file_atomically(out, doc.value().dump(2) + "\n"); !st)
+  if (auto st = write_file_atomically(out, json_text(doc.value(), 2) + "\n"); !st)
     spdlog::warn("drop folder: {}", st.error().describe());
   else
     spdlog::info("drop folder: {} reconciled over {} recording(s)", day, recordings.size());

@@ -6,11 +6,17 @@
 //   DROP/done      recordings processed
 //   DROP/failed    recordings that could not be processed, each with <name>.error.json
 //
-// A file is taken when it is complete: inotify reported it closed after
-// writing or moved in; or, when polling (network shares, use_inotify
-// false) and for files already present at start, its size and
-// modification time have not changed for `stable_s`. Files left in work/ by
-// a crash are processed again at start. The library is scanned afresh for
+// A file is taken when it is complete: its size and modification time have
+// not changed for `stable_s` and, with inotify, it was closed after writing
+// or moved in (a writer that appends in chunks closes it after each; a
+// file already there at start gets no event). Names starting with "." or
+// ending in ".part", ".tmp" or "~" are a writer's temporaries and left
+// alone. A claimed file keeps its name unless an earlier file had it
+// (then "-2", "-3"... before the extension), so no result is overwritten.
+// Links (which may lead anywhere), folders, pipes and other entries that
+// are not regular files are moved to failed/ unprocessed, with their
+// reason, once unchanged for `stable_s`. Files left in work/ by a crash
+// are processed again at start (links there are set aside too). The library is scanned afresh for
 // every file, so changes to it apply to the next recording. With a
 // schedules folder, each day's report is rebuilt as its hours arrive.
 //
@@ -18,6 +24,8 @@
 #pragma once
 
 #include <atomic>
+#include <filesystem>
+#include <optional>
 #include <map>
 #include <set>
 #include <string>
@@ -30,7 +38,7 @@ namespace godwit {
 struct DropOptions {
   std::string dir;
   double poll_s = 2;
-  double stable_s = 5;
+  double stable_s = 5;  // a file unchanged this long is complete (with inotify: and closed)
   bool use_inotify = true;
   // When set: after each recording, the day's planned log found here (a
   // CSV whose name holds the date as YYYY-MM-DD or YYYYMMDD) is reconciled
@@ -53,7 +61,17 @@ class DropFolder {
 
  private:
   void loop();
+  // Runs process_file(); an exception fails that file, not the daemon.
   void process(const std::string& name);
+  void process_file(const std::string& name);
+  // Why `p` (not followed if a link) is not a regular file; empty if it is.
+  static std::optional<std::string> not_regular(const std::filesystem::path& p);
+  static bool is_temporary_name(const std::string& name);
+  // `name`, or name-2.ext, name-3.ext... : the first no file here has had
+  // (`itself`, the entry being moved, aside).
+  std::string unused_name(const std::string& name, const std::filesystem::path& itself = {}) const;
+  // Moves an entry to failed/ with <name>.error.json saying `why`, and logs it.
+  void reject(const std::filesystem::path& from, const std::string& why);
   void reconcile_day(const std::string& name);
   DropOptions o_;
   const JobRunner& runner_;

@@ -6,6 +6,8 @@
 #include <csignal>
 #include <iostream>
 
+#include "repair_report.h"
+
 namespace godwit {
 namespace {
 
@@ -71,6 +73,7 @@ std::string EngineSetup::configure(const EngineArgs& a, LocateOptions& o) {
   o.on_diagnostic = [quiet](std::string_view s) {
     if (!quiet) warn(s);
   };
+  o.opener = reporting_opener(o.opener, o.on_diagnostic);
   const bool tty = isatty(STDERR_FILENO) != 0;
   if (a.progress || (tty && !a.no_progress && !a.quiet)) {
     bar_ = std::make_unique<ProgressBar>(tty);

@@ -9,6 +9,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <set>
 #include <sstream>
 
 #include "cache_dir.h"
@@ -22,6 +23,7 @@
 #include "queue_worker.h"
 #include "server.h"
 #include "worker_pool.h"
+#include "json_text.h"
 
 using namespace godwit;
 
@@ -39,6 +41,22 @@ std::string read_token(const std::string& path, std::string& err) {
   while (!t.empty() && (t.back() == '\r' || t.back() == ' ')) t.pop_back();
   if (t.size() < 16) err = "the token in " + path + " is shorter than 16 characters";
   return t;
+}
+
+// Inline spots saved for a submit that was never journaled (the daemon was
+// killed between the two): no job will read them.
+void remove_orphan_inline_spots(const JobStore& store, const std::string& inline_dir) {
+  namespace fs = std::filesystem;
+  std::set<std::string> used;
+  for (const auto& j : store.list(std::nullopt))
+    for (const auto& t : j.spec.value("templates", nlohmann::json::array()))
+      if (t.is_string()) used.insert(fs::path(t.get<std::string>()).parent_path().filename().string());
+  std::error_code ec;
+  for (fs::directory_iterator it(inline_dir, ec), end; !ec && it != end; it.increment(ec)) {
+    if (used.count(it->path().filename().string())) continue;
+    std::error_code rc;
+    fs::remove_all(it->path(), rc);
+  }
 }
 
 }  // namespace
@@ -65,7 +83,9 @@ int main(int argc, char** argv) {
   app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
   app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
   app.add_option("--planner", planner, "FFTW planning: measure or estimate");
-  app.add_option("--drop-stable-s", stable_s, "polling: a file is complete when unchanged this long (default 5)");
+  app.add_option("--drop-stable-s", stable_s,
+                 "a dropped file is complete when unchanged this long (with inotify: and closed after writing or "
+                 "moved in; default 5)");
   app.add_option("--drop-poll-s", poll_s, "drop folder polling period (default 2)");
   app.add_flag("--no-inotify", no_inotify, "poll the drop folder instead of using inotify (network shares)");
   std::string queue;
@@ -140,9 +160,11 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: listening on " << host << " (beyond loopback) needs --token-file\n";
     return 2;
   }
-  if (cfg.roots.empty() && !cfg.library.empty()) cfg.roots.push_back(cfg.library);
+  // The configured library is read by jobs that name none, and by the drop
+  // folder, so it is always a root (its files are checked like any other).
+  if (!cfg.library.empty() && !PathGuard(cfg.roots).resolve(cfg.library)) cfg.roots.push_back(cfg.library);
 
-  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued);
+  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued, cfg.max_finished_jobs);
   if (!store_r) {
     std::cerr << "godwitd: " << store_r.error().describe() << "\n";
     return 5;
@@ -160,6 +182,7 @@ int main(int argc, char** argv) {
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   JobRunner runner(rc, guard);
+  remove_orphan_inline_spots(store, rc.inline_dir);
   Dispatcher dispatcher(store, runner, cfg.workers);
   dispatcher.set_token(token);
 
@@ -198,7 +221,8 @@ int main(int argc, char** argv) {
   try {
     server = std::make_unique<Server>(io, boost::asio::ip::tcp::endpoint(address, port), dispatcher, store,
                                       ServerLimits{cfg.max_line_bytes, cfg.max_connections, cfg.idle_timeout_s,
-                                                   cfg.read_timeout_s});
+                                                   cfg.read_timeout_s, cfg.max_connections_per_address,
+                                                   cfg.max_reply_bytes, cfg.watch_heartbeat_s});
   } catch (const std::exception& e) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return 5;
@@ -214,7 +238,7 @@ int main(int argc, char** argv) {
     }
   }
   // Machine-readable first line for supervisors and tests.
-  std::cout << nlohmann::json{{"listening", host}, {"port", server->port()}}.dump() << std::endl;
+  std::cout << json_text(nlohmann::json{{"listening", host}, {"port", server->port()}}) << std::endl;
   spdlog::info("godwitd listening on {}:{} (state {}, {} worker(s), {} root(s))", host, server->port(), cfg.state_dir,
                cfg.workers, cfg.roots.size());
 

@@ -6,6 +6,7 @@
 #include <random>
 
 #include "atomic_file.h"
+#include "json_text.h"
 #include "base64.h"
 #include "godwit/html_report.h"
 #include "godwit/job.h"
@@ -13,6 +14,7 @@
 #include "godwit/reconcile_job.h"
 #include "godwit/reconcile_report.h"
 #include "library_scan.h"
+#include "repair_report.h"
 #include "reconcile_inputs.h"
 #include "segment_task.h"
 
@@ -53,6 +55,15 @@ std::string random_name() {
   return buf;
 }
 
+// Every file must resolve under a root, as the paths a request names do:
+// a symlink in a permitted library may lead anywhere.
+Status all_under_roots(const PathGuard& g, const std::vector<std::string>& files) {
+  for (const auto& f : files)
+    if (!g.resolve(f))
+      return Error{ErrorCode::forbidden, "library file leads outside the allowed roots: " + f, "", std::nullopt};
+  return ok_status();
+}
+
 Result<double> number_in(const nlohmann::json& job, const char* field, double lo, double hi, double dflt) {
   if (!job.contains(field)) return dflt;
   if (!job[field].is_number()) return bad(std::string("'") + field + "' must be a number");
@@ -65,6 +76,26 @@ Result<double> number_in(const nlohmann::json& job, const char* field, double lo
 }  // namespace
 
 Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
+  std::string inline_dir;
+  auto r = prepare_job(job, inline_dir);
+  if (!r && !inline_dir.empty()) {  // refused: its inline spots are not kept
+    std::error_code ec;
+    std::filesystem::remove_all(inline_dir, ec);
+  }
+  return r;
+}
+
+void JobRunner::discard(const nlohmann::json& prepared) const {
+  if (config_.inline_dir.empty()) return;
+  const std::string prefix = config_.inline_dir + "/";
+  for (const auto& t : prepared.value("templates", nlohmann::json::array())) {
+    if (!t.is_string() || t.get_ref<const std::string&>().compare(0, prefix.size(), prefix) != 0) continue;
+    std::error_code ec;
+    std::filesystem::remove_all(std::filesystem::path(t.get<std::string>()).parent_path(), ec);
+  }
+}
+
+Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::string& inline_dir) const {
   if (!job.is_object()) return bad("'job' must be an object");
   const std::string kind = job.value("kind", "");
   nlohmann::json out{{"kind", kind}};
@@ -95,6 +126,11 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
     if (!sched) return sched.error();
     auto w = number_in(job, "window_s", 0, 86400, 60);
     if (!w) return w.error();
+    auto files = library_files(lib.value());
+    if (!files) return files.error();
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(sched.value(), ec))  // a FIFO would hold a worker forever
+      return Error{ErrorCode::unreadable, "the planned log is not a regular file", sched.value(), std::nullopt};
     out["library"] = lib.value();
     out["schedule"] = sched.value();
     out["window_s"] = w.value();
@@ -115,6 +151,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
     if (!job["inline"].is_array()) return bad("'inline' must be an array");
     const std::string dir = config_.inline_dir + "/" + random_name();
     std::error_code ec;
+    inline_dir = dir;
     std::filesystem::create_directories(dir, ec);
     if (ec) return Error{ErrorCode::io, "cannot store inline spots: " + ec.message(), dir, std::nullopt};
     for (const auto& s : job["inline"]) {
@@ -141,7 +178,7 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   }
   if (templates.empty() && library.empty()) library = config_.default_library;
   if (!library.empty()) {
-    auto files = scan_library(library);
+    auto files = library_files(library);
     if (!files) return files.error();
     templates.insert(templates.end(), files.value().begin(), files.value().end());
   }
@@ -149,6 +186,12 @@ Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   if (templates.size() > config_.max_templates)
     return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
                                            std::to_string(config_.max_templates) + " per job", "", std::nullopt};
+  // The journal and the queue carry paths as JSON text, which holds only
+  // UTF-8: such a file could not be found again after a restart.
+  for (const auto& t : templates)
+    if (!is_valid_utf8(t))
+      return Error{ErrorCode::unsupported,
+                   "file name is not valid UTF-8 (rename the file): " + escape_invalid_utf8(t), "", std::nullopt};
   out["templates"] = templates;
   for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.3}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
     auto v = number_in(job, field, lo, hi, dflt);
@@ -182,6 +225,7 @@ LocateOptions JobRunner::locate_options(const nlohmann::json& spec, const std::f
   lo.correlator.threads = config_.threads_per_job;
   lo.correlator.planner = config_.planner;
   lo.on_diagnostic = warn;
+  lo.opener = reporting_opener(lo.opener, warn);
   apply_search_fields(spec, lo);
   return lo;
 }
@@ -194,11 +238,13 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
                                 warnings);
   for (const auto& w : warnings) warn(w);
   if (!job) return job.error();
+  if (auto st = all_under_roots(guard_, job.value().masters); !st) return st.error();
   Reconcile r;
   r.job = std::move(job.value());
   r.options.locate.correlator.threads = config_.threads_per_job;
   r.options.locate.correlator.planner = config_.planner;
   r.options.locate.on_diagnostic = warn;
+  r.options.locate.opener = reporting_opener(r.options.locate.opener, warn);
   apply_search_fields(spec, r.options.locate);
   r.title = std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string();
   return r;
@@ -253,6 +299,13 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   auto r = run_locate_job(job, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
+}
+
+Result<std::vector<std::string>> JobRunner::library_files(const std::string& dir) const {
+  auto files = scan_library(dir);
+  if (!files) return files;
+  if (auto st = all_under_roots(guard_, files.value()); !st) return st.error();
+  return files;
 }
 
 FftCostTable JobRunner::costs() const {

@@ -47,12 +47,19 @@ class JobRunner {
   JobRunner(RunnerConfig config, const PathGuard& guard)
       : config_(std::move(config)), guard_(guard), costs_(config_.costs) {}
 
+  // A refused job leaves no inline spots behind.
   Result<nlohmann::json> prepare(const nlohmann::json& job) const;
+  // Removes the inline spots a prepared job saved, when it is not run after
+  // all (the queue was full, the journal could not be written).
+  void discard(const nlohmann::json& prepared) const;
   // For a reconcile job, `html` (when given) receives the HTML report too.
   Result<nlohmann::json> run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
                              const std::function<bool()>& should_stop,
                              const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
   const RunnerConfig& config() const { return config_; }
+  // A library's masters (library_scan.h), each of which must resolve under
+  // a root (a symlink in the library may lead anywhere), else forbidden.
+  Result<std::vector<std::string>> library_files(const std::string& dir) const;
   // The FFT costs measured so far, by every job (for the cache at exit).
   FftCostTable costs() const;
 
@@ -71,6 +78,8 @@ class JobRunner {
   LocateOptions locate_options(const nlohmann::json& prepared, const std::function<void(std::string_view)>& warn) const;
 
  private:
+  // `inline_dir` receives the folder made for inline spots, if any.
+  Result<nlohmann::json> prepare_job(const nlohmann::json& job, std::string& inline_dir) const;
   RunnerConfig config_;
   const PathGuard& guard_;
   // Shared by the jobs: each runs on a copy and adds what it measured, so

@@ -1,6 +1,7 @@
 #include "job_store.h"
 
 #include <fcntl.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <chrono>
@@ -8,10 +9,14 @@
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <iterator>
 #include <random>
+#include <set>
+#include <tuple>
 #include <sstream>
 
 #include "atomic_file.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -32,6 +37,20 @@ std::string new_job_id() {
   char buf[24];
   std::snprintf(buf, sizeof buf, "j%015llx", static_cast<unsigned long long>(rng() >> 4));
   return buf;
+}
+
+// A journal line, or the last of two glued together: after a write that
+// failed part way (a full disk) left half a line without its newline, the
+// next line was appended to it. Events start with "error" or "event" (keys
+// are written sorted).
+std::optional<nlohmann::json> parse_journal_line(const std::string& line) {
+  for (size_t at = 0; at != std::string::npos; at = line.find("{\"e", at + 1)) {
+    try {
+      return nlohmann::json::parse(line.begin() + static_cast<std::ptrdiff_t>(at), line.end());
+    } catch (const std::exception&) {
+    }
+  }
+  return std::nullopt;
 }
 
 double now_s() {
@@ -57,7 +76,7 @@ std::optional<JobState> job_state_from(const std::string& n) {
   return std::nullopt;
 }
 
-Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued) {
+Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued, size_t max_finished) {
   namespace fs = std::filesystem;
   std::error_code ec;
   fs::create_directories(fs::path(dir) / "results", ec);
@@ -65,6 +84,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   std::unique_ptr<JobStore> s(new JobStore());
   s->dir_ = dir;
   s->max_queued_ = max_queued;
+  s->max_finished_ = std::max<size_t>(1, max_finished);
   const std::string journal = dir + "/journal.jsonl";
   // Replay.
   std::vector<std::string> order;
@@ -72,12 +92,9 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
     std::ifstream in(journal);
     std::string line;
     while (std::getline(in, line)) {
-      nlohmann::json j;
-      try {
-        j = nlohmann::json::parse(line);
-      } catch (const std::exception&) {
-        continue;  // a torn last line after a crash
-      }
+      const auto parsed = parse_journal_line(line);
+      if (!parsed || !parsed->is_object()) continue;  // torn: never acknowledged
+      const nlohmann::json& j = *parsed;
       const std::string ev = j.value("event", ""), id = j.value("job", "");
       if (id.empty()) continue;
       if (ev == "submit") {
@@ -87,13 +104,18 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         info.submitted = j.value("submitted", "");
         if (!s->jobs_.count(id)) order.push_back(id);
         s->jobs_[id] = info;
+      } else if (ev == "pruned") {
+        s->jobs_.erase(id);
       } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
         if (auto st = job_state_from(ev)) it->second.state = *st;
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
       }
     }
   }
+  std::vector<std::string> kept;
   for (const auto& id : order) {
+    if (!s->jobs_.count(id)) continue;  // pruned
+    kept.push_back(id);
     JobInfo& info = s->jobs_[id];
     const bool have_result = fs::exists(fs::path(dir) / "results" / (id + ".json"));
     if (info.state == JobState::done && !have_result) info.state = JobState::queued;
@@ -103,24 +125,73 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
       s->queue_.push_back(id);
     }
     if (info.state == JobState::done) info.progress = 1;
+    if (info.state != JobState::queued) s->finished_.push_back(id);
+  }
+  // Beyond max_finished, the oldest finished jobs are forgotten, and the
+  // journal is rewritten with the rest (else it would grow forever).
+  if (s->finished_.size() > s->max_finished_) {
+    std::set<std::string> gone;
+    while (s->finished_.size() > s->max_finished_) {
+      gone.insert(s->finished_.front());
+      s->forget(s->finished_.front());
+    }
+    std::string text;
+    for (const auto& id : kept) {
+      if (gone.count(id)) continue;
+      const JobInfo& info = s->jobs_[id];
+      text += json_text({{"event", "submit"}, {"job", id}, {"spec", info.spec}, {"submitted", info.submitted}}) + "\n";
+      if (info.state == JobState::queued) continue;
+      nlohmann::json end{{"event", job_state_name(info.state)}, {"job", id}};
+      if (info.state == JobState::failed) end["error"] = info.error;
+      text += json_text(end) + "\n";
+    }
+    if (auto st = write_file_atomically(journal, text); !st) return st.error();
   }
   s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (s->journal_fd_ < 0)
     return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
+  remove_stale_temporaries(dir + "/results");  // results half-written when the daemon was killed
+  // A torn tail (a crash or a full disk mid-append; never acknowledged) is
+  // cut off, so the next line starts on a line of its own.
+  {
+    std::ifstream in(journal, std::ios::binary);
+    std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+    const size_t keep = text.rfind('\n') == std::string::npos ? 0 : text.rfind('\n') + 1;
+    if (keep < text.size() && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
+      s->torn_ = true;  // then the next append starts with a newline
+  }
   return s;
 }
 
+void JobStore::forget(const std::string& id) {
+  std::error_code ec;
+  std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
+  jobs_.erase(id);
+  cancel_.erase(id);
+  last_emit_.erase(id);
+  finished_.pop_front();
+}
+
 Status JobStore::append(const nlohmann::json& line) {
-  const std::string text = line.dump() + "\n";
+  std::string text = torn_ ? "\n" : "";
+  text += json_text(line);
+  text += '\n';
+  struct stat st {};
+  const off_t before = ::fstat(journal_fd_, &st) == 0 ? st.st_size : -1;
   size_t done = 0;
   while (done < text.size()) {
     const ssize_t n = ::write(journal_fd_, text.data() + done, text.size() - done);
     if (n < 0) {
       if (errno == EINTR) continue;
-      return Error{ErrorCode::io, std::string("journal write failed: ") + std::strerror(errno), dir_, std::nullopt};
+      const std::string why = std::strerror(errno);
+      // Part of the line may be written (a full disk): cut it off, or, if
+      // that fails too, start the next line on a line of its own.
+      if (done > 0 && (before < 0 || ::ftruncate(journal_fd_, before) != 0)) torn_ = true;
+      return Error{ErrorCode::io, "journal write failed: " + why, dir_, std::nullopt};
     }
     done += static_cast<size_t>(n);
   }
+  torn_ = false;
   if (::fsync(journal_fd_) != 0)
     return Error{ErrorCode::io, std::string("journal fsync failed: ") + std::strerror(errno), dir_, std::nullopt};
   return ok_status();
@@ -170,7 +241,8 @@ std::vector<JobInfo> JobStore::list(std::optional<JobState> state) const {
   std::vector<JobInfo> out;
   for (const auto& [id, j] : jobs_)
     if (!state || j.state == *state) out.push_back(j);
-  std::sort(out.begin(), out.end(), [](const JobInfo& a, const JobInfo& b) { return a.submitted < b.submitted; });
+  std::sort(out.begin(), out.end(),
+            [](const JobInfo& a, const JobInfo& b) { return std::tie(a.submitted, a.id) < std::tie(b.submitted, b.id); });
   return out;
 }
 
@@ -257,13 +329,28 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
     if (s == JobState::failed) j.error = extra.value("error", nlohmann::json());
     cancel_.erase(id);
     last_emit_.erase(id);
+    if (s == JobState::done || s == JobState::failed || s == JobState::cancelled) finished_.push_back(id);
   }
   nlohmann::json ev{{"event", "state"}, {"job", id}, {"state", job_state_name(s)}};
   emit(ev);
+  prune();
+}
+
+void JobStore::prune() {
+  std::vector<std::string> gone;
+  {
+    std::lock_guard lock(mu_);
+    while (finished_.size() > max_finished_) {
+      gone.push_back(finished_.front());
+      forget(finished_.front());
+    }
+  }
+  std::lock_guard jl(journal_mu_);
+  for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
 }
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {
-  if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", result.dump() + "\n"); !st) {
+  if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", json_text(result) + "\n"); !st) {
     fail(id, {{"code", "io"}, {"message", st.error().describe()}});
     return;
   }

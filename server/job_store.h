@@ -6,7 +6,11 @@
 // (STATE/results/<id>.json) are written atomically (temp, fsync, rename)
 // before their "done" line. On open the journal is replayed: a job whose
 // last event is submit (it was queued or running at a crash), or whose
-// result file is missing, is queued again; a torn last line is ignored.
+// result file is missing, is queued again. A torn line (a crash or a full
+// disk part way through an append, never acknowledged) is skipped, and a
+// line glued to it is still read; a torn tail is cut off at open, and an
+// append that fails part way cuts off what it wrote. Temporary result
+// files left by a kill are removed at open.
 //
 // Thread contract: safe for concurrent use; no lock is held over an fsync
 // of a result or over a job.
@@ -42,11 +46,16 @@ struct JobInfo {
 
 class JobStore {
  public:
-  static Result<std::unique_ptr<JobStore>> open(const std::string& state_dir, size_t max_queued);
+  // Beyond `max_finished` finished (done, failed, cancelled) jobs, the
+  // oldest are forgotten with their results: a "pruned" line in the
+  // journal, which is rewritten without them at the next open.
+  static Result<std::unique_ptr<JobStore>> open(const std::string& state_dir, size_t max_queued,
+                                                size_t max_finished = 10000);
 
   // Errors: busy (queue full), io (journal write failed; nothing recorded).
   Result<std::string> submit(const nlohmann::json& spec);
   std::optional<JobInfo> get(const std::string& id) const;
+  // By submission time, then id.
   std::vector<JobInfo> list(std::optional<JobState> state) const;
   // Queued jobs are cancelled at once; running ones when they next poll.
   // False when the job is unknown or already over.
@@ -77,15 +86,20 @@ class JobStore {
   Status append(const nlohmann::json& line);  // REQUIRES: journal_mu_ held
   void emit(const nlohmann::json& event);
   void set_state(const std::string& id, JobState s, const nlohmann::json& extra);
+  void prune();                            // beyond max_finished_
+  void forget(const std::string& id);      // REQUIRES: mu_ held (or opening); id is finished_.front()
 
   std::string dir_;
   size_t max_queued_ = 0;
+  size_t max_finished_ = 10000;
   int journal_fd_ = -1;
+  bool torn_ = false;  // GUARDED_BY(journal_mu_): the journal may end inside a line
   std::mutex journal_mu_;  // serializes journal appends (held over their fsync only)
   mutable std::mutex mu_;
   std::condition_variable cv_;
   std::map<std::string, JobInfo> jobs_;             // GUARDED_BY(mu_)
   std::deque<std::string> queue_;                   // GUARDED_BY(mu_)
+  std::deque<std::string> finished_;                // GUARDED_BY(mu_): oldest first
   std::map<std::string, bool> cancel_;              // GUARDED_BY(mu_)
   std::map<std::string, double> last_emit_;         // GUARDED_BY(mu_)
   bool stopping_ = false;                           // GUARDED_BY(mu_)

@@ -10,6 +10,7 @@
 #include "godwit/locate_report.h"
 #include "godwit/timeline_locate.h"
 #include "library_scan.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -59,7 +60,7 @@ int run(const LocateArgs& a) {
     return fail(result.error());
   }
   const LocateResult& r = result.value();
-  const std::string doc = a.format == "csv" ? locate_to_csv(r) : locate_to_json(r).dump(2) + "\n";
+  const std::string doc = a.format == "csv" ? locate_to_csv(r) : json_text(locate_to_json(r), 2) + "\n";
   if (a.out.empty() || a.out == "-") {
     std::fwrite(doc.data(), 1, doc.size(), stdout);
     if (std::fflush(stdout) != 0) return fail({ErrorCode::io, "cannot write to standard output", "", {}});
@@ -72,7 +73,11 @@ int run(const LocateArgs& a) {
     std::cerr << "godwit: " << r.matches.size() << " match(es) in " << r.recordings.size() << " recording(s)"
               << (failed ? ", " + std::to_string(failed) + " with errors (see \"error\" in the output)" : "")
               << "\n";
-  if (failed == r.recordings.size()) return 3;
+  // 3 when nothing could be read at all; a recording that broke part way
+  // was read up to its break, and its matches are in the output.
+  bool any_audio = false;
+  for (const auto& rec : r.recordings) any_audio = any_audio || rec.duration_s > 0;
+  if (failed == r.recordings.size() && !any_audio) return 3;
   return failed ? 4 : 0;
 }
 

@@ -11,6 +11,7 @@
 #include "godwit/html_report.h"
 #include "godwit/reconcile_report.h"
 #include "reconcile_inputs.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -111,7 +112,7 @@ int run(const ReconcileArgs& a) {
     std::string doc;
     if (f == "csv") doc = reconcile_to_csv(r);
     else if (f == "html") doc = reconcile_to_html(r, {std::filesystem::path(a.schedule).stem().string(), o.loudness});
-    else doc = reconcile_to_json(r, o.loudness).dump(2) + "\n";
+    else doc = json_text(reconcile_to_json(r, o.loudness), 2) + "\n";
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
@@ -122,7 +123,9 @@ int run(const ReconcileArgs& a) {
          t.before + " and " + t.after);
   if (!a.engine.quiet)
     std::cerr << "godwit: report written to " << a.out << "\n" << kEvidenceCaution << "\n" << kLoudnessCaution << "\n";
-  if (!r.recordings.empty() && failed == r.recordings.size()) return 3;
+  bool any_audio = false;  // a recording that broke part way was read up to its break
+  for (const auto& s : r.recordings) any_audio = any_audio || s.duration_s > 0;
+  if (!r.recordings.empty() && failed == r.recordings.size() && !any_audio) return 3;
   return failed ? 4 : 0;
 }
 

@@ -1,5 +1,6 @@
 #include "reconcile_inputs.h"
 
+#include <filesystem>
 #include <fstream>
 #include <sstream>
 
@@ -15,6 +16,9 @@ Result<ReconcileJob> load_reconcile_job(const ReconcileInputs& in, std::vector<s
   job.masters = masters.value();
   job.meta = load_spot_metadata(job.masters, warnings);
 
+  std::error_code ec;
+  if (std::filesystem::exists(in.schedule, ec) && !std::filesystem::is_regular_file(in.schedule, ec))
+    return Error{ErrorCode::unreadable, "the planned log is not a regular file (a pipe?)", in.schedule, std::nullopt};
   std::ifstream f(in.schedule, std::ios::binary);
   if (!f) return Error{ErrorCode::not_found, "cannot open the planned log", in.schedule, std::nullopt};
   std::ostringstream text;

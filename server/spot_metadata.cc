@@ -13,6 +13,13 @@ std::map<std::string, SpotMeta> load_spot_metadata(const std::vector<std::string
   for (const auto& m : masters) {
     const fs::path p(m);
     const fs::path side = p.parent_path() / (p.stem().string() + ".meta.json");
+    std::error_code ec;
+    const auto st = fs::status(side, ec);
+    if (ec || !fs::exists(st)) continue;
+    if (!fs::is_regular_file(st)) {  // a FIFO would block the reader until someone writes to it
+      problems.push_back(side.string() + ": ignored: not a regular file");
+      continue;
+    }
     std::ifstream in(side);
     if (!in) continue;
     try {

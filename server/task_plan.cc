@@ -6,6 +6,7 @@
 #include <map>
 
 #include "godwit/locate_report.h"
+#include "json_text.h"
 
 namespace godwit {
 namespace {
@@ -46,7 +47,7 @@ std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::j
             templates.begin() + static_cast<long>(std::min(templates.size(), first + batch)));
         // The place in the plan: a recording listed twice is searched twice.
         PlannedTask t;
-        t.id = fnv1a_hex(job_id + "\n" + std::to_string(out.size()) + "\n" + spec.dump());
+        t.id = fnv1a_hex(job_id + "\n" + std::to_string(out.size()) + "\n" + json_text(spec));
         t.spec = std::move(spec);
         t.stream = s;
         out.push_back(std::move(t));

@@ -1,4 +1,5 @@
 #include "task_queue.h"
+#include "json_text.h"
 
 #include <unistd.h>
 
@@ -38,7 +39,7 @@ Status TaskQueue::enqueue(const std::string& job, const std::vector<PlannedTask>
     auto e = redis_.command({"EXISTS", key("result:" + t.id)});
     if (!e) return e.error();
     if (e.value().integer == 1) continue;
-    auto r = redis_.command({"XADD", stream_, "*", "task", t.id, "job", job, "spec", t.spec.dump(), "attempt", "1"});
+    auto r = redis_.command({"XADD", stream_, "*", "task", t.id, "job", job, "spec", json_text(t.spec), "attempt", "1"});
     if (!r) return r.error();
   }
   return ok_status();
@@ -120,7 +121,7 @@ Result<std::optional<QueuedTask>> TaskQueue::next(double block_s) {
 }
 
 Status TaskQueue::complete(const QueuedTask& t, const nlohmann::json& result) {
-  auto s = redis_.command({"SET", key("result:" + t.task), result.dump(), "NX"});
+  auto s = redis_.command({"SET", key("result:" + t.task), json_text(result), "NX"});
   if (!s) return s.error();
   auto a = redis_.command({"SADD", key("stored:" + t.job), t.task});
   if (!a) return a.error();
@@ -130,12 +131,12 @@ Status TaskQueue::complete(const QueuedTask& t, const nlohmann::json& result) {
 Status TaskQueue::fail(const QueuedTask& t, const std::string& reason) {
   if (t.attempt >= options_.max_attempts) {
     auto d = redis_.command({"XADD", key("dead"), "*", "task", t.task, "job", t.job, "reason", reason, "attempts",
-                             std::to_string(t.attempt), "spec", t.spec.dump()});
+                             std::to_string(t.attempt), "spec", json_text(t.spec)});
     if (!d) return d.error();
     auto h = redis_.command({"HSET", key("failed:" + t.job), t.task, reason});
     if (!h) return h.error();
   } else {
-    auto r = redis_.command({"XADD", stream_, "*", "task", t.task, "job", t.job, "spec", t.spec.dump(), "attempt",
+    auto r = redis_.command({"XADD", stream_, "*", "task", t.task, "job", t.job, "spec", json_text(t.spec), "attempt",
                              std::to_string(t.attempt + 1)});
     if (!r) return r.error();
   }
@@ -213,7 +214,7 @@ Status TaskQueue::heartbeat(const nlohmann::json& state) {
   nlohmann::json s = state;
   s["worker"] = consumer_;
   const auto ttl = std::to_string(static_cast<long long>(std::ceil(3 * options_.heartbeat_s)));
-  auto r = redis_.command({"SET", key("worker:" + consumer_), s.dump(), "EX", ttl});
+  auto r = redis_.command({"SET", key("worker:" + consumer_), json_text(s), "EX", ttl});
   if (!r) return r.error();
   return ok_status();
 }

@@ -13,7 +13,8 @@
 //
 // Delivery is at least once: a task read and not acknowledged (its worker
 // died) stays pending and is reclaimed by another worker once idle for
-// `claim_idle_s` (XAUTOCLAIM); a task is acknowledged only after its
+// `claim_idle_s` (XAUTOCLAIM; while the worker running it lives, its
+// heartbeat thread keeps it from going idle, keep()); a task is acknowledged only after its
 // result is stored, and storing twice keeps the first. A task that failed,
 // or whose workers died, `max_attempts` times goes to S:dead.
 //

@@ -24,9 +24,15 @@ void WorkerPool::loop() {
   while (auto job = store_.take()) {
     const std::string id = job->id;
     spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));
-    auto result = executor_(
-        id, job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
-        [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); }, nullptr);
+    Result<nlohmann::json> result = Error{ErrorCode::internal, "not run", "", std::nullopt};
+    try {
+      result = executor_(
+          id, job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
+          [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); }, nullptr);
+    } catch (const std::exception& e) {  // a bug: this job fails, the daemon carries on
+      result = Error{ErrorCode::internal, std::string("internal error (please report it): ") + e.what(), "",
+                     std::nullopt};
+    }
     if (result) {
       store_.finish(id, result.value());
       spdlog::info("job {} done", id);

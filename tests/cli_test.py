@@ -9,6 +9,9 @@ import datetime
 import io
 import json
 import os
+import random
+import resource
+import struct
 import subprocess
 import sys
 import tempfile
@@ -28,6 +31,37 @@ def run(*args, check=None):
     if check is not None and p.returncode != check:
         raise AssertionError(f"exit {p.returncode}, expected {check}\nstdout: {p.stdout}\nstderr: {p.stderr}")
     return p
+
+
+def write_wav(path, frames, rate, float32=False):
+    """frames: numpy array (n,) or (n, channels). PCM 16 or IEEE float 32, written by hand (the wave module has no
+    float), so headers can state anything."""
+    import numpy as np
+    a = np.asarray(frames)
+    if a.ndim == 1:
+        a = a[:, None]
+    ch = a.shape[1]
+    if float32:
+        data, tag, width = a.astype("<f4").tobytes(), 3, 4
+    else:
+        data, tag, width = (np.clip(a, -1, 1) * 32767).astype("<i2").tobytes(), 1, 2
+    fmt = struct.pack("<HHIIHH", tag, ch, rate, rate * ch * width, ch * width, width * 8)
+    body = b"WAVE" + b"fmt " + struct.pack("<I", len(fmt)) + fmt + b"data" + struct.pack("<I", len(data)) + data
+    with open(path, "wb") as f:
+        f.write(b"RIFF" + struct.pack("<I", len(body)) + body)
+
+
+def read_master(path):
+    """A demo master (16-bit PCM WAV) as mono float32 and its rate."""
+    import numpy as np
+    import wave
+    with wave.open(path) as w:
+        a = np.frombuffer(w.readframes(w.getnframes()), dtype="<i2").reshape(-1, w.getnchannels())
+        return (a.mean(axis=1) / 32768).astype(np.float32), w.getframerate()
+
+
+def limit_memory():
+    resource.setrlimit(resource.RLIMIT_AS, (3 << 30, 3 << 30))  # a runaway allocation fails instead of swapping
 
 
 class DemoLocate(unittest.TestCase):
@@ -125,6 +159,81 @@ class DemoLocate(unittest.TestCase):
     def test_only_bad_recordings_exit_3(self):
         p = run("locate", "--library", self.lib, "--recording", "/nonexistent/h06.flac", *self.common, check=3)
         self.assertIn("/nonexistent/h06.flac", p.stderr)
+
+    def test_library_file_name_that_is_not_utf8(self):
+        lib = os.path.join(os.fsencode(self.tmp.name), b"lib-latin1")
+        os.makedirs(lib, exist_ok=True)
+        with open(os.path.join(self.lib, "marlow-bakery.wav"), "rb") as src, \
+                open(os.path.join(lib, b"marl\xf6w-bakery.wav"), "wb") as dst:
+            dst.write(src.read())
+        p = run("locate", "--library", os.fsdecode(lib), "--recording", self.rec, *self.common, check=0)
+        doc = json.loads(p.stdout)
+        self.assertEqual([t["id"] for t in doc["templates"]], ["marl\ufffdw-bakery"])
+        self.assertIn(37.25, [m["offset_s"] for m in doc["matches"]])
+
+    def test_non_finite_and_absurd_samples_read_as_silence(self):
+        import numpy as np
+        master, rate = read_master(os.path.join(self.lib, "marlow-bakery.wav"))
+        rec = (0.02 * np.random.default_rng(6).standard_normal(rate * 60)).astype(np.float32)
+        rec[20 * rate: 20 * rate + len(master)] += 0.5 * master
+        for at_s, value in [(41.0, np.nan), (45.0, np.inf), (50.0, 3e38), (52.0, -np.inf)]:
+            rec[int(at_s * rate)] = value
+        path = os.path.join(self.tmp.name, "bad-samples.wav")
+        write_wav(path, rec, rate, float32=True)
+        p = run("locate", "--library", self.lib, "--recording", path, *self.common, check=0)
+        doc = json.loads(p.stdout)
+        for m in doc["matches"]:
+            self.assertIsInstance(m["score"], float, m)
+        self.assertEqual([(m["template"], round(m["offset_s"], 3)) for m in doc["matches"]], [("marlow-bakery", 20.0)])
+        self.assertIn("4 sample(s) not finite", p.stderr)
+
+    def test_absurd_sample_rates_and_channel_counts_are_unsupported(self):
+        import numpy as np
+        for name, rate, channels in [("one-hz.wav", 1, 1), ("forty-ch.wav", 44100, 40), ("too-fast.wav", 768000, 1)]:
+            path = os.path.join(self.tmp.name, name)
+            write_wav(path, np.full((200000 // channels, channels), 0.1), rate)
+            p = subprocess.run([ARGS.godwit, "locate", "--library", self.lib, "--recording", path, *self.common],
+                               capture_output=True, text=True, timeout=120, preexec_fn=limit_memory)
+            self.assertEqual(p.returncode, 3, (name, p.stderr[-500:]))
+            err = json.loads(p.stdout)["recordings"][0]["error"]
+            self.assertEqual(err["code"], "unsupported", (name, err))
+            self.assertIn("Hz", err["message"])
+
+    def test_a_recording_that_breaks_part_way_exits_4(self):
+        with open(self.rec, "rb") as f:
+            data = f.read()
+        cut = os.path.join(self.tmp.name, "cut.flac")
+        with open(cut, "wb") as f:
+            f.write(data[: len(data) // 2])
+        doc = json.loads(run("locate", "--library", self.lib, "--recording", cut, *self.common, check=4).stdout)
+        self.assertFalse(doc["complete"])
+        self.assertEqual(doc["recordings"][0]["error"]["code"], "corrupt")
+        self.assertGreater(doc["recordings"][0]["error"]["offset_s"], 60)
+
+    def test_a_wav_cut_short_of_its_header_is_reported(self):
+        import numpy as np
+        master, rate = read_master(os.path.join(self.lib, "marlow-bakery.wav"))
+        rec = (0.02 * np.random.default_rng(12).standard_normal(rate * 60)).astype(np.float32)
+        rec[10 * rate: 10 * rate + len(master)] += 0.5 * master
+        path = os.path.join(self.tmp.name, "short.wav")
+        write_wav(path, rec, rate)
+        os.truncate(path, os.path.getsize(path) * 6 // 10)  # the header still states 60 s
+        doc = json.loads(run("locate", "--library", self.lib, "--recording", path, *self.common, check=4).stdout)
+        self.assertFalse(doc["complete"])
+        err = doc["recordings"][0]["error"]
+        self.assertEqual(err["code"], "corrupt")
+        self.assertIn("stated length", err["message"])
+        self.assertAlmostEqual(err["offset_s"], 36.0, delta=0.1)
+        self.assertEqual([(m["template"], round(m["offset_s"], 3)) for m in doc["matches"]], [("marlow-bakery", 10.0)])
+
+    def test_random_bytes_are_not_a_readable_audio_file(self):
+        path = os.path.join(self.tmp.name, "noise.wav")
+        with open(path, "wb") as f:
+            f.write(b"\xff\xfb" + random.Random(2).randbytes(20000))  # an MPEG frame sync, then nothing
+        doc = json.loads(run("locate", "--library", self.lib, "--recording", path, *self.common, check=3).stdout)
+        msg = doc["recordings"][0]["error"]["message"]
+        self.assertIn("not a readable audio file", msg)
+        self.assertNotIn("pipe", msg)
 
     def test_usage_errors_exit_2(self):
         run("locate", "--recording", self.rec, *self.common, check=2)  # no templates

@@ -95,7 +95,10 @@ class DaemonTests(unittest.TestCase):
     def tearDown(self):
         for d in self.daemons:
             d.stop(signal.SIGKILL)
-        shutil.rmtree(self.tmp, ignore_errors=True)
+        if os.environ.get("KEEP_TMP"):  # for a post-mortem of a failing test
+            print("kept", self.tmp)
+        else:
+            shutil.rmtree(self.tmp, ignore_errors=True)
 
     def start(self, **kw):
         d = Daemon(self.tmp, **kw)
@@ -392,6 +395,363 @@ class DaemonTests(unittest.TestCase):
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
         with open(report[: -len(".json")] + ".html") as f:
             self.assertEqual(f.read().count('class="placement"'), len(doc["placements"]))
+
+    # Hostile input (issue 14). Each test reproduced its defect before the fix.
+
+    def token_daemon(self, **kw):
+        tok = os.path.join(self.tmp, "token")
+        with open(tok, "w") as f:
+            f.write("correct-horse-battery-staple\n")
+        return self.start(args=("--token-file", tok, *kw.pop("args", ())), **kw), "correct-horse-battery-staple"
+
+    def test_deeply_nested_id_without_token_is_refused_and_the_daemon_lives(self):
+        d, token = self.token_daemon()
+        c = d.connect()
+        deep = 100000
+        c.send_raw(b'{"op":"health","id":' + b"[" * deep + b"]" * deep + b"}\n")
+        r = c.read()
+        self.assertIsNotNone(r, "the daemon closed the connection (crashed?)")
+        self.assertEqual(r["error"]["code"], "bad_request")
+        self.assertIn("nest", r["error"]["message"])
+        self.assertNotIn("id", r)
+        # Deep nesting elsewhere in a request, and in objects, too.
+        c.send_raw(b'{"op":"health","x":' + b'{"a":' * deep + b"1" + b"}" * deep + b"}\n")
+        self.assertEqual(c.read()["error"]["code"], "bad_request")
+        # Brackets inside strings do not count.
+        self.assertTrue(c.req({"op": "health", "token": token, "id": "[" * 200})["ok"])
+        # Ids are a string of bounded size or a number.
+        for bad_id in [[1], {"a": 1}, "x" * 5000, True, None]:
+            r = c.req({"op": "health", "token": token, "id": bad_id})
+            self.assertEqual(r["error"]["code"], "bad_request", bad_id)
+            self.assertNotIn("id", r)
+        self.assertEqual(c.req({"op": "health", "token": token, "id": 7})["id"], 7)
+        self.assertIsNone(d.proc.poll(), "godwitd died")
+        self.assertTrue(d.connect().req({"op": "health", "token": token})["ok"])
+
+    def test_file_names_that_are_not_utf8(self):
+        bad = b"h\xe9-0600.flac"  # Latin-1, as some loggers write
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("work", "incoming"):
+            os.makedirs(os.path.join(drop, sub))
+        # Left in work/ by an earlier run: it aborted every start.
+        shutil.copy(DEMO_RECS[0], os.path.join(os.fsencode(drop), b"work", bad))
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", os.path.join(os.fsencode(lib), b"marl\xf6w.wav"))
+        d = self.start(args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        tmpname = os.path.join(os.fsencode(drop), b"incoming", b".x")
+        shutil.copy(DEMO_RECS[1], tmpname)
+        os.rename(tmpname, os.path.join(os.fsencode(drop), b"incoming", b"h\xe9-0605.flac"))
+        results = os.path.join(drop, "results")
+        want = {"h%E9-0600.flac.json", "h%E9-0605.flac.json"}
+        end = time.time() + 120
+        while time.time() < end and not want <= set(os.listdir(results)):
+            self.assertIsNone(d.proc.poll(), "godwitd died")
+            time.sleep(0.2)
+        self.assertTrue(want <= set(os.listdir(results)), os.listdir(results))
+        while time.time() < end and len(os.listdir(os.path.join(drop, "done"))) < 2:  # moved after its result
+            time.sleep(0.2)
+        with open(os.path.join(results, "h%E9-0600.flac.json")) as f:
+            self.assertGreaterEqual(len(json.load(f)["matches"]), 3)
+        self.assertEqual(sorted(os.listdir(os.path.join(drop, "done"))), ["h%E9-0600.flac", "h%E9-0605.flac"])
+        # A library holding such a name: a clear error, not an exception's text.
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertFalse(r["ok"], r)
+        self.assertEqual(r["error"]["code"], "unsupported")
+        self.assertIn("UTF-8", r["error"]["message"])
+        self.assertNotIn("json.exception", r["error"]["message"])
+        self.assertTrue(c.req({"op": "health"})["ok"])
+
+    def test_a_fifo_under_a_root_does_not_freeze_the_daemon(self):
+        d = self.start()
+        fifo = os.path.join(self.tmp, "root", "h07.wav")
+        os.mkfifo(fifo)
+        c = Client(d.port, timeout=10)
+        t0 = time.time()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [fifo]}})
+        self.assertEqual(r["error"]["code"], "unreadable", r)
+        self.assertIn("regular file", r["error"]["message"])
+        self.assertLess(time.time() - t0, 5)
+        self.assertTrue(Client(d.port, timeout=10).req({"op": "health"})["ok"])
+        # A planned log or a sidecar that is a FIFO would hold a worker forever.
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", lib)
+        os.mkfifo(os.path.join(lib, "marlow-bakery.meta.json"))
+        sched = os.path.join(self.tmp, "root", "kestrel-fm-2026-03-14.csv")
+        os.mkfifo(sched)
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "schedule": sched,
+                                           "recordings": DEMO_RECS[:1]}})
+        self.assertEqual(r["error"]["code"], "unreadable", r)
+        os.remove(sched)
+        shutil.copy(f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv", sched)
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "schedule": sched,
+                                           "recordings": DEMO_RECS[:1]}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"], timeout=60)["state"], "done")
+
+    def test_a_torn_journal_line_loses_no_acknowledged_job(self):
+        d = self.start()
+        c = d.connect()
+        b = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]]}})["job"]
+        self.assertEqual(wait_state(c, b)["state"], "done")
+        d.stop()
+        journal = os.path.join(d.state, "journal.jsonl")
+        with open(journal) as f:
+            lines = f.read().splitlines()
+        submit_b = lines[0]
+        torn = submit_b.replace(b, "j000000000000aaa")[: len(submit_b) // 2]
+        with open(journal, "w") as f:  # a half line, then the next acknowledged job glued to it
+            f.write(torn + "\n".join(lines) + "\n" + torn)  # and a torn tail
+        d2 = self.start(state=d.state)
+        c2 = d2.connect()
+        self.assertEqual(c2.req({"op": "status", "job": b}).get("state"), "done")
+        self.assertTrue(c2.req({"op": "result", "job": b})["ok"])
+        self.assertEqual(c2.req({"op": "status", "job": "j000000000000aaa"})["error"]["code"], "unknown_job")
+        # The torn tail was cut off: the next job starts on a line of its own.
+        e = c2.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[1]]}})["job"]
+        d2.stop(signal.SIGKILL)
+        d3 = self.start(state=d.state)
+        self.assertEqual(wait_state(d3.connect(), e)["state"], "done")
+
+    def test_a_full_disk_tears_no_acknowledged_job(self):
+        mnt = os.path.join(self.tmp, "small")
+        os.makedirs(mnt)
+        p = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=2m", "tmpfs", mnt], capture_output=True, text=True)
+        if p.returncode != 0:
+            self.skipTest("cannot mount a 2 MiB tmpfs here (needs root): " + p.stderr.strip())
+        self.addCleanup(subprocess.run, ["umount", "-l", mnt])
+        d = self.start(state=os.path.join(mnt, "state"))
+        c = d.connect()
+        first = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]]}})["job"]
+        self.assertEqual(wait_state(c, first)["state"], "done")
+        filler = os.path.join(mnt, "filler")
+        fd = os.open(filler, os.O_WRONLY | os.O_CREAT)
+        for chunk in (65536, 4096, 1):
+            try:
+                while True:
+                    os.write(fd, b"\0" * chunk)
+            except OSError:
+                pass
+        os.close(fd)
+        # A long line: part of it fits in the journal's last page, then the disk is full.
+        big = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS[:1] * 200}})
+        self.assertFalse(big["ok"], big)
+        self.assertEqual(big["error"]["code"], "io")
+        os.remove(filler)
+        second = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[1]]}})
+        self.assertTrue(second["ok"], second)
+        d.stop(signal.SIGKILL)
+        d2 = self.start(state=d.state)
+        c2 = d2.connect()
+        self.assertEqual(wait_state(c2, second["job"])["state"], "done")
+        self.assertEqual(c2.req({"op": "status", "job": first})["state"], "done")
+
+    def test_a_library_symlink_leading_outside_the_roots_is_forbidden(self):
+        outside = os.path.join(self.tmp, "outside")
+        os.makedirs(outside)
+        shutil.copy(f"{DEMO}/library/kestrel-fm-id.wav", os.path.join(outside, "secret.wav"))
+        lib = os.path.join(self.tmp, "root", "lib")
+        os.makedirs(lib)
+        shutil.copy(f"{DEMO}/library/marlow-bakery.wav", lib)
+        os.symlink(os.path.join(outside, "secret.wav"), os.path.join(lib, "kestrel-fm-id.wav"))
+        d = self.start()
+        c = d.connect()
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertEqual(r.get("error", {}).get("code"), "forbidden", r)
+        self.assertIn("kestrel-fm-id.wav", r["error"]["message"])
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": lib, "recordings": DEMO_RECS,
+                                           "schedule": f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv"}})
+        self.assertEqual(r.get("error", {}).get("code"), "forbidden", r)
+        # A link that stays inside the roots is fine.
+        os.remove(os.path.join(lib, "kestrel-fm-id.wav"))
+        os.symlink(f"{DEMO}/library/kestrel-fm-id.wav", os.path.join(lib, "kestrel-fm-id.wav"))
+        r = c.req({"op": "submit", "job": {"kind": "locate", "library": lib, "recordings": [DEMO_RECS[0]]}})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+
+    def test_refused_inline_spots_and_killed_writes_leave_nothing_behind(self):
+        import base64
+        state = os.path.join(self.tmp, "state")
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("results", "inline/0123456789abcdef"):
+            os.makedirs(os.path.join(state, sub))
+        os.makedirs(os.path.join(drop, "results"))
+        # Left by a kill mid-write, and by a kill between saving inline spots and journaling.
+        stale = [os.path.join(state, "results", ".j0123456789abcde.json.tmp.4242"),
+                 os.path.join(drop, "results", ".h0600.flac.json.tmp.4242"),
+                 os.path.join(state, "inline", "0123456789abcdef", "x.wav")]
+        for p in stale:
+            with open(p, "w") as f:
+                f.write("{")
+        d = self.start(args=("--drop", drop), extra_config="[limits]\nmax_queued = 1\n")
+        for p in stale:
+            self.assertFalse(os.path.exists(p), p)
+        c = d.connect()
+        wav = base64.b64encode(open(f"{DEMO}/library/marlow-bakery.wav", "rb").read()).decode()
+        junk = base64.b64encode(b"not audio at all" * 100).decode()
+        refused = [{"inline": [{"id": "a", "audio_base64": "not base64!"}]},
+                   {"inline": [{"id": "b", "audio_base64": junk}]},
+                   {"inline": [{"id": "c", "audio_base64": wav}], "threshold": 7}]
+        for extra in refused:
+            r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]], **extra}})
+            self.assertFalse(r["ok"], r)
+        self.assertEqual(os.listdir(os.path.join(state, "inline")), [])
+        # Refused by a full queue after its spots were saved.
+        codes = []
+        for _ in range(4):
+            r = c.req({"op": "submit", "job": {**long_job(), "inline": [{"id": "d", "audio_base64": wav}]}})
+            codes.append(r["job"] if r["ok"] else r["error"]["code"])
+        self.assertIn("busy", codes)
+        self.assertEqual(len(os.listdir(os.path.join(state, "inline"))), len([x for x in codes if x != "busy"]))
+
+    def test_drop_folder_loses_and_strands_nothing(self):
+        drop = os.path.join(self.tmp, "drop")
+        for sub in ("incoming", "work"):
+            os.makedirs(os.path.join(drop, sub))
+        incoming = os.path.join(drop, "incoming")
+        outside = os.path.join(self.tmp, "outside")
+        os.makedirs(outside)
+        shutil.copy(DEMO_RECS[1], os.path.join(outside, "secret.flac"))
+        # A link left in work/: set aside at start, never read.
+        os.symlink(os.path.join(outside, "secret.flac"), os.path.join(drop, "work", "w0600.flac"))
+        d = self.start(args=("--drop", drop, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+
+        def move_in(src, name):
+            tmp = os.path.join(incoming, "." + name)
+            shutil.copy(src, tmp)
+            os.rename(tmp, os.path.join(incoming, name))
+
+        def wait_for(paths, timeout=120):
+            end = time.time() + timeout
+            while time.time() < end and not all(os.path.exists(p) for p in paths):
+                time.sleep(0.2)
+            for p in paths:
+                self.assertTrue(os.path.exists(p), p)
+
+        results, done, failed = (os.path.join(drop, x) for x in ("results", "done", "failed"))
+        # The same name twice: both kept, neither result overwritten.
+        move_in(DEMO_RECS[0], "h0600.flac")
+        wait_for([os.path.join(done, "h0600.flac")])  # its result is written first
+        move_in(DEMO_RECS[1], "h0600.flac")
+        wait_for([os.path.join(done, "h0600-2.flac")])
+        with open(os.path.join(results, "h0600.flac.json")) as a, open(os.path.join(results, "h0600-2.flac.json")) as b:
+            self.assertNotEqual(json.load(a)["matches"], json.load(b)["matches"])
+        self.assertEqual(sorted(os.listdir(done)), ["h0600-2.flac", "h0600.flac"])
+        # A writer appending in chunks, closing the file after each.
+        data = open(DEMO_RECS[2], "rb").read()
+        chunks = [data[i: i + len(data) // 4 + 1] for i in range(0, len(data), len(data) // 4 + 1)]
+        for chunk in chunks:
+            with open(os.path.join(incoming, "h0610.flac"), "ab") as f:
+                f.write(chunk)
+            time.sleep(0.3)
+        # A writer's partial file, renamed when complete.
+        with open(os.path.join(incoming, "h0615.flac.part"), "wb") as f:
+            f.write(data)
+        time.sleep(2.5)
+        self.assertTrue(os.path.exists(os.path.join(incoming, "h0615.flac.part")), "a .part file was taken")
+        os.rename(os.path.join(incoming, "h0615.flac.part"), os.path.join(incoming, "h0615.flac"))
+        # Links, folders, dangling links: set aside with a reason.
+        os.symlink(os.path.join(outside, "secret.flac"), os.path.join(incoming, "link.flac"))
+        os.symlink(os.path.join(outside, "nothing.flac"), os.path.join(incoming, "dangling.flac"))
+        os.makedirs(os.path.join(incoming, "folder.flac"))
+        wait_for([os.path.join(done, "h0610.flac"), os.path.join(done, "h0615.flac")] +
+                 [os.path.join(failed, n + ".error.json") for n in ("w0600.flac", "link.flac", "dangling.flac",
+                                                                    "folder.flac")])
+        self.assertEqual(open(os.path.join(done, "h0610.flac"), "rb").read(), data)
+        self.assertFalse(any(n.startswith("h0610-") for n in os.listdir(results)), os.listdir(results))
+        for n, why in (("w0600.flac", "link"), ("link.flac", "link"), ("dangling.flac", "link"),
+                       ("folder.flac", "folder")):
+            with open(os.path.join(failed, n + ".error.json")) as f:
+                self.assertIn(why, json.load(f)["message"])
+            self.assertTrue(os.path.lexists(os.path.join(failed, n)), n)
+            self.assertFalse(os.path.exists(os.path.join(results, n + ".json")), n)
+        self.assertEqual(os.listdir(incoming), [])
+        self.assertTrue(os.path.exists(os.path.join(outside, "secret.flac")))
+        with open(os.path.join(self.tmp, "godwitd.log")) as f:
+            log = f.read()
+        for n in ("link.flac", "dangling.flac", "folder.flac", "w0600.flac"):
+            self.assertIn(n, log)
+
+    def test_large_answers_are_refused_and_finished_jobs_are_paged_and_pruned(self):
+        state = os.path.join(self.tmp, "state")
+        os.makedirs(state)
+        n = 90000  # a `jobs` answer of over 8 MiB
+        with open(os.path.join(state, "journal.jsonl"), "w") as f:
+            for i in range(n):
+                job = f"j{i:015x}"
+                f.write(json.dumps({"event": "submit", "job": job, "spec": {"kind": "locate", "recordings": []},
+                                    "submitted": f"2026-12-01T{i // 3600 % 24:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z"})
+                        + "\n" + json.dumps({"event": "cancelled", "job": job}) + "\n")
+        d = self.start(extra_config="[limits]\nmax_finished_jobs = 500\nmax_reply_bytes = 2048\n")
+        c = d.connect()
+        r = c.req({"op": "jobs", "id": "page1"})
+        self.assertIsNotNone(r, "connection closed without an answer")
+        # 500 jobs are over 2048 bytes: refused, with the id, and the connection stays usable.
+        self.assertEqual(r["error"]["code"], "too_large", r)
+        self.assertEqual(r["id"], "page1")
+        seen = []
+        cursor = None
+        while True:
+            req = {"op": "jobs", "limit": 15}
+            if cursor:
+                req["cursor"] = cursor
+            r = c.req(req)
+            self.assertTrue(r["ok"], r)
+            self.assertLessEqual(len(r["jobs"]), 15)
+            seen += [j["job"] for j in r["jobs"]]
+            cursor = r.get("next")
+            if not cursor:
+                break
+        self.assertEqual(seen, [f"j{i:015x}" for i in range(n - 500, n)])  # the newest, oldest first, each once
+        self.assertEqual(c.req({"op": "status", "job": f"j{0:015x}"})["error"]["code"], "unknown_job")
+        self.assertEqual(c.req({"op": "jobs", "limit": 0})["error"]["code"], "bad_request")
+        with open(os.path.join(state, "journal.jsonl")) as f:
+            self.assertLessEqual(len(f.readlines()), 1000)  # rewritten without the pruned jobs
+        # A finished job beyond the bound is pruned at once, with its result.
+        job = c.req({"op": "submit", "job": {"kind": "locate", "recordings": DEMO_RECS}})["job"]
+        self.assertEqual(wait_state(c, job)["state"], "done")
+        self.assertEqual(c.req({"op": "status", "job": f"j{n - 500:015x}"})["error"]["code"], "unknown_job")
+        r = c.req({"op": "result", "job": job, "id": 9})
+        self.assertEqual(r.get("error", {}).get("code"), "too_large", r)  # the locate document is over 2048 bytes
+        self.assertEqual(r["id"], 9)
+        self.assertTrue(c.req({"op": "health"})["ok"])
+
+    def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
+        d = self.start(extra_config="[limits]\nmax_connections = 8\nmax_connections_per_address = 4\n"
+                                    "idle_timeout_s = 2\nwatch_heartbeat_s = 1\n")
+        held = [d.connect() for _ in range(4)]
+        extra = d.connect()
+        r = extra.read()
+        self.assertEqual(r["error"]["code"], "busy", r)
+        self.assertIn("127.0.0.1", r["error"]["message"])
+        # Another address still gets in.
+        s2 = socket.create_connection(("127.0.0.1", d.port), timeout=10, source_address=("127.0.0.2", 0))
+        f2 = s2.makefile("rwb")
+        f2.write(b'{"op":"health"}\n')
+        f2.flush()
+        self.assertTrue(json.loads(f2.readline())["ok"])
+        s2.close()
+        # Empty lines do not keep a connection open.
+        t0 = time.time()
+        closed = set()
+        while time.time() - t0 < 8 and len(closed) < len(held):
+            for i, c in enumerate(held):
+                if i in closed:
+                    continue
+                try:
+                    c.send_raw(b"\n")
+                except OSError:
+                    closed.add(i)
+            time.sleep(0.3)
+        self.assertEqual(len(closed), len(held), "connections kept open by empty lines")
+        self.assertTrue(d.connect().req({"op": "health"})["ok"])
+        # A watcher is not closed for idleness, and hears a heartbeat.
+        w = d.connect()
+        self.assertTrue(w.req({"op": "watch"})["ok"])
+        time.sleep(3)
+        self.assertEqual(w.read(), {"event": "heartbeat"})
 
 
 if __name__ == "__main__":

@@ -1,7 +1,11 @@
 #include <sndfile.h>
 
 #include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <cstring>
 #include <filesystem>
+#include <fstream>
 #include <mutex>
 #include <vector>
 
@@ -39,6 +43,46 @@ bool length_is_exact(int format) {
   return type == SF_FORMAT_FLAC || type == SF_FORMAT_OGG;
 }
 
+// Replaces samples that are not finite or over kMaxSampleMagnitude in
+// magnitude by 0; returns how many.
+size_t repair_samples(float* x, size_t n) {
+  size_t bad = 0;
+  for (size_t i = 0; i < n; ++i) {
+    if (!(std::fabs(x[i]) <= kMaxSampleMagnitude)) {  // also NaN
+      x[i] = 0;
+      ++bad;
+    }
+  }
+  return bad;
+}
+
+uint32_t le32(const unsigned char* p) { return p[0] | (p[1] << 8) | (p[2] << 16) | (uint32_t(p[3]) << 24); }
+
+// The frames a RIFF/WAVE file's data chunk states, when it states a size
+// (0 and 0xFFFFFFFF are what streaming writers leave). libsndfile clips a
+// data chunk that runs past the end of the file to what is there, so a WAV
+// cut short would otherwise read as complete.
+std::optional<int64_t> wav_stated_frames(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::vector<unsigned char> head(1 << 16);
+  in.read(reinterpret_cast<char*>(head.data()), static_cast<std::streamsize>(head.size()));
+  const size_t got = static_cast<size_t>(in.gcount());
+  if (got < 12 || std::memcmp(head.data(), "RIFF", 4) != 0 || std::memcmp(head.data() + 8, "WAVE", 4) != 0)
+    return std::nullopt;
+  uint32_t block_align = 0;
+  for (size_t pos = 12; pos + 8 <= got;) {
+    const unsigned char* c = head.data() + pos;
+    const uint32_t size = le32(c + 4);
+    if (std::memcmp(c, "fmt ", 4) == 0 && pos + 8 + 14 <= got) block_align = c[8 + 12] | (c[8 + 13] << 8);
+    if (std::memcmp(c, "data", 4) == 0) {
+      if (block_align == 0 || size == 0 || size == 0xFFFFFFFFu) return std::nullopt;
+      return static_cast<int64_t>(size / block_align);
+    }
+    pos += 8 + static_cast<size_t>(size) + (size & 1);
+  }
+  return std::nullopt;
+}
+
 class FileSource final : public AudioSource {
  public:
   FileSource(SNDFILE* sf, AudioInfo info, ChannelChoice choice, bool exact_length)
@@ -59,6 +103,7 @@ class FileSource final : public AudioSource {
       return failure();
     }
     const size_t n = static_cast<size_t>(got);
+    repaired_ += static_cast<int64_t>(repair_samples(scratch_.data(), n * ch));
     if (n == 0 && exact_length_ && info_.native_frames && pos_ < *info_.native_frames) {
       failed_ = true;
       reason_ = "stream ended before its stated length of " +
@@ -78,6 +123,7 @@ class FileSource final : public AudioSource {
       reason_ = sf_strerror(sf_);
       return failure();
     }
+    repaired_ += static_cast<int64_t>(repair_samples(out, static_cast<size_t>(got) * static_cast<size_t>(info_.channels)));
     pos_ += got;
     return static_cast<size_t>(got);
   }
@@ -93,6 +139,7 @@ class FileSource final : public AudioSource {
   }
 
   int64_t position_frames() const override { return pos_; }
+  int64_t repaired_samples() const override { return repaired_; }
 
  private:
   Error failure() const {
@@ -125,6 +172,7 @@ class FileSource final : public AudioSource {
   bool exact_length_;
   std::vector<float> scratch_;
   int64_t pos_ = 0;
+  int64_t repaired_ = 0;
   bool failed_ = false;
   std::string reason_;
 };
@@ -149,6 +197,11 @@ Result<SourcePtr> open_audio_file(const std::string& path, ChannelChoice choice)
     return Error{ErrorCode::not_found, "no such file", path, std::nullopt};
   if (fs::is_directory(status))
     return Error{ErrorCode::unreadable, "is a directory, not an audio file", path, std::nullopt};
+  // Opening a FIFO would block until someone writes to it; a device could
+  // be endless.
+  if (!fs::is_regular_file(status))
+    return Error{ErrorCode::unreadable, "not a regular file (a pipe, socket or device?), not an audio file", path,
+                 std::nullopt};
   if (fs::file_size(path, ec) == 0 && !ec)
     return Error{ErrorCode::empty, "file is empty (0 bytes)", path, std::nullopt};
 
@@ -159,14 +212,26 @@ Result<SourcePtr> open_audio_file(const std::string& path, ChannelChoice choice)
     sf = sf_open(path.c_str(), SFM_READ, &sfi);
     if (sf == nullptr) {
       const int code = sf_error(nullptr);
-      return Error{code_for_open_failure(code),
-                   std::string("cannot decode: ") + sf_strerror(nullptr), path, std::nullopt};
+      std::string why = sf_strerror(nullptr);
+      // libsndfile says this of data it takes for MPEG and cannot read; the
+      // file was just found to be a regular file.
+      if (why.find("not a regular file") != std::string::npos) why = "unrecognised or damaged data";
+      return Error{code_for_open_failure(code), "not a readable audio file: " + why, path, std::nullopt};
     }
   }
   if (sfi.channels <= 0 || sfi.samplerate <= 0) {
     sf_close(sf);
     return Error{ErrorCode::corrupt, "header states no channels or no sample rate", path,
                  std::nullopt};
+  }
+  if (sfi.samplerate < kMinSampleRateHz || sfi.samplerate > kMaxSampleRateHz || sfi.channels > kMaxChannels) {
+    sf_close(sf);
+    return Error{ErrorCode::unsupported,
+                 "header states " + std::to_string(sfi.samplerate) + " Hz and " + std::to_string(sfi.channels) +
+                     " channel(s); recordings and masters need " + std::to_string(int(kMinSampleRateHz)) + " to " +
+                     std::to_string(int(kMaxSampleRateHz)) + " Hz and at most " + std::to_string(kMaxChannels) +
+                     " channels",
+                 path, std::nullopt};
   }
   if (choice.channel >= sfi.channels) {
     sf_close(sf);
@@ -186,7 +251,14 @@ Result<SourcePtr> open_audio_file(const std::string& path, ChannelChoice choice)
     sf_close(sf);
     return Error{ErrorCode::empty, "file holds no audio frames", path, std::nullopt};
   }
-  const bool exact = length_is_exact(sfi.format) && info.native_frames.has_value();
+  bool exact = length_is_exact(sfi.format) && info.native_frames.has_value();
+  const int type = sfi.format & SF_FORMAT_TYPEMASK;
+  if (type == SF_FORMAT_WAV || type == SF_FORMAT_WAVEX) {
+    if (const auto stated = wav_stated_frames(path); stated && info.native_frames && *stated > *info.native_frames) {
+      info.native_frames = *stated;  // what the header promises; the read fails where the audio ends
+      exact = true;
+    }
+  }
   return SourcePtr(std::make_unique<FileSource>(sf, std::move(info), choice, exact));
 }
 

@@ -60,14 +60,32 @@ class AudioSource {
     (void)max_frames;
     return Error{ErrorCode::unsupported, "this source cannot read all channels", info().path, std::nullopt};
   }
+  // Decoded samples (per channel, before any downmix) that were not finite
+  // (NaN, Inf) or larger than kMaxSampleMagnitude in magnitude and were read
+  // as 0 instead, since this source was opened: one such value would
+  // otherwise poison every window around it (NaN scores, false matches).
+  // Default: 0 (a source that never repairs).
+  virtual int64_t repaired_samples() const { return 0; }
 };
+
+// Full scale is 1; float files may exceed it, but not by 60 dB.
+inline constexpr float kMaxSampleMagnitude = 1000.0f;
 
 using SourcePtr = std::unique_ptr<AudioSource>;
 
 // Opens a file through libsndfile (WAV, FLAC, OGG/Vorbis, Opus, MP3, and the
-// rest of what the installed libsndfile decodes). Errors: not_found,
-// unreadable, unsupported, corrupt, empty (a file with no frames), usage (a
-// channel index the file does not have).
+// rest of what the installed libsndfile decodes). Only regular files are
+// opened (a FIFO would block the caller until someone writes to it).
+// Errors: not_found, unreadable (not a regular file, not audio), unsupported
+// (also a sample rate outside kMinSampleRateHz..kMaxSampleRateHz or over
+// kMaxChannels channels), corrupt, empty (a file with no frames), usage (a
+// channel index the file does not have). Samples that are not finite or
+// absurdly large read as 0 (AudioSource::repaired_samples). A WAV whose
+// data chunk states more frames than the file holds reports the stated
+// length and fails with `corrupt` where its audio ends.
+inline constexpr double kMinSampleRateHz = 4000;
+inline constexpr double kMaxSampleRateHz = 384000;
+inline constexpr int kMaxChannels = 32;
 Result<SourcePtr> open_audio_file(const std::string& path, ChannelChoice choice = {});
 
 // How the engine opens a path: files by default; tests substitute their own.
