@@ -40,6 +40,14 @@ Stream recording_stream(const std::string& path, double span_s) {
   return s;
 }
 
+// Every run of a timeline as a stream, at its first file's rate (the rate
+// ConcatSource reads it at; later files may have others).
+void add_runs(const Timeline& timeline, std::vector<Stream>& streams) {
+  for (size_t i = 0; i < timeline.runs.size(); ++i)
+    streams.push_back({run_name(i), run_parts(timeline, i), timeline.runs[i].files.front().native_rate_hz,
+                       timeline.runs[i].duration_s()});
+}
+
 }  // namespace
 
 DistributedJobs::DistributedJobs(QueueUrl url, QueueOptions options, PlanOptions plan, const JobRunner& runner)
@@ -70,11 +78,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
     if (!r) return r.error();
     rec = std::move(r.value());
     plan = plan_reconcile(rec->job, rec->options);
-    for (size_t i = 0; i < plan.timeline.runs.size(); ++i) {
-      Stream s{run_name(i), run_parts(plan.timeline, i), plan.timeline.runs[i].files.front().native_rate_hz, 0};
-      for (const auto& p : s.parts) s.duration_s += static_cast<double>(p.frames - p.skip_frames) / s.rate_hz;
-      streams.push_back(std::move(s));
-    }
+    add_runs(plan.timeline, streams);
     templates = rec->job.masters;
   } else {
     for (const char* field : {"threshold", "floor_k", "fft_size"})
@@ -86,11 +90,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
     lo = runner_.locate_options(spec, warn);
     lplan = plan_locate({templates, spec.at("recordings").get<std::vector<std::string>>()}, lo, {});
     for (const auto& a : lplan.alone) streams.push_back(recording_stream(a, plan_.span_s));
-    for (size_t i = 0; i < lplan.plan.timeline.runs.size(); ++i) {
-      Stream s{run_name(i), run_parts(lplan.plan.timeline, i), lplan.plan.timeline.runs[i].files.front().native_rate_hz, 0};
-      for (const auto& p : s.parts) s.duration_s += static_cast<double>(p.frames - p.skip_frames) / (p.rate_hz > 0 ? p.rate_hz : s.rate_hz);
-      streams.push_back(std::move(s));
-    }
+    add_runs(lplan.plan.timeline, streams);
     base["evidence"] = true;
   }
   const auto tasks = plan_tasks(job_id, base, streams, templates, margin_for(templates, speed_pct), plan_);

@@ -36,13 +36,24 @@ std::vector<Segment> split_stream(const Stream& stream, double span_s, double ma
   return out;
 }
 
-std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, int64_t from_frame, int64_t to_frame) {
+std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, double stream_rate_hz, int64_t from_frame,
+                                     int64_t to_frame) {
+  // Stream frames run at stream_rate_hz; a part logged at another rate
+  // counts its own frames (as ConcatSource does).
   std::vector<ConcatPart> out;
   int64_t start = 0;  // stream frame where the part begins
   for (const auto& p : parts) {
-    const int64_t len = std::max<int64_t>(0, p.frames - p.skip_frames);
+    const double rate = p.rate_hz > 0 ? p.rate_hz : stream_rate_hz;
+    const double own_per_stream = rate / stream_rate_hz;
+    const int64_t len = std::max<int64_t>(0, std::llround(static_cast<double>(p.frames - p.skip_frames) / own_per_stream));
     const int64_t lo = std::max(start, from_frame), hi = std::min(start + len, to_frame);
-    if (hi > lo) out.push_back({p.path, p.skip_frames + (hi - start), p.skip_frames + (lo - start)});
+    if (hi > lo) {
+      const auto own = [&](int64_t stream_frames) {
+        return p.skip_frames + std::min(p.frames - p.skip_frames,
+                                        static_cast<int64_t>(std::llround(static_cast<double>(stream_frames) * own_per_stream)));
+      };
+      out.push_back({p.path, own(hi - start), own(lo - start), p.rate_hz});
+    }
     start += len;
   }
   return out;
@@ -50,7 +61,8 @@ std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, int64
 
 nlohmann::json segment_to_json(const Segment& s) {
   nlohmann::json parts = nlohmann::json::array();
-  for (const auto& p : s.stream.parts) parts.push_back({{"path", p.path}, {"frames", p.frames}, {"skip", p.skip_frames}});
+  for (const auto& p : s.stream.parts)
+    parts.push_back({{"path", p.path}, {"frames", p.frames}, {"skip", p.skip_frames}, {"rate_hz", p.rate_hz}});
   return {{"name", s.stream.name},
           {"parts", parts},
           {"rate_hz", s.stream.rate_hz},
@@ -66,7 +78,8 @@ Result<Segment> segment_from_json(const nlohmann::json& j) {
     Segment s;
     s.stream.name = j.at("name").get<std::string>();
     for (const auto& p : j.at("parts"))
-      s.stream.parts.push_back({p.at("path").get<std::string>(), p.at("frames").get<int64_t>(), p.at("skip").get<int64_t>()});
+      s.stream.parts.push_back({p.at("path").get<std::string>(), p.at("frames").get<int64_t>(), p.at("skip").get<int64_t>(),
+                                p.value("rate_hz", 0.0)});
     s.stream.rate_hz = j.value("rate_hz", 0.0);
     s.stream.duration_s = j.value("duration_s", 0.0);
     s.read_from_s = j.value("read_from_s", 0.0);
@@ -89,14 +102,14 @@ Result<LocateResult> search_segment(const Segment& seg, const std::vector<std::s
     const int64_t from = std::llround(seg.read_from_s * st.rate_hz);
     const int64_t to = std::isfinite(seg.read_to_s) ? std::llround(seg.read_to_s * st.rate_hz)
                                                      : std::numeric_limits<int64_t>::max();
-    parts = window_parts(st.parts, from, to);
+    parts = window_parts(st.parts, st.rate_hz, from, to);
     if (parts.empty())
       return Error{ErrorCode::bad_request, "segment lies beyond its stream's end", st.name, std::nullopt};
   }
   const SourceOpener base = options.opener;
   options.opener = [&parts, &st, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
     if (path != st.name || parts.empty()) return base(path, choice);
-    auto c = ConcatSource::open(path, parts, base, choice);
+    auto c = ConcatSource::open(path, parts, base, choice, st.rate_hz);  // at the whole stream's rate
     if (!c) return c.error();
     return SourcePtr(std::move(c.value()));
   };

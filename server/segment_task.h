@@ -50,7 +50,8 @@ constexpr double kSegmentAlignS = 64;
 std::vector<Segment> split_stream(const Stream& stream, double span_s, double margin_s);
 
 // The parts of the stream's frames [from, to).
-std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, int64_t from_frame, int64_t to_frame);
+std::vector<ConcatPart> window_parts(const std::vector<ConcatPart>& parts, double stream_rate_hz, int64_t from_frame,
+                                     int64_t to_frame);
 
 nlohmann::json segment_to_json(const Segment& s);
 Result<Segment> segment_from_json(const nlohmann::json& j);

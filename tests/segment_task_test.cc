@@ -40,13 +40,20 @@ TEST_CASE("a long stream splits into owned spans that tile it, each read with it
   CHECK(back.value().own_to_s == 3600);
   CHECK(back.value().stream.parts.size() == 3);
   CHECK(back.value().stream.parts[2].frames == 1800 * 8000);
+  // A part's own rate travels with it (a run may mix rates).
+  Segment mixed = segs[0];
+  mixed.stream.parts[1].rate_hz = 44100;
+  auto mixed_back = segment_from_json(segment_to_json(mixed));
+  REQUIRE(mixed_back);
+  CHECK(mixed_back.value().stream.parts[1].rate_hz == 44100);
+  CHECK(mixed_back.value().stream.parts[0].rate_hz == 0);
   CHECK(!segment_from_json(nlohmann::json{{"parts", 3}}));
 }
 
 TEST_CASE("the parts of a window keep each file's own frame numbers") {
   // Two files, the second skipping 100 frames that overlap the first.
   const std::vector<ConcatPart> parts{{"a", 1000, 0}, {"b", 1100, 100}};
-  auto w = window_parts(parts, 900, 1500);
+  auto w = window_parts(parts, 10, 900, 1500);
   REQUIRE(w.size() == 2);
   CHECK(w[0].path == "a");
   CHECK(w[0].skip_frames == 900);
@@ -54,9 +61,20 @@ TEST_CASE("the parts of a window keep each file's own frame numbers") {
   CHECK(w[1].path == "b");
   CHECK(w[1].skip_frames == 100);
   CHECK(w[1].frames == 600);  // stream frame 1500 is b's frame 600
-  CHECK(window_parts(parts, 1200, 1300).size() == 1);
-  CHECK(window_parts(parts, 1200, 1300)[0].skip_frames == 300);
-  CHECK(window_parts(parts, 5000, 6000).empty());
+  CHECK(window_parts(parts, 10, 1200, 1300).size() == 1);
+  CHECK(window_parts(parts, 10, 1200, 1300)[0].skip_frames == 300);
+  CHECK(window_parts(parts, 10, 5000, 6000).empty());
+  // A run whose second file was logged at twice the stream's rate: its
+  // 2000 own frames are 1000 stream frames; stream frame 1500 is its frame 1000.
+  const std::vector<ConcatPart> mixed{{"a", 1000, 0, 10}, {"b", 2000, 0, 20}};
+  auto m = window_parts(mixed, 10, 900, 1500);
+  REQUIRE(m.size() == 2);
+  CHECK(m[0].frames == 1000);
+  CHECK(m[0].skip_frames == 900);
+  CHECK(m[1].rate_hz == 20);
+  CHECK(m[1].skip_frames == 0);
+  CHECK(m[1].frames == 1000);
+  CHECK(window_parts(mixed, 10, 1200, 1300)[0].skip_frames == 400);
 }
 
 TEST_CASE("a stream searched in segments and merged gives the matches of one search of the whole stream") {

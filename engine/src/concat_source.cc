@@ -103,8 +103,7 @@ Result<size_t> ConcatSource::read_impl(float* out, size_t max_frames, bool inter
 
 Status ConcatSource::seek(int64_t frame) {
   if (frame < 0 || frame > total_) return Error{ErrorCode::usage, "seek beyond the end", info_.path, std::nullopt};
-  size_t i = 0;
-  while (i + 1 < starts_.size() && starts_[i + 1] <= frame) ++i;
+  const size_t i = part_at(static_cast<double>(frame));
   if (i != index_) {
     if (auto st = open_part(i); !st) return st;
   }
@@ -117,17 +116,18 @@ Status ConcatSource::seek(int64_t frame) {
   return ok_status();
 }
 
-std::pair<size_t, double> ConcatSource::locate_s(double frame) const {
+size_t ConcatSource::part_at(double frame) const {
   size_t i = 0;
   while (i + 1 < starts_.size() && static_cast<double>(starts_[i + 1]) <= frame) ++i;
+  return i;
+}
+
+std::pair<size_t, double> ConcatSource::locate_s(double frame) const {
+  const size_t i = part_at(frame);
   return {i, static_cast<double>(parts_[i].skip_frames) / part_rate(i) +
                  (frame - static_cast<double>(starts_[i])) / info_.native_rate_hz};
 }
 
-double ConcatSource::part_rate_at(double frame) const {
-  size_t i = 0;
-  while (i + 1 < starts_.size() && static_cast<double>(starts_[i + 1]) <= frame) ++i;
-  return part_rate(i);
-}
+double ConcatSource::part_rate_at(double frame) const { return part_rate(part_at(frame)); }
 
 }  // namespace godwit

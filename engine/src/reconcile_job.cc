@@ -200,18 +200,6 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   std::map<std::string, size_t> index_of;
   for (size_t i = 0; i < ids.size(); ++i) index_of[ids[i]] = i;
 
-  // One stream per run, opened once, for verification and loudness.
-  std::map<size_t, std::unique_ptr<ConcatSource>> run_sources;
-  auto run_source = [&](size_t run) -> ConcatSource* {
-    auto it = run_sources.find(run);
-    if (it == run_sources.end()) {
-      auto c = run < timeline.runs.size() ? ConcatSource::open(run_name(run), run_parts(timeline, run), base, o.locate.channel)
-                                          : Result<std::unique_ptr<ConcatSource>>(Error{ErrorCode::internal, "no such run", "", std::nullopt});
-      it = run_sources.emplace(run, c ? std::move(c.value()) : nullptr).first;
-    }
-    return it->second.get();
-  };
-
   // 4. The evidence of each detection (gathered here unless given).
   if (evidence.size() != matches.size()) {
     evidence.assign(matches.size(), std::nullopt);
@@ -235,9 +223,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     if (!run) continue;
     d.run = *run;
     d.match = m;
-    ConcatSource* concat = run_source(d.run);
-    if (!concat || !evidence[i]) continue;
-    const double rate = concat->info().native_rate_hz;
+    if (d.run >= timeline.runs.size() || !evidence[i]) continue;
     if (evidence[i]->weak) {
       ++res.rejected_weak;
       continue;
@@ -246,7 +232,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     d.foreground_contrast = evidence[i]->foreground_contrast;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
-    const auto [part, in_file_s] = concat->locate_s(m.offset_s * rate);
+    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
     const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;
     d.file_offset_s = in_file_s;

@@ -74,8 +74,9 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
       for (size_t y = x + 1; y < which.size(); ++y) {
         if (drop[which[y]] || !evidence[which[y]]) continue;
         const Match& b = matches[which[y]];
-        const double len = std::min(templates[tindex[a.template_id]].duration_s, templates[tindex[b.template_id]].duration_s);
-        if (b.offset_s - a.offset_s > 0.5 * len) continue;
+        const double len_a = templates[tindex[a.template_id]].duration_s;
+        if (b.offset_s - a.offset_s > 0.5 * len_a) break;  // by offset: none later is closer
+        if (b.offset_s - a.offset_s > 0.5 * templates[tindex[b.template_id]].duration_s) continue;
         if (a.template_id == b.template_id) continue;
         involved.insert(tindex[a.template_id]);
         involved.insert(tindex[b.template_id]);

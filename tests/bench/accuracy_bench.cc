@@ -299,13 +299,13 @@ int main(int argc, char** argv) {
   std::printf("  reproduce: build/tests/bench/accuracy_bench --hours %g --file-min %g --seed %llu\n", hours, file_min,
               static_cast<unsigned long long>(seed));
 
+  std::map<std::string, LocalSeconds> start_of;
+  for (const auto& f : day.files) start_of[f.path] = f.start_s;
   std::vector<Reported> rec_reports;
   for (const auto& a : r.airings) rec_reports.push_back({a.spot, a.aired_s, a.speed, a.coverage, a.undetermined_among, a.recording});
   print_scored("reconcile: airings", score(day, rec_reports, false), hours, true);
 
   if (loc) {
-    std::map<std::string, LocalSeconds> start_of;
-    for (const auto& f : day.files) start_of[f.path] = f.start_s;
     std::vector<Reported> loc_reports;
     for (const auto& m : loc->matches) {
       std::vector<std::string> undetermined;
@@ -338,10 +338,8 @@ int main(int argc, char** argv) {
           line += buf;
         }
       if (loc) {
-        std::map<std::string, LocalSeconds> st;
-        for (const auto& f : day.files) st[f.path] = f.start_s;
         for (const auto& mm : loc->matches)
-          if (std::fabs(st[mm.recording] + mm.offset_s - start) <= tol) {
+          if (std::fabs(start_of[mm.recording] + mm.offset_s - start) <= tol) {
             std::snprintf(buf, sizeof buf, "\n     L %s score %.3f speed %.4f in %s", mm.template_id.c_str(), mm.score, mm.speed,
                           fs::path(mm.recording).filename().c_str());
             line += buf;

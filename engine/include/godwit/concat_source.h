@@ -60,6 +60,7 @@ class ConcatSource final : public AudioSource {
   int64_t total_ = 0;
   std::vector<int64_t> starts_;  // stream frame where part i begins
   std::vector<float> mixed_;     // a part's frames before its channels are matched to the stream's
+  size_t part_at(double frame) const;  // the part holding stream frame `frame`
   double part_rate(size_t i) const { return parts_[i].rate_hz > 0 ? parts_[i].rate_hz : info_.native_rate_hz; }
 };
 

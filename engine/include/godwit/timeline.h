@@ -29,6 +29,11 @@ struct TimelineFile {
 struct TimelineRun {
   std::vector<TimelineFile> files;  // consecutive; rates and codecs may differ
   LocalSeconds start_s() const { return files.front().start_s + files.front().skip_s; }
+  double duration_s() const {
+    double d = 0;
+    for (const auto& f : files) d += f.duration_s - f.skip_s;
+    return d;
+  }
   // Where `t_s` seconds into the run's stream lies: file index and seconds
   // from that file's own start (negative before the first file began,
   // beyond its length after the last one ended).
