@@ -144,3 +144,29 @@ TEST_CASE("a spot's music bed aired alone is detected by the search but not conf
   CHECK(r.value().matches.empty());
   CHECK(r.value().unconfirmed == 1);
 }
+
+TEST_CASE("a file that breaks part way does not cost the files after it in its run") {
+  test::MemoryFiles files;
+  const Samples a = spot_with_tag(20, 5, 105);
+  files.files["lib/alpha.wav"] = {a, kMasterRate};
+  Samples f1 = synth::programme(60, 22050, 12), f2 = synth::programme(60, 22050, 13);
+  plant(f1, 22050, a, 5.0);   // before the break
+  plant(f2, 22050, a, 30.0);  // in the next file
+  files.files["air/st-20260301T060000.flac"] = {f1, 22050, 22050 * 40};  // decoding fails 40 s in
+  files.files["air/st-20260301T060100.flac"] = {f2, 22050};
+  auto r = run_locate_job({{"lib/alpha.wav"}, {"air/st-20260301T060000.flac", "air/st-20260301T060100.flac"}},
+                          test::fast_locate_options(files));
+  REQUIRE(r.ok());
+  const auto& rec = r.value().recordings;
+  REQUIRE(rec.size() == 2);
+  REQUIRE(rec[0].error);
+  CHECK(rec[0].error->offset_s.value_or(-1) == doctest::Approx(40.0).epsilon(1e-3));
+  CHECK(rec[0].duration_s == doctest::Approx(40.0).epsilon(1e-3));
+  CHECK_FALSE(rec[1].error);
+  const auto& ms = r.value().matches;
+  REQUIRE(ms.size() == 2);
+  CHECK(ms[0].recording == "air/st-20260301T060000.flac");
+  CHECK(ms[0].offset_s == doctest::Approx(5.0).epsilon(1e-4));
+  CHECK(ms[1].recording == "air/st-20260301T060100.flac");
+  CHECK(ms[1].offset_s == doctest::Approx(30.0).epsilon(1e-5));
+}

@@ -28,6 +28,7 @@ Result<std::unique_ptr<ConcatSource>> ConcatSource::open(std::string name, std::
     s->total_ += std::max<int64_t>(0, std::llround(static_cast<double>(p.frames - p.skip_frames) * ratio));
   }
   s->info_.native_frames = s->total_;
+  s->broken_.assign(s->parts_.size(), false);
   if (auto st = s->open_part(0); !st) return st.error();
   s->info_.format = s->current_->info().format;
   s->info_.channels = s->current_->info().channels;
@@ -64,10 +65,18 @@ Result<size_t> ConcatSource::read_impl(float* out, size_t max_frames, bool inter
   while (pos_ < total_) {
     const int64_t part_end = index_ + 1 < starts_.size() ? starts_[index_ + 1] : total_;
     if (pos_ >= part_end) {
-      if (auto st = open_part(index_ + 1); !st) return st.error();
+      if (auto st = open_part(index_ + 1); !st) {  // read past it as silence
+        defer(st.error());
+        broken_[++index_] = true;
+      }
       continue;
     }
     const size_t want = static_cast<size_t>(std::min<int64_t>(static_cast<int64_t>(max_frames), part_end - pos_));
+    if (broken_[index_]) {
+      std::fill(out, out + want * width, 0.0f);
+      pos_ += static_cast<int64_t>(want);
+      return want;
+    }
     const size_t part_width = static_cast<size_t>(std::max(1, current_->info().channels));
     Result<size_t> got = size_t{0};
     if (!interleaved) {
@@ -89,7 +98,11 @@ Result<size_t> ConcatSource::read_impl(float* out, size_t max_frames, bool inter
         }
       }
     }
-    if (!got) return got.error();
+    if (!got) {  // a file that breaks part way: the rest of it reads as silence, the run goes on
+      defer(got.error());
+      broken_[index_] = true;
+      continue;
+    }
     size_t n = got.value();
     if (n == 0) {  // shorter than stated: silence up to the stated length
       n = want;
@@ -99,6 +112,12 @@ Result<size_t> ConcatSource::read_impl(float* out, size_t max_frames, bool inter
     return n;
   }
   return size_t{0};
+}
+
+void ConcatSource::defer(Error e) {
+  if (deferred_) return;  // the first is reported
+  e.offset_s = static_cast<double>(pos_) / info_.native_rate_hz;
+  deferred_ = std::move(e);
 }
 
 Status ConcatSource::seek(int64_t frame) {

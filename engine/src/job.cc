@@ -298,6 +298,10 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     }
     correlator.finish(sink);
     if (speed_pass) speed_pass->finish();
+    if (auto e = src.deferred_error(); e && !report.error) {
+      report.error = e;
+      if (o.on_diagnostic) o.on_diagnostic(e->describe() + "; the rest of that file read as silence");
+    }
     report.duration_s = static_cast<double>(stream.native_frames_read()) / src.info().native_rate_hz;
     if (stream.native_frames_read() == 0 && !report.error)
       report.error = Error{ErrorCode::empty, "recording holds no audio", path, std::nullopt};

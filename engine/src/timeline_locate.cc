@@ -202,23 +202,15 @@ Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const L
     const auto run_i = run_index(rr.path);
     if (!rr.error || !run_i || *run_i >= timeline.runs.size()) continue;
     const TimelineRun& run = timeline.runs[*run_i];
+    // The file where it broke; the files after it were read on (concat_source.h).
     const auto [file, in_file_s] = run.locate_s(rr.error->offset_s.value_or(0));
-    for (size_t f = file; f < run.files.size(); ++f) {
-      auto it = report_of.find(run.files[f].path);
-      if (it == report_of.end()) continue;
-      RecordingReport& r = out.recordings[it->second];
-      Error e = *rr.error;
-      e.path = r.path;
-      if (f == file) {
-        e.offset_s = std::max(0.0, in_file_s);
-        r.duration_s = std::max(0.0, in_file_s);
-      } else {
-        e.message = "not searched: " + run.files[file].path + " broke before it (" + e.message + ")";
-        e.offset_s = 0.0;
-        r.duration_s = 0;
-      }
-      r.error = e;
-    }
+    auto it = report_of.find(run.files[file].path);
+    if (it == report_of.end()) continue;
+    RecordingReport& r = out.recordings[it->second];
+    r.error = *rr.error;
+    r.error->path = r.path;
+    r.error->offset_s = std::max(0.0, in_file_s);
+    r.duration_s = std::max(0.0, in_file_s);
   }
   for (auto& m : s.matches) {
     const auto run = run_index(m.recording);

@@ -55,6 +55,9 @@ class AudioSource {
   // Like read(), but every channel, interleaved (out holds max_frames *
   // info().channels values): for loudness, which weighs channels itself.
   // Default: unsupported.
+  // A failure the source read past instead of ending the stream (a run of
+  // files, one of which broke: concat_source.h). Default: none.
+  virtual std::optional<Error> deferred_error() const { return std::nullopt; }
   virtual Result<size_t> read_interleaved(float* out, size_t max_frames) {
     (void)out;
     (void)max_frames;

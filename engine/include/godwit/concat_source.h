@@ -27,6 +27,10 @@ struct ConcatPart {
 class ConcatSource final : public AudioSource {
  public:
   // Opens the first file; later ones are opened as the stream reaches them.
+  // A file that cannot be opened or breaks part way does not end the run:
+  // the rest of it reads as silence and the first such failure is kept
+  // (deferred_error(), offset in stream time), so the files after it are
+  // still searched.
   // A file that turns out shorter than `frames` is padded with silence up
   // to it, so that the stream's frame numbers stay those of the timeline.
   // `stream_rate_hz` 0: the first file's rate.
@@ -39,6 +43,7 @@ class ConcatSource final : public AudioSource {
   Status seek(int64_t frame) override;
   Result<size_t> read_interleaved(float* out, size_t max_frames) override;
   int64_t position_frames() const override { return pos_; }
+  std::optional<Error> deferred_error() const override { return deferred_; }
 
   // Where stream frame `frame` lies: part index and seconds from that
   // file's own start (skipped frames included).
@@ -59,6 +64,9 @@ class ConcatSource final : public AudioSource {
   int64_t pos_ = 0;
   int64_t total_ = 0;
   std::vector<int64_t> starts_;  // stream frame where part i begins
+  void defer(Error e);
+  std::vector<bool> broken_;           // per part: failed; the rest of it reads as silence
+  std::optional<Error> deferred_;      // the first such failure, offset_s in stream time
   std::vector<float> mixed_;     // a part's frames before its channels are matched to the stream's
   size_t part_at(double frame) const;  // the part holding stream frame `frame`
   double part_rate(size_t i) const { return parts_[i].rate_hz > 0 ? parts_[i].rate_hz : info_.native_rate_hz; }
