@@ -16,6 +16,10 @@
 namespace godwit {
 namespace {
 
+// More than half of the placements of known spots fall outside the
+// recorded time: the log and the recordings are likely of different days.
+constexpr int kExitMostlyNotRecorded = 9;
+
 struct ReconcileArgs {
   std::string library;
   std::string schedule;
@@ -24,7 +28,7 @@ struct ReconcileArgs {
   std::vector<std::string> formats{"json", "csv", "html"};
   double window_s = 60;
   double partial_below = 0.9;
-  double horizon_s = 3600;
+  double horizon_s = -1;  // unset: 3 × the window + 4 minutes
   std::string name_pattern = "%Y%m%dT%H%M%S";
   std::string start;
   double loudness_margin_lu = 2.0;
@@ -62,8 +66,16 @@ void print_table(const ReconcileResult& r) {
                   v.deviation_s, a.score, a.coverage, loudness_cell(a).c_str(),
                   reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "", speed_note(a).c_str());
     } else {
-      std::printf("%-10s %-26s %-19s %-13s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
-                  verdict_name(v.status));
+      std::string note;
+      if (v.status == VerdictStatus::not_recorded) {
+        for (const auto& [from, to] : v.unrecorded)
+          note += (note.empty() ? "  not recorded " : ", ") + format_iso8601_local(from, 0).substr(11) + "-" +
+                  format_iso8601_local(to, 0).substr(11);
+      } else if (v.status == VerdictStatus::unknown_spot && !v.suggestion.empty()) {
+        note = "  did you mean " + v.suggestion + "?";
+      }
+      std::printf("%-10s %-26s %-19s %-13s%s\n", p.slot.c_str(), p.spot.c_str(), p.planned.c_str(),
+                  verdict_name(v.status), note.c_str());
     }
   }
   for (size_t i : r.unscheduled) {
@@ -90,7 +102,7 @@ int run(const ReconcileArgs& a) {
   if (auto msg = setup.configure(a.engine, o.locate); !msg.empty()) return fail({ErrorCode::usage, msg, "", {}});
   o.name_pattern = a.name_pattern;
   o.verdicts.partial_below = a.partial_below;
-  o.verdicts.horizon_s = a.horizon_s;
+  if (a.horizon_s >= 0) o.verdicts.horizon_s = a.horizon_s;
   o.loudness.enabled = !a.no_loudness;
   o.loudness.louder_margin_lu = a.loudness_margin_lu;
   o.loudness.target_lufs = a.loudness_target_lufs;
@@ -116,6 +128,21 @@ int run(const ReconcileArgs& a) {
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
+  size_t unknown = 0, not_recorded = 0;
+  for (const auto& v : r.verdicts) {
+    const Placement& p = r.placements[v.placement];
+    if (v.status == VerdictStatus::not_recorded) ++not_recorded;
+    if (v.status != VerdictStatus::unknown_spot) continue;
+    if (++unknown <= 10)
+      warn(a.schedule + ":" + std::to_string(p.line) + ": spot '" + p.spot + "' is not in the library" +
+           (v.suggestion.empty() ? std::string() : "; did you mean '" + v.suggestion + "'?"));
+  }
+  if (unknown > 10) warn(std::to_string(unknown - 10) + " more placements name spots that are not in the library");
+  const size_t judged = r.verdicts.size() - unknown;
+  const bool mostly_unrecorded = judged > 0 && 2 * not_recorded > judged;
+  if (mostly_unrecorded)
+    warn(std::to_string(not_recorded) + " of " + std::to_string(judged) +
+         " placements fall outside the recorded time: do the planned log's dates match the recordings'?");
   size_t failed = 0;
   for (const auto& s : r.recordings) failed += s.error ? 1 : 0;
   for (const auto& t : r.timeline_issues)
@@ -126,6 +153,7 @@ int run(const ReconcileArgs& a) {
   bool any_audio = false;  // a recording that broke part way was read up to its break
   for (const auto& s : r.recordings) any_audio = any_audio || s.duration_s > 0;
   if (!r.recordings.empty() && failed == r.recordings.size() && !any_audio) return 3;
+  if (mostly_unrecorded) return kExitMostlyNotRecorded;
   return failed ? 4 : 0;
 }
 
@@ -137,7 +165,8 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->description(
       "Locate the library's masters in the airchecks (consecutive files form one timeline; spots across\n"
       "file boundaries are found), verify each airing (coverage, version among siblings), and give each\n"
-      "placement of the planned log a verdict: aired, early, late, missing, partial or wrong_version;\n"
+      "placement of the planned log a verdict: aired, early, late, partial, wrong_version, missing,\n"
+      "not_recorded (its window was not wholly recorded) or unknown_spot (not in the library);\n"
       "airings matching no placement are listed as unscheduled. Writes OUT/reconcile.json and\n"
       "OUT/reconcile.csv and OUT/reconcile.html (a self-contained page) and prints the verdicts. Detections are evidence to verify by listening.");
   cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
@@ -152,7 +181,7 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_option("--partial-below", a->partial_below, "coverage under this is a partial airing (default 0.9)")
       ->check(CLI::Range(0.0, 1.0));
   cmd->add_option("--horizon-s", a->horizon_s,
-                  "airings farther than this from a placement are not its (default 3600)")
+                  "airings farther than this from a placement are not its (default: 3 x its window + 240 s)")
       ->check(CLI::Range(0.0, 7 * 86400.0));
   cmd->add_option("--name-pattern", a->name_pattern,
                   "where file names carry the start: %Y %m %d %H %M %S (default %Y%m%dT%H%M%S)");
@@ -167,7 +196,8 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   add_engine_options(cmd, a->engine);
   cmd->footer(
       "Exit codes: 0 done; 2 usage error (bad log header, options); 3 a master or every recording could\n"
-      "not be read; 4 done, but some recording failed; 5 a report could not be written; 130 interrupted.");
+      "not be read; 4 done, but some recording failed; 5 a report could not be written; 9 done, but most\n"
+      "placements fall outside the recorded time (the log's dates and the recordings' disagree); 130 interrupted.");
   return [a]() -> int { return run(*a); };
 }
 

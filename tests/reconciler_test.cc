@@ -73,9 +73,90 @@ TEST_CASE("partial below the coverage fraction; undetermined versions count as t
   CHECK(ok.verdicts[1].status == VerdictStatus::aired);
 }
 
+VerdictOptions fixed_horizon(double s) {
+  VerdictOptions o;
+  o.horizon_s = s;
+  return o;
+}
+
 TEST_CASE("airings beyond the horizon are not a placement's; other spots never are") {
   const std::vector<Placement> p{at("S1", "x", 0, 60)};
-  const auto r = reconcile(p, {{"x", 4000, 1.0, {}}, {"y", 10, 1.0, {}}}, sib, {0.9, 3600});
+  const auto r = reconcile(p, {{"x", 4000, 1.0, {}}, {"y", 10, 1.0, {}}}, sib, fixed_horizon(3600));
   CHECK(r.verdicts[0].status == VerdictStatus::missing);
   CHECK(r.unscheduled.size() == 2);
+}
+
+TEST_CASE("the default horizon follows the window: 3 x window + 4 minutes") {
+  // Window 60 s: horizon 420 s. An airing 421 s late is another airing.
+  const std::vector<Placement> p{at("S1", "x", 10000, 60)};
+  CHECK(reconcile(p, {{"x", 10420, 1.0, {}}}, sib).verdicts[0].status == VerdictStatus::late);
+  const auto far = reconcile(p, {{"x", 10421, 1.0, {}}}, sib);
+  CHECK(far.verdicts[0].status == VerdictStatus::missing);
+  CHECK(far.unscheduled == std::vector<size_t>{0});
+  // An airing an hour away never serves a placement by default.
+  CHECK(reconcile(p, {{"x", 13600, 1.0, {}}}, sib).verdicts[0].status == VerdictStatus::missing);
+  VerdictOptions wide;
+  wide.horizon_windows = 10;
+  CHECK(reconcile(p, {{"x", 10800, 1.0, {}}}, sib, wide).verdicts[0].status == VerdictStatus::late);
+}
+
+TEST_CASE("optimal assignment: a greedy first pick must not starve a later placement") {
+  // S1 could take either airing; S2 only reaches the one at 1090. Greedy
+  // (closest pair first) gives S1 the airing at 1090 (20 s away) and
+  // leaves S2 missing; the matching serves both.
+  const std::vector<Placement> p{at("S1", "x", 1070, 60), at("S2", "x", 1200, 60)};
+  VerdictOptions o = fixed_horizon(120);
+  const auto r = reconcile(p, {{"x", 1000, 1.0, {}}, {"x", 1090, 1.0, {}}}, sib, o);
+  CHECK(r.verdicts[0].status == VerdictStatus::early);  // 1000 - 1070 = -70 s
+  CHECK(*r.verdicts[0].airing == 0);
+  CHECK(r.verdicts[1].status == VerdictStatus::early);  // 1090 - 1200 = -110 s
+  CHECK(*r.verdicts[1].airing == 1);
+  CHECK(r.unscheduled.empty());
+}
+
+TEST_CASE("optimal assignment: the same spot outside the window beats a sibling inside it") {
+  const std::vector<Placement> p{at("S1", "tyres-a", 1000, 60)};
+  const auto r = reconcile(p, {{"tyres-b", 1005, 1.0, {}}, {"tyres-a", 1200, 1.0, {}}}, sib);
+  CHECK(r.verdicts[0].status == VerdictStatus::late);
+  CHECK(*r.verdicts[0].airing == 1);
+  CHECK(r.unscheduled == std::vector<size_t>{0});
+}
+
+TEST_CASE("not_recorded: a window not wholly recorded, with what was and was not") {
+  // Recorded 06:00-07:00 (21600-25200 s) and 07:10-08:00 (25800-28800).
+  VerdictContext ctx;
+  ctx.library_length_s = {{"x", 30.0}};
+  ctx.recorded = std::vector<LocalSpan>{{21600, 25200}, {25800, 28800}};
+  const std::vector<Placement> p{
+      at("S1", "x", 22000, 60),  // wholly recorded, nothing found: missing
+      at("S2", "x", 25500, 60),  // in the gap: not recorded at all
+      at("S3", "x", 25190, 60),  // window 25130-25280 runs into the gap
+      at("S4", "x", 30000, 60),  // after the last recording
+      at("S5", "x", 21000, 60),  // before the first
+  };
+  const auto r = reconcile(p, {}, sib, {}, ctx);
+  CHECK(r.verdicts[0].status == VerdictStatus::missing);
+  for (size_t i = 1; i < 5; ++i) CHECK(r.verdicts[i].status == VerdictStatus::not_recorded);
+  REQUIRE(r.verdicts[1].unrecorded.size() == 1);
+  CHECK(r.verdicts[1].unrecorded[0] == LocalSpan{25440, 25590});
+  CHECK(r.verdicts[1].recorded.empty());
+  REQUIRE(r.verdicts[2].recorded.size() == 1);
+  CHECK(r.verdicts[2].recorded[0] == LocalSpan{25130, 25200});
+  CHECK(r.verdicts[2].unrecorded[0] == LocalSpan{25200, 25280});
+  // An airing found in a partly recorded window still gets its verdict.
+  const auto found = reconcile({at("S3", "x", 25190, 60)}, {{"x", 25150, 1.0, {}}}, sib, {}, ctx);
+  CHECK(found.verdicts[0].status == VerdictStatus::aired);
+}
+
+TEST_CASE("unknown_spot, with a suggestion for a case or small spelling difference") {
+  VerdictContext ctx;
+  ctx.library_length_s = {{"harbour-bakery", 20.0}, {"quarry-tiles", 30.0}};
+  const std::vector<Placement> p{at("S1", "Harbour-Bakery", 1000, 60), at("S2", "quary-tiles", 2000, 60),
+                                 at("S3", "zz-unrelated", 3000, 60)};
+  const auto r = reconcile(p, {{"harbour-bakery", 1000, 1.0, {}}}, sib, {}, ctx);
+  for (const auto& v : r.verdicts) CHECK(v.status == VerdictStatus::unknown_spot);
+  CHECK(r.verdicts[0].suggestion == "harbour-bakery");
+  CHECK(r.verdicts[1].suggestion == "quarry-tiles");
+  CHECK(r.verdicts[2].suggestion.empty());
+  CHECK(r.unscheduled.size() == 1);  // the airing is not given to a placement of an unknown id
 }

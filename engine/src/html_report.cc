@@ -33,7 +33,8 @@ std::string fmt(const char* f, double v) {
 const char* colour(const std::string& status) {
   static const std::map<std::string, const char*> c = {
       {"aired", "#2e7d32"}, {"early", "#ef6c00"}, {"late", "#ef6c00"}, {"missing", "#c62828"},
-      {"partial", "#8e24aa"}, {"wrong_version", "#ad1457"}, {"unscheduled", "#1565c0"}};
+      {"partial", "#8e24aa"}, {"wrong_version", "#ad1457"}, {"unscheduled", "#1565c0"},
+      {"not_recorded", "#757575"}, {"unknown_spot", "#5d4037"}};
   auto it = c.find(status);
   return it == c.end() ? "#555" : it->second;
 }
@@ -72,6 +73,24 @@ std::string loudness_cell(const AiringRecord& a, const LoudnessOptions& o) {
   return s;
 }
 
+// Why a placement has no airing, for people.
+std::string no_airing_note(const Verdict& v) {
+  auto spans = [](const std::vector<LocalSpan>& v) {
+    std::string s;
+    for (const auto& [from, to] : v)
+      s += (s.empty() ? "" : ", ") + format_iso8601_local(from, 0).substr(11) + "-" + format_iso8601_local(to, 0).substr(11);
+    return s;
+  };
+  switch (v.status) {
+    case VerdictStatus::not_recorded:
+      return "not recorded: " + spans(v.unrecorded) + (v.recorded.empty() ? "" : "; recorded without an airing: " + spans(v.recorded));
+    case VerdictStatus::unknown_spot:
+      return "this spot is not in the library" + (v.suggestion.empty() ? std::string() : " (did you mean " + v.suggestion + "?)");
+    default:
+      return "no airing found within the horizon";
+  }
+}
+
 }  // namespace
 
 std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions& o) {
@@ -104,8 +123,11 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
   h += "<h1>godwit report: " + esc(o.title) + "</h1>\n";
   h += "<div id=\"cautions\"><p>" + esc(kEvidenceCaution) + "</p><p>" + esc(kLoudnessCaution) + "</p></div>\n";
   h += "<h2>Summary</h2><div id=\"summary\">";
-  for (const char* s : {"aired", "early", "late", "partial", "wrong_version", "missing", "unscheduled"})
-    h += std::string("<span class=\"count\" data-status=\"") + s + "\" style=\"background:" + colour(s) + "\">" + s +
+  std::vector<std::string> shown;
+  for (VerdictStatus st : all_verdicts()) shown.push_back(verdict_name(st));
+  shown.push_back("unscheduled");
+  for (const std::string& s : shown)
+    h += "<span class=\"count\" data-status=\"" + s + "\" style=\"background:" + colour(s) + "\">" + s +
          ": <b>" + std::to_string(counts[s]) + "</b></span>";
   h += "</div>\n";
 
@@ -171,7 +193,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
            "</td><td class=\"small\">" + esc(a.recording) + " @ " + fmt("%.3f s", a.offset_s) + "</td><td class=\"small\">" +
            loudness_cell(a, o.loudness) + "</td><td>" + sparkline(a.profile) + "</td>";
     } else {
-      h += "<td colspan=\"8\" class=\"small\">no airing found within the horizon</td>";
+      h += "<td colspan=\"8\" class=\"small\">" + esc(no_airing_note(v)) + "</td>";
     }
     h += "</tr>\n";
   }

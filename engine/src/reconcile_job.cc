@@ -75,6 +75,31 @@ std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
   return parts;
 }
 
+std::vector<LocalSpan> recorded_spans(const Timeline& timeline, const std::vector<RecordingStatus>& recordings) {
+  std::map<std::string, const RecordingStatus*> status_of;
+  for (const auto& st : recordings) status_of[st.path] = &st;
+  std::vector<LocalSpan> spans;
+  for (const auto& run : timeline.runs)
+    for (const auto& f : run.files) {
+      LocalSeconds from = f.start_s + f.skip_s, to = f.start_s + f.duration_s;
+      if (auto it = status_of.find(f.path); it != status_of.end() && it->second->error) {
+        // Read up to where it broke; nothing of it when that is not known.
+        const auto& e = *it->second->error;
+        to = e.offset_s ? std::min(to, f.start_s + *e.offset_s) : from;
+      }
+      if (to <= from) continue;
+      if (!spans.empty() && from <= spans.back().second + 1e-6) spans.back().second = std::max(spans.back().second, to);
+      else spans.push_back({from, to});
+    }
+  std::sort(spans.begin(), spans.end());
+  std::vector<LocalSpan> merged;
+  for (const auto& s : spans) {
+    if (!merged.empty() && s.first <= merged.back().second + 1e-6) merged.back().second = std::max(merged.back().second, s.second);
+    else merged.push_back(s);
+  }
+  return merged;
+}
+
 ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
   ReconcilePlan plan;
   const SourceOpener& base = o.locate.opener;
@@ -147,17 +172,15 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     if (!rr.error) continue;
     // Attach a run's failure to the file where it happened.
     const auto& run = timeline.runs[i];
+    Error e = *rr.error;
     std::string where = run.files.front().path;
-    if (rr.error->offset_s) {
-      double t = *rr.error->offset_s;
-      for (const auto& f : run.files) {
-        where = f.path;
-        if (t < f.duration_s - f.skip_s) break;
-        t -= f.duration_s - f.skip_s;
-      }
+    if (e.offset_s) {  // run time to the file's own time
+      const auto [part, in_file_s] = run.locate_s(*e.offset_s);
+      where = run.files[part].path;
+      e.offset_s = in_file_s;
     }
     for (auto& st : res.recordings)
-      if (st.path == where && !st.error) st.error = rr.error;
+      if (st.path == where && !st.error) st.error = e;
   }
   if (templates.empty())
     for (const auto& m : job.masters) templates.push_back({template_id_for(m), m, 0, 0});
@@ -282,12 +305,12 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     auto ix = index_of.find(x), iy = index_of.find(y);
     return ix != index_of.end() && iy != index_of.end() && fam.siblings(ix->second, iy->second);
   };
-  Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts);
+  VerdictContext ctx;
+  for (const auto& t : templates) ctx.library_length_s[t.id] = t.duration_s;
+  ctx.recorded = recorded_spans(timeline, res.recordings);
+  Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts, ctx);
   res.verdicts = std::move(rec.verdicts);
   res.unscheduled = std::move(rec.unscheduled);
-  for (const auto& p : res.placements)
-    if (!index_of.count(p.spot))
-      res.log_problems.push_back({p.line, "spot '" + p.spot + "' is not in the library; the slot can only be missing"});
   return res;
 }
 

@@ -73,7 +73,8 @@ const std::string& reported_spot(const AiringRecord& a, const Placement& p) {
 
 nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& lo) {
   nlohmann::json j;
-  nlohmann::json summary = {{"aired", 0}, {"early", 0}, {"late", 0}, {"missing", 0}, {"partial", 0}, {"wrong_version", 0}};
+  nlohmann::json summary = nlohmann::json::object();
+  for (VerdictStatus st : all_verdicts()) summary[verdict_name(st)] = 0;
   j["placements"] = nlohmann::json::array();
   for (const auto& v : r.verdicts) {
     const Placement& p = r.placements[v.placement];
@@ -86,6 +87,16 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
       x["deviation_s"] = detail::round_decimals(v.deviation_s, 3);
       x["detected_spot"] = reported_spot(a, p);
     }
+    if (v.status == VerdictStatus::not_recorded) {
+      auto spans = [](const std::vector<LocalSpan>& v) {
+        nlohmann::json a = nlohmann::json::array();
+        for (const auto& [from, to] : v) a.push_back({format_iso8601_local(from, 3), format_iso8601_local(to, 3)});
+        return a;
+      };
+      x["unrecorded"] = spans(v.unrecorded);
+      x["recorded"] = spans(v.recorded);
+    }
+    if (v.status == VerdictStatus::unknown_spot && !v.suggestion.empty()) x["did_you_mean"] = v.suggestion;
     j["placements"].push_back(std::move(x));
   }
   j["unscheduled"] = nlohmann::json::array();

@@ -145,6 +145,10 @@ struct ReconcilePlan {
 // Step 1: every recording opened, its start and length found (decoding
 // those whose container does not state it), and the timeline built.
 ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& options);
+// The local time recorded and read: every file of the timeline, a file
+// that broke part way up to where it broke (none of one whose failure has
+// no position). Sorted, disjoint.
+std::vector<LocalSpan> recorded_spans(const Timeline& timeline, const std::vector<RecordingStatus>& recordings);
 // The name under which run i is searched ("run:0") and its files as one stream.
 std::string run_name(size_t run);
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run);
