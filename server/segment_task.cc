@@ -136,7 +136,10 @@ nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e) {
   nlohmann::json missing = nlohmann::json::array();
   for (const auto& [from, to] : p.missing_s) missing.push_back({from, to});
   nlohmann::json j{{"segment_s", p.segment_s}, {"scores", p.scores}, {"aired", p.aired},
-                   {"coverage", p.coverage}, {"missing_s", missing}, {"weak", e->weak}};
+                   {"coverage", p.coverage}, {"missing_s", missing}, {"weak", e->weak},
+                   {"aired_part", {p.aired_from_s, p.aired_to_s, p.aired_from_range_s.first, p.aired_from_range_s.second,
+                                   p.aired_to_range_s.first, p.aired_to_range_s.second, p.coverage_range.first,
+                                   p.coverage_range.second, p.aired_level}}};
   if (e->foreground_contrast) j["foreground_contrast"] = *e->foreground_contrast;
   if (e->spot_lufs) j["spot_lufs"] = *e->spot_lufs;
   if (e->programme_lufs) j["programme_lufs"] = *e->programme_lufs;
@@ -153,6 +156,13 @@ Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json
     e.profile.coverage = j.at("coverage").get<double>();
     for (const auto& r : j.at("missing_s")) e.profile.missing_s.emplace_back(r.at(0).get<double>(), r.at(1).get<double>());
     e.weak = j.at("weak").get<bool>();
+    const auto part = j.at("aired_part").get<std::vector<double>>();
+    if (part.size() != 9) return Error{ErrorCode::internal, "evidence: aired_part needs 9 numbers", "", std::nullopt};
+    e.profile.aired_from_s = part[0], e.profile.aired_to_s = part[1];
+    e.profile.aired_from_range_s = {part[2], part[3]};
+    e.profile.aired_to_range_s = {part[4], part[5]};
+    e.profile.coverage_range = {part[6], part[7]};
+    e.profile.aired_level = part[8];
     if (j.contains("foreground_contrast")) e.foreground_contrast = j["foreground_contrast"].get<double>();
     if (j.contains("spot_lufs")) e.spot_lufs = j["spot_lufs"].get<double>();
     if (j.contains("programme_lufs")) e.programme_lufs = j["programme_lufs"].get<double>();

@@ -114,12 +114,17 @@ TEST_CASE("optimal assignment: a greedy first pick must not starve a later place
   CHECK(r.unscheduled.empty());
 }
 
-TEST_CASE("optimal assignment: the same spot outside the window beats a sibling inside it") {
+TEST_CASE("optimal assignment: a sibling inside the window beats the same spot outside it") {
   const std::vector<Placement> p{at("S1", "tyres-a", 1000, 60)};
   const auto r = reconcile(p, {{"tyres-b", 1005, 1.0, {}}, {"tyres-a", 1200, 1.0, {}}}, sib);
-  CHECK(r.verdicts[0].status == VerdictStatus::late);
-  CHECK(*r.verdicts[0].airing == 1);
-  CHECK(r.unscheduled == std::vector<size_t>{0});
+  CHECK(r.verdicts[0].status == VerdictStatus::wrong_version);
+  CHECK(*r.verdicts[0].airing == 0);
+  CHECK(r.unscheduled == std::vector<size_t>{1});
+  // With a second placement for the later airing, both are served.
+  const std::vector<Placement> two{at("S1", "tyres-a", 1000, 60), at("S2", "tyres-a", 1190, 60)};
+  const auto both = reconcile(two, {{"tyres-b", 1005, 1.0, {}}, {"tyres-a", 1200, 1.0, {}}}, sib);
+  CHECK(both.verdicts[0].status == VerdictStatus::wrong_version);
+  CHECK(both.verdicts[1].status == VerdictStatus::aired);
 }
 
 TEST_CASE("not_recorded: a window not wholly recorded, with what was and was not") {
@@ -159,4 +164,39 @@ TEST_CASE("unknown_spot, with a suggestion for a case or small spelling differen
   CHECK(r.verdicts[1].suggestion == "quarry-tiles");
   CHECK(r.verdicts[2].suggestion.empty());
   CHECK(r.unscheduled.size() == 1);  // the airing is not given to a placement of an unknown id
+}
+
+#include <algorithm>
+#include <random>
+
+#include "../engine/src/min_cost_assignment.h"
+
+TEST_CASE("min-cost assignment equals exhaustive search on random matrices") {
+  // Reference: every injective row-to-column map enumerated (brute force,
+  // independent of the Hungarian method's potentials).
+  std::mt19937 rng(11);
+  for (int trial = 0; trial < 200; ++trial) {
+    const size_t rows = 1 + rng() % 5, cols = rows + rng() % 3;
+    std::vector<std::vector<detail::AssignmentCost>> cost(rows, std::vector<detail::AssignmentCost>(cols));
+    for (auto& r : cost)
+      for (auto& c : r) c = static_cast<detail::AssignmentCost>(rng() % 50);
+    const auto got = detail::min_cost_assignment(cost);
+    detail::AssignmentCost got_sum = 0;
+    std::vector<bool> taken(cols, false);
+    for (size_t r = 0; r < rows; ++r) {
+      REQUIRE(got[r] < cols);
+      CHECK_FALSE(taken[got[r]]);
+      taken[got[r]] = true;
+      got_sum += cost[r][got[r]];
+    }
+    std::vector<size_t> perm(cols);
+    for (size_t i = 0; i < cols; ++i) perm[i] = i;
+    detail::AssignmentCost best = -1;
+    do {
+      detail::AssignmentCost s = 0;
+      for (size_t r = 0; r < rows; ++r) s += cost[r][perm[r]];
+      if (best < 0 || s < best) best = s;
+    } while (std::next_permutation(perm.begin(), perm.end()));
+    CHECK(static_cast<long long>(got_sum) == static_cast<long long>(best));
+  }
 }

@@ -9,27 +9,27 @@ namespace godwit::detail {
 // one at a time and the cheapest augmenting path to a free column is found
 // with Dijkstra-like relaxation over reduced costs (row potentials u,
 // column potentials v). 1-based internally; column 0 is the virtual start.
-std::vector<size_t> min_cost_assignment(const std::vector<std::vector<int64_t>>& cost) {
+std::vector<size_t> min_cost_assignment(const std::vector<std::vector<AssignmentCost>>& cost) {
   const size_t n = cost.size();
   if (n == 0) return {};
   const size_t m = cost[0].size();
   if (m < n) throw std::invalid_argument("min_cost_assignment: more rows than columns");
-  constexpr int64_t kInf = std::numeric_limits<int64_t>::max() / 4;
-  std::vector<int64_t> u(n + 1, 0), v(m + 1, 0);
+  const AssignmentCost kInf = static_cast<AssignmentCost>(std::numeric_limits<int64_t>::max()) << 60;
+  std::vector<AssignmentCost> u(n + 1, 0), v(m + 1, 0);
   std::vector<size_t> row_of(m + 1, 0), way(m + 1, 0);
   for (size_t i = 1; i <= n; ++i) {
     row_of[0] = i;
     size_t j0 = 0;
-    std::vector<int64_t> minv(m + 1, kInf);
+    std::vector<AssignmentCost> minv(m + 1, kInf);
     std::vector<char> used(m + 1, 0);
     do {
       used[j0] = 1;
       const size_t i0 = row_of[j0];
-      int64_t delta = kInf;
+      AssignmentCost delta = kInf;
       size_t j1 = 0;
       for (size_t j = 1; j <= m; ++j) {
         if (used[j]) continue;
-        const int64_t cur = cost[i0 - 1][j - 1] - u[i0] - v[j];
+        const AssignmentCost cur = cost[i0 - 1][j - 1] - u[i0] - v[j];
         if (cur < minv[j]) {
           minv[j] = cur;
           way[j] = j0;

@@ -299,15 +299,32 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   }
 
   // 7. Verdicts.
+  const std::vector<LocalSpan> recorded = recorded_spans(timeline, res.recordings);
   std::vector<AiringRef> refs;
-  for (const auto& a : res.airings) refs.push_back({a.spot, a.aired_s, a.coverage, a.undetermined_among});
+  for (auto& a : res.airings) {
+    double unrecorded_s = 0;
+    for (const auto& [from, to] : a.missing_s) {
+      const auto [out, in] = split_by_cover({a.aired_s + from / a.speed, a.aired_s + to / a.speed}, recorded);
+      double out_s = 0;
+      for (const auto& [f, t] : out) out_s += (t - f) * a.speed;
+      if (out_s <= 0) continue;
+      // A frame's slop at the recording's edge still counts as unrecorded.
+      if (to - from - out_s < 0.5) out_s = to - from;
+      a.unrecorded_s.push_back(out.front().first <= a.aired_s + from / a.speed + 1e-6
+                                   ? std::pair{from, from + out_s}
+                                   : std::pair{to - out_s, to});
+      unrecorded_s += out_s;
+    }
+    const double judged = a.length_s > 0 ? std::min(1.0, a.coverage + unrecorded_s / a.length_s) : a.coverage;
+    refs.push_back({a.spot, a.aired_s, judged, a.undetermined_among});
+  }
   auto siblings = [&](const std::string& x, const std::string& y) {
     auto ix = index_of.find(x), iy = index_of.find(y);
     return ix != index_of.end() && iy != index_of.end() && fam.siblings(ix->second, iy->second);
   };
   VerdictContext ctx;
   for (const auto& t : templates) ctx.library_length_s[t.id] = t.duration_s;
-  ctx.recorded = recorded_spans(timeline, res.recordings);
+  ctx.recorded = recorded;
   Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts, ctx);
   res.verdicts = std::move(rec.verdicts);
   res.unscheduled = std::move(rec.unscheduled);

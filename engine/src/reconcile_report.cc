@@ -49,6 +49,21 @@ nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
   nlohmann::json missing = nlohmann::json::array();
   for (const auto& [from, to] : a.missing_s) missing.push_back({detail::round_decimals(from, 3), detail::round_decimals(to, 3)});
   j["missing"] = missing;
+  if (!a.unrecorded_s.empty()) {
+    nlohmann::json u = nlohmann::json::array();
+    for (const auto& [from, to] : a.unrecorded_s) u.push_back({detail::round_decimals(from, 3), detail::round_decimals(to, 3)});
+    j["not_recorded"] = u;
+  }
+  const Profile& pr = a.profile;
+  if (pr.aired_to_s > pr.aired_from_s)
+    j["aired_part"] = {{"from_s", detail::round_decimals(pr.aired_from_s, 3)},
+                       {"to_s", detail::round_decimals(pr.aired_to_s, 3)},
+                       {"from_range_s", {detail::round_decimals(pr.aired_from_range_s.first, 3),
+                                         detail::round_decimals(pr.aired_from_range_s.second, 3)}},
+                       {"to_range_s", {detail::round_decimals(pr.aired_to_range_s.first, 3),
+                                       detail::round_decimals(pr.aired_to_range_s.second, 3)}},
+                       {"coverage_range", {detail::round_decimals(pr.coverage_range.first, 3),
+                                           detail::round_decimals(pr.coverage_range.second, 3)}}};
   if (!a.undetermined_among.empty()) j["version_undetermined_among"] = a.undetermined_among;
   if (!a.versions.empty()) {
     nlohmann::json v = nlohmann::json::array();

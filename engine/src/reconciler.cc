@@ -12,16 +12,15 @@ namespace godwit {
 namespace {
 
 // Pair costs as exact integers: (class << 24 | deviation in 10 ms) << 20 |
-// tie-break ranks, class = 2 × sibling + outside the window. A placement
-// left without an airing costs more than any pair, so the matching serves
-// as many placements as it can first.
+// tie-break ranks, class = 2 × outside the window + sibling. A placement
+// left without an airing costs more than the pairs of a whole group
+// together, so the matching serves as many placements as it can first.
 constexpr int kDevBits = 24, kRankBits = 10;
-constexpr int64_t kNone = int64_t{4} << (kDevBits + 2 * kRankBits);
-constexpr int64_t kForbidden = kNone + 1;
+constexpr int64_t kMaxPair = int64_t{4} << (kDevBits + 2 * kRankBits);
 
 struct Candidate {
   size_t p, a;
-  int klass;      // 2 × sibling + outside
+  int klass;      // 2 × outside the window + sibling
   double dev_s;
 };
 
@@ -146,7 +145,7 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
       if (!same && !(siblings && siblings(pl.spot, ar.spot))) continue;
       const double dev = ar.aired_s - pl.planned_s;
       if (std::fabs(dev) > horizon) continue;
-      cands.push_back({p, a, (same ? 0 : 2) + (std::fabs(dev) > pl.window_s ? 1 : 0), dev});
+      cands.push_back({p, a, (std::fabs(dev) > pl.window_s ? 2 : 0) + (same ? 0 : 1), dev});
       sets.join(p, placements.size() + a);
     }
   }
@@ -174,8 +173,10 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
     for (size_t i = 0; i < rows.size(); ++i) row_at[rows[i]] = i;
     for (size_t j = 0; j < cols.size(); ++j) col_at[cols[j]] = j;
     // Columns: the group's airings, then one "no airing" column per row.
-    std::vector<std::vector<int64_t>> cost(rows.size(), std::vector<int64_t>(cols.size() + rows.size(), kForbidden));
-    for (auto& row : cost) std::fill(row.begin() + static_cast<std::ptrdiff_t>(cols.size()), row.end(), kNone);
+    using Cost = detail::AssignmentCost;
+    const Cost none = static_cast<Cost>(kMaxPair) * static_cast<Cost>(rows.size() + 1);
+    std::vector<std::vector<Cost>> cost(rows.size(), std::vector<Cost>(cols.size() + rows.size(), none + 1));
+    for (auto& row : cost) std::fill(row.begin() + static_cast<std::ptrdiff_t>(cols.size()), row.end(), none);
     std::map<std::pair<size_t, size_t>, const Candidate*> pair_of;
     for (const auto& c : cands) {
       auto it = row_at.find(c.p);
@@ -195,7 +196,7 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
       used[c.a] = true;
       v.airing = c.a;
       v.deviation_s = c.dev_s;
-      if (c.klass >= 2) v.status = VerdictStatus::wrong_version;
+      if (c.klass % 2 == 1) v.status = VerdictStatus::wrong_version;
       else if (ar.coverage < o.partial_below) v.status = VerdictStatus::partial;
       else if (v.deviation_s < -pl.window_s) v.status = VerdictStatus::early;
       else if (v.deviation_s > pl.window_s) v.status = VerdictStatus::late;

@@ -65,6 +65,8 @@ struct Scored {
   int eligible = 0, eligible_found = 0, low = 0, low_found = 0;
   int version_confusions = 0, undetermined_with_tag = 0;
   std::vector<double> timing_ms, raw_timing_ms, speed_err, coverage_err;
+  int complete_called_partial = 0;  // whole airings (SNR >= 3 dB) with coverage under 0.9
+  std::vector<std::pair<double, std::string>> worst_coverage;
   std::map<std::string, int> false_alarms;  // by kind
   int total_reported = 0, true_reported = 0;
   Tally tally;
@@ -146,6 +148,13 @@ Scored score(const AirDay& day, const std::vector<Reported>& reported, bool per_
       s.raw_timing_ms.push_back(std::fabs(r.aired_s - p.aired_s) * 1e3);
       if (p.chain.speed != 1) s.speed_err.push_back(std::fabs(r.speed / p.chain.speed - 1) * 100);
       if (r.coverage >= 0) s.coverage_err.push_back(std::fabs(r.coverage - p.coverage));
+      if (r.coverage >= 0 && p.coverage >= 0.999 && r.coverage < 0.9) ++s.complete_called_partial;
+      if (r.coverage >= 0) {
+        char buf[200];
+        std::snprintf(buf, sizeof buf, "%s at %s: coverage %.3f, truth %.3f (SNR %.1f dB, %s)", spot.c_str(),
+                      format_iso8601_local(p.aired_s, 3).c_str(), r.coverage, p.coverage, p.chain.snr_db, p.cut.empty() ? "whole" : p.cut.c_str());
+        s.worst_coverage.emplace_back(std::fabs(r.coverage - p.coverage), buf);
+      }
     }
   }
   // What the rest of the reports are.
@@ -196,8 +205,15 @@ void print_scored(const char* what, const Scored& s, double hours, bool per_cond
   std::printf("  speed error (speed-changed): median %.4f %%, max %.4f %%          target <= 0.05 %%\n",
               percentile(s.speed_err, 0.5), percentile(s.speed_err, 1.0));
   if (!s.coverage_err.empty())
-    std::printf("  coverage error: median %.3f, p95 %.3f, max %.3f                  target <= 0.05\n",
-                percentile(s.coverage_err, 0.5), percentile(s.coverage_err, 0.95), percentile(s.coverage_err, 1.0));
+    std::printf("  coverage error: median %.3f, p95 %.3f, max %.3f                  target <= 0.05\n"
+                "  complete airings with coverage under 0.9: %d                       target 0\n",
+                percentile(s.coverage_err, 0.5), percentile(s.coverage_err, 0.95), percentile(s.coverage_err, 1.0),
+                s.complete_called_partial);
+  if (!s.worst_coverage.empty()) {
+    auto w = s.worst_coverage;
+    std::sort(w.rbegin(), w.rend());
+    for (size_t i = 0; i < w.size() && i < 4 && w[i].first > 0.05; ++i) std::printf("    %s\n", w[i].second.c_str());
+  }
   if (per_condition) {
     std::printf("  recall by condition (coverage >= 0.5, SNR >= 3 dB):\n");
     for (const auto& [k, v] : s.tally.by) std::printf("    %-26s %3d/%-3d\n", k.c_str(), v.first, v.second);
@@ -353,6 +369,13 @@ int main(int argc, char** argv) {
   std::map<std::string, const Planted*> by_slot;
   for (const auto& p : day.planted)
     if (!p.slot.empty()) by_slot[p.slot] = &p;
+  std::vector<LocalSpan> recorded;  // the day's files, merged
+  for (const auto& f : day.files) {
+    if (!recorded.empty() && f.start_s <= recorded.back().second + 0.5) recorded.back().second = f.start_s + f.duration_s;
+    else recorded.push_back({f.start_s, f.start_s + f.duration_s});
+  }
+  std::map<std::string, double> length_of;
+  for (const auto& m : day.masters) length_of[m.id] = m.duration_s;
   int ok = 0, n = 0, excluded = 0;
   std::map<std::string, int> confusion;
   std::vector<std::string> wrong;
@@ -361,18 +384,25 @@ int main(int argc, char** argv) {
     std::string want = "missing";
     if (auto it = by_slot.find(pl.slot); it != by_slot.end()) {
       const Planted& p = *it->second;
-      if (!eligible(p) || (!p.cut.empty() && p.cut != "truncated")) {
-        ++excluded;  // outside the target's conditions, or cut by the recordings (not_recorded, not yet a verdict)
+      if (!eligible(p)) {
+        ++excluded;  // outside the target's conditions
         continue;
       }
       const AirMaster& m = day.masters[p.master];
-      const bool tag_aired = m.family.empty() || p.coverage * m.duration_s >= m.duration_s - 0.5 * m.tag_s;
+      // Cut by the recordings (their start, end or a gap): what was not
+      // recorded is not known to be missing on air.
+      const bool cut_on_air = p.cut.empty() || p.cut == "truncated";
+      const bool tag_aired = m.family.empty() || p.cut == "recording_start" ||
+                             p.coverage * m.duration_s >= m.duration_s - 0.5 * m.tag_s;
       const double dev = p.aired_s - p.planned_s;
       if (m.id != p.planned_spot && tag_aired) want = "wrong_version";
-      else if (p.coverage < 0.9) want = "partial";
+      else if (cut_on_air && p.coverage < 0.9) want = "partial";
       else if (dev < -pl.window_s) want = "early";
       else if (dev > pl.window_s) want = "late";
       else want = "aired";
+    } else {  // never aired: missing where its window was recorded
+      const auto [out, in] = split_by_cover({pl.planned_s - pl.window_s, pl.planned_s + pl.window_s + length_of[pl.spot]}, recorded);
+      if (!out.empty()) want = "not_recorded";
     }
     ++n;
     const std::string got = verdict_name(v.status);
@@ -393,6 +423,34 @@ int main(int argc, char** argv) {
               100.0 * ok / std::max(1, n), ok, n, excluded);
   for (const auto& [k, c] : confusion) std::printf("    %-34s %d\n", k.c_str(), c);
   for (const auto& w : wrong) std::printf("    %s\n", w.c_str());
+
+  // Unscheduled airings: planted airings no placement names, against the
+  // airings reconcile left unscheduled.
+  int truly_unscheduled = 0, found_unscheduled = 0, right_unscheduled = 0;
+  std::vector<bool> reported_used(r.unscheduled.size(), false);
+  for (const auto& p : day.planted) {
+    if (p.kind != PlantKind::airing || !p.slot.empty() || !eligible(p)) continue;
+    ++truly_unscheduled;
+    for (size_t k = 0; k < r.unscheduled.size(); ++k) {
+      const auto& a = r.airings[r.unscheduled[k]];
+      if (reported_used[k] || std::fabs(a.aired_s - p.aired_s) > 0.5 || !same_family(day, a.spot, day.masters[p.master].id))
+        continue;
+      reported_used[k] = true;
+      ++found_unscheduled;
+      break;
+    }
+  }
+  for (size_t k = 0; k < r.unscheduled.size(); ++k) {
+    const auto& a = r.airings[r.unscheduled[k]];
+    bool right = reported_used[k];
+    for (const auto& p : day.planted)  // an unscheduled airing outside the target's conditions is still right
+      right = right || (p.kind == PlantKind::airing && p.slot.empty() && !eligible(p) &&
+                        std::fabs(a.aired_s - p.aired_s) <= 0.5 && same_family(day, a.spot, day.masters[p.master].id));
+    right_unscheduled += right;
+  }
+  std::printf("  unscheduled recall: %.1f %% (%d/%d)   precision: %.1f %% (%d of %zu reported)   targets >= 98 %%\n",
+              100.0 * found_unscheduled / std::max(1, truly_unscheduled), found_unscheduled, truly_unscheduled,
+              100.0 * right_unscheduled / std::max<size_t>(1, r.unscheduled.size()), right_unscheduled, r.unscheduled.size());
   if (keep.empty()) fs::remove_all(dir);
   return 0;
 }

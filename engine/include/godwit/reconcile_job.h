@@ -99,6 +99,12 @@ struct AiringRecord {
   double speed = 1;
   double coverage = 0;
   std::vector<std::pair<double, double>> missing_s;
+  // The parts of missing_s that fell outside the recorded time (an airing
+  // cut by the recordings' start, end or a gap), in master time: not known
+  // to be missing on air. The verdict gives them the benefit of the doubt
+  // (coverage + their share is judged against partial_below) and reports
+  // them.
+  std::vector<std::pair<double, double>> unrecorded_s;
   std::optional<double> foreground_contrast;  // see DetectionEvidence
   std::vector<VersionScore> versions;  // when siblings competed
   // The distinguishing audio did not air or scored alike for several

@@ -1,12 +1,31 @@
 // Verification of one airing: the score profile of the master, segment by
-// segment, against the audio at the detected offset.
+// segment, against the audio at the detected offset, and how much of the
+// master aired.
 //
 // Each segment (default 1 s) of the master is scored alone (Pearson) against
-// the aligned segment of the airing. A segment "aired" when its score
-// reaches max(min_segment_score, relative * p90), where p90 is the 90th
-// percentile of the profile: a cut-off airing has a run of segments near 0
-// where the programme replaced it. Coverage is the aired fraction of the
-// master's length; the missing parts are listed as ranges within the master.
+// the aligned segment of the airing. A segment is flagged "aired" when its
+// score reaches max(min_segment_score, relative * p90), p90 being the 90th
+// percentile of the profile (the flags choose the segments that version
+// choice and foreground contrast look at).
+//
+// Coverage is decided on the whole profile, not segment by segment: the
+// aired part of an airing is contiguous (a truncation cuts the end, a late
+// join cuts the start; a crossfaded edge still aired). In frames of a
+// quarter segment, each frame where the master is audible (within 15 dB of
+// its median frame energy) is evidence: its score s against the airing's
+// own level mu (the median score of the aired part) and the null level 0.
+// For Gaussian scores of equal spread this log-likelihood ratio is
+// proportional to s - mu/2, so the aired part is the interval with the
+// largest sum of (s - mu/2) (a change-point pair, found exactly); quiet
+// frames weigh nothing and frames the recording does not hold weigh
+// against. mu is estimated twice (from the loud frames, then from the
+// interval). The interval is then widened over quiet frames at its edges
+// and over up to 1 s of crossfade (frames still scoring mu/4 or more).
+// A noisy or band-limited airing scores low everywhere, not only in some
+// seconds, so it stays complete; a cut airing drops to the null level.
+// Each edge gets a support range: the edge positions whose log-likelihood
+// lies within 2 units of the best (with the spread estimated from the
+// aired frames), a confidence interval of roughly 95 %.
 //
 // Thread contract: plain functions and values.
 #pragma once
@@ -30,6 +49,12 @@ struct Profile {
   std::vector<bool> aired;
   double coverage = 0;        // 0..1, by duration
   std::vector<std::pair<double, double>> missing_s;  // [from, to) within the master
+  // The aired part [aired_from_s, aired_to_s) in master time, each edge
+  // with its support range; coverage_range follows from them.
+  double aired_from_s = 0, aired_to_s = 0;
+  std::pair<double, double> aired_from_range_s{0, 0}, aired_to_range_s{0, 0};
+  std::pair<double, double> coverage_range{0, 0};
+  double aired_level = 0;     // mu: median score of the aired part's audible frames
 };
 
 // `master` and `airing` at the same rate; `airing` starts at the detected
