@@ -366,6 +366,55 @@ class DemoReconcile(unittest.TestCase):
                 "--planner", "estimate", "--cache-dir", "", check=2)
         self.assertIn("spot", p.stderr)
 
+    def reconcile_with(self, name, log_text, recordings, exit_code):
+        log = os.path.join(self.tmp.name, name + ".csv")
+        with open(log, "w") as f:
+            f.write(log_text)
+        out = os.path.join(self.tmp.name, name)
+        p = run("reconcile", "--library", os.path.join(self.demo, "library"), "--schedule", log,
+                "--recording", *recordings, "--out", out, "--format", "json", "--planner", "estimate",
+                "--cache-dir", "", check=exit_code)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            return p, json.load(f)
+
+    def demo_log(self):
+        with open(os.path.join(self.demo, "schedules", "kestrel-fm-2026-03-14.csv")) as f:
+            return f.read()
+
+    def test_placements_outside_the_recorded_time_are_not_recorded_never_missing(self):
+        # Only the first file (06:00-06:05): S005 (06:06), S006 (06:07), S007
+        # (06:08) and S009 (06:12) fall where nothing was recorded.
+        p, doc = self.reconcile_with("first-file", self.demo_log(), self.truth["recordings"][:1], 0)
+        got = {x["slot"]: x for x in doc["placements"]}
+        for slot in ("S005", "S006", "S007", "S009"):
+            self.assertEqual(got[slot]["status"], "not_recorded", slot)
+            self.assertTrue(got[slot]["unrecorded"], slot)
+        self.assertEqual(got["S001"]["status"], "aired")
+        self.assertNotIn("missing", [x["status"] for x in doc["placements"]])
+        self.assertEqual(doc["summary"]["not_recorded"], 4)
+        self.assertIn("not recorded", p.stdout)
+
+    def test_a_log_of_another_day_warns_and_exits_9(self):
+        shifted = self.demo_log().replace("2026-03-14T", "2026-03-15T")
+        p, doc = self.reconcile_with("next-day", shifted, self.truth["recordings"], 9)
+        self.assertEqual({x["status"] for x in doc["placements"]}, {"not_recorded"})
+        self.assertIn("dates", p.stderr)
+        self.assertEqual(len(doc["unscheduled"]), len(self.truth["airings"]))
+
+    def test_unknown_spot_ids_are_their_own_verdict_with_a_suggestion(self):
+        log = self.demo_log() + "S010,Marlow-Bakery,2026-03-14T06:13:00,60\nS011,no-such-advertiser,2026-03-14T06:13:00,60\n"
+        p, doc = self.reconcile_with("unknown", log, self.truth["recordings"], 0)
+        got = {x["slot"]: x for x in doc["placements"]}
+        self.assertEqual(got["S010"]["status"], "unknown_spot")
+        self.assertEqual(got["S010"]["did_you_mean"], "marlow-bakery")
+        self.assertEqual(got["S011"]["status"], "unknown_spot")
+        self.assertNotIn("did_you_mean", got["S011"])
+        self.assertIn("'Marlow-Bakery' is not in the library; did you mean 'marlow-bakery'", p.stderr)
+        self.assertIn("no-such-advertiser", p.stderr)
+        # The other verdicts are unchanged.
+        self.assertEqual({k: v["status"] for k, v in got.items() if k in self.truth["expected_verdicts"]},
+                         self.truth["expected_verdicts"])
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()

@@ -398,6 +398,27 @@ class DaemonTests(unittest.TestCase):
         with open(report[: -len(".json")] + ".html") as f:
             self.assertEqual(f.read().count('class="placement"'), len(doc["placements"]))
 
+    def test_drop_folder_interim_report_says_not_recorded_for_hours_not_arrived(self):
+        drop = os.path.join(self.tmp, "drop1")
+        self.start(args=("--drop", drop, "--schedules", f"{DEMO}/schedules", "--drop-stable-s", "1",
+                         "--drop-poll-s", "0.2"))
+        os.makedirs(os.path.join(drop, "incoming"), exist_ok=True)
+        report = os.path.join(drop, "results", "kestrel-fm-2026-03-14.reconcile.json")
+        first = DEMO_RECS[0]  # 06:00-06:05 only
+        tmpname = os.path.join(drop, "incoming", "." + os.path.basename(first))
+        shutil.copy(first, tmpname)
+        os.rename(tmpname, os.path.join(drop, "incoming", os.path.basename(first)))
+        end = time.time() + 120
+        while time.time() < end and not os.path.exists(report):
+            time.sleep(0.3)
+        with open(report) as f:
+            doc = json.load(f)
+        got = {p["slot"]: p["status"] for p in doc["placements"]}
+        for slot in ("S005", "S006", "S007", "S009"):  # planned after the hour that arrived
+            self.assertEqual(got[slot], "not_recorded", slot)
+        self.assertNotIn("missing", got.values())
+        self.assertEqual(got["S001"], "aired")
+
     # Hostile input (issue 14). Each test reproduced its defect before the fix.
 
     def token_daemon(self, **kw):
