@@ -4,6 +4,7 @@
 #include <cstdio>
 #include <filesystem>
 #include <iostream>
+#include <map>
 
 #include "atomic_file.h"
 #include "engine_options.h"
@@ -63,7 +64,7 @@ void print_table(const ReconcileResult& r) {
       const AiringRecord& a = r.airings[*v.airing];
       std::printf("%-10s %-26s %-19s %-13s %-23s %9.3f %6.3f %5.2f %12s%s%s\n", p.slot.c_str(), p.spot.c_str(),
                   p.planned.c_str(), verdict_name(v.status), format_iso8601_local(a.aired_s, 3).c_str(),
-                  v.deviation_s, a.score, a.coverage, loudness_cell(a).c_str(),
+                  std::round(v.deviation_s * 1000) / 1000 + 0.0, a.score, a.coverage, loudness_cell(a).c_str(),
                   reported_spot(a, p) != p.spot ? ("  aired: " + a.spot).c_str() : "", speed_note(a).c_str());
     } else {
       std::string note;
@@ -84,6 +85,14 @@ void print_table(const ReconcileResult& r) {
                 format_iso8601_local(a.aired_s, 3).c_str(), "-", a.score, a.coverage, loudness_cell(a).c_str(),
                 speed_note(a).c_str());
   }
+  // Totals: every status that occurred, in report order.
+  std::map<VerdictStatus, size_t> count;
+  for (const auto& v : r.verdicts) ++count[v.status];
+  std::string totals;
+  for (VerdictStatus st : all_verdicts())
+    if (count[st]) totals += (totals.empty() ? "" : ", ") + std::to_string(count[st]) + " " + verdict_name(st);
+  std::printf("total: %zu placements%s%s; %zu unscheduled airings\n", r.verdicts.size(), totals.empty() ? "" : ": ",
+              totals.c_str(), r.unscheduled.size());
 }
 
 int run(const ReconcileArgs& a) {

@@ -323,6 +323,16 @@ class DemoReconcile(unittest.TestCase):
 
     def test_printed_table_and_caution(self):
         self.assertIn("wrong_version", self.proc.stdout)
+        # A totals line that agrees with the JSON summary; no negative zero.
+        total = [l for l in self.proc.stdout.splitlines() if l.startswith("total:")]
+        self.assertEqual(len(total), 1)
+        s = self.doc["summary"]
+        self.assertIn(f"{len(self.doc['placements'])} placements", total[0])
+        for status in ("aired", "wrong_version", "partial", "missing", "late", "early"):
+            if s[status]:
+                self.assertIn(f"{s[status]} {status}", total[0])
+        self.assertIn(f"{s['unscheduled']} unscheduled", total[0])
+        self.assertNotIn("-0.000", self.proc.stdout)
         self.assertIn("evidence to verify by listening", self.proc.stderr)
         self.assertIn("indicative", self.proc.stderr)
         self.assertTrue(any("indicative" in c for c in self.doc["cautions"]))

@@ -61,15 +61,15 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     e.profile = verify_airing(master, span, rate, m.polarity, vo);
     e.profile.segment_s = o.verify.segment_s;
     const double length_s = t->second->duration_s;
-    auto to_master_time = [&](double& t) {
-      t = std::min(t * m.speed, length_s);
-      if (t > length_s - 1e-3) t = length_s;  // a sample's rounding at the end
+    auto to_master_time = [&](double& at_s) {
+      at_s = std::min(at_s * m.speed, length_s);
+      if (at_s > length_s - 1e-3) at_s = length_s;  // a sample's rounding at the end
     };
     for (auto& [from, to] : e.profile.missing_s) to_master_time(from), to_master_time(to);
-    for (double* t : {&e.profile.aired_from_s, &e.profile.aired_to_s, &e.profile.aired_from_range_s.first,
+    for (double* edge : {&e.profile.aired_from_s, &e.profile.aired_to_s, &e.profile.aired_from_range_s.first,
                       &e.profile.aired_from_range_s.second, &e.profile.aired_to_range_s.first,
                       &e.profile.aired_to_range_s.second})
-      to_master_time(*t);
+      to_master_time(*edge);
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
     // matches.

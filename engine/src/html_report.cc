@@ -6,6 +6,7 @@
 #include <map>
 
 #include "godwit/reconcile_report.h"
+#include "json_number.h"
 
 namespace godwit {
 namespace {
@@ -75,9 +76,9 @@ std::string loudness_cell(const AiringRecord& a, const LoudnessOptions& o) {
 
 // Why a placement has no airing, for people.
 std::string no_airing_note(const Verdict& v) {
-  auto spans = [](const std::vector<LocalSpan>& v) {
+  auto spans = [](const std::vector<LocalSpan>& list) {
     std::string s;
-    for (const auto& [from, to] : v)
+    for (const auto& [from, to] : list)
       s += (s.empty() ? "" : ", ") + format_iso8601_local(from, 0).substr(11) + "-" + format_iso8601_local(to, 0).substr(11);
     return s;
   };
@@ -186,7 +187,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
       const auto& a = r.airings[*v.airing];
       std::string missing;
       for (const auto& [f, t] : a.missing_s) missing += (missing.empty() ? "" : ", ") + fmt("%.2f", f) + "-" + fmt("%.2f", t) + " s";
-      h += "<td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" + fmt("%+.3f s", v.deviation_s) +
+      h += "<td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" + fmt("%+.3f s", detail::round_decimals(v.deviation_s, 3)) +
            "</td><td class=\"num\">" + fmt("%.3f", a.score) + (a.polarity < 0 ? " (inverted)" : "") + speed_note(a) +
            "</td><td class=\"num\">" + fmt("%.2f", a.coverage) + (missing.empty() ? "" : "<br><span class=\"small\">missing " + missing + "</span>") +
            "</td><td>" + esc(reported_spot(a, p)) + (a.undetermined_among.empty() ? "" : "<br><span class=\"small\">version undetermined</span>") +

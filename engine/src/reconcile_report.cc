@@ -103,9 +103,9 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
       x["detected_spot"] = reported_spot(a, p);
     }
     if (v.status == VerdictStatus::not_recorded) {
-      auto spans = [](const std::vector<LocalSpan>& v) {
+      auto spans = [](const std::vector<LocalSpan>& list) {
         nlohmann::json a = nlohmann::json::array();
-        for (const auto& [from, to] : v) a.push_back({format_iso8601_local(from, 3), format_iso8601_local(to, 3)});
+        for (const auto& [from, to] : list) a.push_back({format_iso8601_local(from, 3), format_iso8601_local(to, 3)});
         return a;
       };
       x["unrecorded"] = spans(v.unrecorded);
@@ -160,7 +160,7 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
     out += detail::csv_field(p.slot) + "," + detail::csv_field(p.spot) + "," + detail::csv_field(p.planned) + "," + verdict_name(v.status) + ",";
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
-      std::snprintf(num, sizeof num, ",%.3f,%.4f,%.3f,", v.deviation_s, a.score, a.coverage);
+      std::snprintf(num, sizeof num, ",%.3f,%.4f,%.3f,", detail::round_decimals(v.deviation_s, 3), a.score, a.coverage);
       out += format_iso8601_local(a.aired_s, 3) + num + detail::csv_field(reported_spot(a, p)) + "," + detail::csv_field(a.recording);
       std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
       out += num + lufs(a);

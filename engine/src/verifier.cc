@@ -13,9 +13,12 @@ constexpr double kSilentEnergy = 1e-7;
 // A frame whose master energy is this far under the median frame's is
 // quiet: its score says little either way (15 dB; ours).
 constexpr double kQuietBelow = 0.0316;
-// Crossfades at a spot's edges last up to about a second (common practice
-// in playout; from memory).
-constexpr double kCrossfadeS = 1.0;
+// Crossfades (segues) at a spot's edges last up to about two seconds
+// (common practice in playout; from memory). Inside one the spot's level
+// ramps down under the next item, so its frames still score above the
+// null level, if far under the airing's own.
+constexpr double kCrossfadeS = 2.0;
+constexpr double kCrossfadeLevel = 1.0 / 8;  // of mu
 
 double energy_per_sample(const float* x, size_t n) {
   double s = 0, e = 0;
@@ -119,7 +122,7 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   p.aired_level = mu;
   // Widen over quiet frames, and over a crossfade, at each edge.
   const size_t fade = static_cast<size_t>(std::ceil(kCrossfadeS / frame_s));
-  auto widen = [&](size_t k) { return held[k] && (!loud[k] || score[k] >= mu / 4); };
+  auto widen = [&](size_t k) { return held[k] && (!loud[k] || score[k] >= mu * kCrossfadeLevel); };
   for (size_t f = 0; iv.first > 0 && widen(iv.first - 1) && (!loud[iv.first - 1] || f < fade); ++f) --iv.first;
   for (size_t f = 0; iv.second < n && widen(iv.second) && (!loud[iv.second] || f < fade); ++f) ++iv.second;
 

@@ -427,10 +427,12 @@ int main(int argc, char** argv) {
   // Unscheduled airings: planted airings no placement names, against the
   // airings reconcile left unscheduled.
   int truly_unscheduled = 0, found_unscheduled = 0, right_unscheduled = 0;
+  std::vector<std::string> unscheduled_notes;
   std::vector<bool> reported_used(r.unscheduled.size(), false);
   for (const auto& p : day.planted) {
     if (p.kind != PlantKind::airing || !p.slot.empty() || !eligible(p)) continue;
     ++truly_unscheduled;
+    const int before = found_unscheduled;
     for (size_t k = 0; k < r.unscheduled.size(); ++k) {
       const auto& a = r.airings[r.unscheduled[k]];
       if (reported_used[k] || std::fabs(a.aired_s - p.aired_s) > 0.5 || !same_family(day, a.spot, day.masters[p.master].id))
@@ -439,6 +441,8 @@ int main(int argc, char** argv) {
       ++found_unscheduled;
       break;
     }
+    if (found_unscheduled == before)
+      unscheduled_notes.push_back("not reported unscheduled: " + day.masters[p.master].id + " at " + format_iso8601_local(p.aired_s, 3));
   }
   for (size_t k = 0; k < r.unscheduled.size(); ++k) {
     const auto& a = r.airings[r.unscheduled[k]];
@@ -447,10 +451,12 @@ int main(int argc, char** argv) {
       right = right || (p.kind == PlantKind::airing && p.slot.empty() && !eligible(p) &&
                         std::fabs(a.aired_s - p.aired_s) <= 0.5 && same_family(day, a.spot, day.masters[p.master].id));
     right_unscheduled += right;
+    if (!right) unscheduled_notes.push_back("reported unscheduled, but it is not: " + a.spot + " at " + format_iso8601_local(a.aired_s, 3));
   }
   std::printf("  unscheduled recall: %.1f %% (%d/%d)   precision: %.1f %% (%d of %zu reported)   targets >= 98 %%\n",
               100.0 * found_unscheduled / std::max(1, truly_unscheduled), found_unscheduled, truly_unscheduled,
-              100.0 * right_unscheduled / std::max<size_t>(1, r.unscheduled.size()), right_unscheduled, r.unscheduled.size());
+              100.0 * right_unscheduled / static_cast<double>(std::max<size_t>(1, r.unscheduled.size())), right_unscheduled, r.unscheduled.size());
+  for (size_t i = 0; i < unscheduled_notes.size() && i < 8; ++i) std::printf("    %s\n", unscheduled_notes[i].c_str());
   if (keep.empty()) fs::remove_all(dir);
   return 0;
 }

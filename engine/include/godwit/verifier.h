@@ -20,7 +20,7 @@
 // frames weigh nothing and frames the recording does not hold weigh
 // against. mu is estimated twice (from the loud frames, then from the
 // interval). The interval is then widened over quiet frames at its edges
-// and over up to 1 s of crossfade (frames still scoring mu/4 or more).
+// and over up to 2 s of crossfade (frames still scoring mu/8 or more).
 // A noisy or band-limited airing scores low everywhere, not only in some
 // seconds, so it stays complete; a cut airing drops to the null level.
 // Each edge gets a support range: the edge positions whose log-likelihood
