@@ -379,8 +379,12 @@ int main(int argc, char** argv) {
   int ok = 0, n = 0, excluded = 0;
   std::map<std::string, int> confusion;
   std::vector<std::string> wrong;
+  int missing_unrecorded = 0;  // `missing` though the window was not wholly recorded
   for (const auto& v : r.verdicts) {
     const auto& pl = r.placements[v.placement];
+    if (v.status == VerdictStatus::missing &&
+        !split_by_cover({pl.planned_s - pl.window_s, pl.planned_s + pl.window_s + length_of[pl.spot]}, recorded).first.empty())
+      ++missing_unrecorded;
     std::string want = "missing";
     if (auto it = by_slot.find(pl.slot); it != by_slot.end()) {
       const Planted& p = *it->second;
@@ -421,6 +425,7 @@ int main(int argc, char** argv) {
   std::printf("\n== reconcile: verdicts\n");
   std::printf("  verdict accuracy: %.1f %% (%d/%d; %d placements outside the conditions left out)   target >= 99 %%\n",
               100.0 * ok / std::max(1, n), ok, n, excluded);
+  std::printf("  placements `missing` whose window was not wholly recorded: %d   target 0\n", missing_unrecorded);
   for (const auto& [k, c] : confusion) std::printf("    %-34s %d\n", k.c_str(), c);
   for (const auto& w : wrong) std::printf("    %s\n", w.c_str());
 
