@@ -14,9 +14,17 @@ using namespace godwit;
 
 namespace {
 
+// Largest |a - b|; infinite when a value is not finite or the lengths
+// differ, so a NaN in a trace fails the comparison instead of vanishing
+// (std::max(d, NaN) keeps d).
 double max_abs_diff(const Samples& a, const Samples& b) {
+  if (a.size() != b.size()) return INFINITY;
   double d = 0;
-  for (size_t i = 0; i < std::min(a.size(), b.size()); ++i) d = std::max(d, std::fabs(double(a[i]) - b[i]));
+  for (size_t i = 0; i < a.size(); ++i) {
+    const double e = std::fabs(double(a[i]) - b[i]);
+    if (!std::isfinite(e)) return INFINITY;
+    d = std::max(d, e);
+  }
   return d;
 }
 
