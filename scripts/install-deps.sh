@@ -5,7 +5,7 @@ set -euo pipefail
 PACKAGES=(
   build-essential cmake pkg-config
   libfftw3-dev libsndfile1-dev libsoxr-dev libspdlog-dev doctest-dev nlohmann-json3-dev libcli11-dev
-  libboost-dev libtomlplusplus-dev libebur128-dev libhiredis-dev redis-server
+  libboost-dev libtomlplusplus-dev libebur128-dev libhiredis-dev libicu-dev redis-server
   python3 python3-numpy python3-scipy python3-opencv espeak-ng lame sox chromium
 )
 missing=()
