@@ -24,6 +24,7 @@ struct ClientArgs {
   std::string job_file;     // submit: a JSON job object
   std::vector<std::string> templates, recordings;
   std::string library, schedule, kind = "locate";
+  std::string time_zone;    // submit, reconcile: the station's IANA zone
   std::string state;        // jobs filter
   std::string out;          // result to a file
   bool wait = false;        // submit: wait for the end and print the result
@@ -125,6 +126,7 @@ int run(const std::string& op, const ClientArgs& a) {
       }
       if (!a.library.empty()) job["library"] = abs(a.library);
       if (!a.schedule.empty()) job["schedule"] = abs(a.schedule);
+      if (!a.time_zone.empty()) job["time_zone"] = a.time_zone;
     }
     req["job"] = job;
     auto r = c.request(req);
@@ -188,6 +190,9 @@ std::function<int()> add_client_commands(CLI::App& app) {
   submit->add_option("--template,-t", a->templates, "master files (paths as the daemon sees them)");
   submit->add_option("--library,-l", a->library, "library folder");
   submit->add_option("--schedule,-s", a->schedule, "planned log (reconcile)");
+  submit->add_option("--time-zone", a->time_zone,
+                     "reconcile: the station's IANA time zone, for planned times written with a UTC offset "
+                     "(default: the daemon's)");
   submit->add_option("--recording,-r", a->recordings, "recordings");
   submit->add_flag("--wait", a->wait, "wait for the job and print its result");
   submit->add_option("--out,-o", a->out, "with --wait: write the result to FILE");

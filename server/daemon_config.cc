@@ -32,6 +32,7 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   str(t["library"], c.library, "library");
   str(t["drop"], c.drop, "drop");
   str(t["schedules"], c.schedules, "schedules");
+  str(t["time_zone"], c.time_zone, "time_zone");
   str(t["token_file"], c.token_file, "token_file");
   str(t["log_level"], c.log_level, "log_level");
   str(t["planner"], c.planner, "planner");

@@ -16,6 +16,10 @@ struct DaemonConfig {
   std::string library;
   std::string drop;
   std::string schedules;  // planned logs for the drop folder's daily reconciliation
+  // The station's IANA time zone (Europe/Berlin): planned times written with
+  // a UTC offset are converted to its local time, for the drop folder's
+  // reconciliations and reconcile jobs that give no time_zone. Empty: none.
+  std::string time_zone;
   size_t workers = 1;
   int threads_per_job = 1;
   std::string token_file;

@@ -297,6 +297,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   std::sort(recordings.begin(), recordings.end());
   nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
                       {"recordings", recordings}, {"window_s", 60.0}};
+  if (!runner_.config().time_zone.empty()) spec["time_zone"] = runner_.config().time_zone;
   std::string html;
   // In queue mode the day's search is shared out (hour x batch tasks) and
   // its reconciliation rebuilt here from the merged search.

@@ -16,6 +16,7 @@
 #include "daemon_config.h"
 #include "dispatcher.h"
 #include "distributed_jobs.h"
+#include "godwit/civil_time.h"
 #include "drop_folder.h"
 #include "job_runner.h"
 #include "job_store.h"
@@ -67,7 +68,7 @@ int main(int argc, char** argv) {
   DaemonConfig cfg;
   app.add_option("--config,-c", config_path, "TOML configuration (see config/godwitd.toml)");
   // Overrides: parsed after the file is read.
-  std::string listen, state_dir, library, drop, schedules, token_file, log_level;
+  std::string listen, state_dir, library, drop, schedules, token_file, log_level, time_zone;
   std::vector<std::string> roots;
   size_t workers = 0;
   double stable_s = -1, poll_s = -1;
@@ -79,6 +80,9 @@ int main(int argc, char** argv) {
   app.add_option("--library", library, "default library of masters (and the drop folder's)");
   app.add_option("--drop", drop, "drop folder (incoming, work, results, done, failed)");
   app.add_option("--schedules", schedules, "planned logs (<...YYYY-MM-DD...>.csv): the drop folder reconciles each day");
+  app.add_option("--time-zone", time_zone,
+                 "the station's IANA time zone (Europe/Berlin): planned times written with a UTC offset or Z are "
+                 "converted to its local time (drop folder, and reconcile jobs that give no time_zone)");
   app.add_option("--workers", workers, "jobs run at once (default 1)");
   app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
   app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
@@ -113,6 +117,7 @@ int main(int argc, char** argv) {
     if (!library.empty()) c.library = library;
     if (!drop.empty()) c.drop = drop;
     if (!schedules.empty()) c.schedules = schedules;
+    if (!time_zone.empty()) c.time_zone = time_zone;
     if (workers) c.workers = workers;
     if (!token_file.empty()) c.token_file = token_file;
     if (!log_level.empty()) c.log_level = log_level;
@@ -138,6 +143,12 @@ int main(int argc, char** argv) {
   spdlog::set_default_logger(spdlog::stderr_color_mt("godwitd"));
   spdlog::set_level(spdlog::level::from_str(cfg.log_level));
 
+  if (!cfg.time_zone.empty()) {
+    if (auto tz = TimeZone::find(cfg.time_zone); !tz) {
+      std::cerr << "godwitd: time_zone: " << tz.error().message << "\n";
+      return 2;
+    }
+  }
   std::string host;
   unsigned short port = 0;
   if (!split_host_port(cfg.listen, host, port)) {
@@ -178,6 +189,7 @@ int main(int argc, char** argv) {
   rc.max_templates = cfg.max_templates;
   rc.max_recording_s = cfg.max_recording_h * 3600;
   rc.max_inline_bytes = cfg.max_inline_mb << 20;
+  rc.time_zone = cfg.time_zone;
   rc.threads_per_job = cfg.threads_per_job;
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();

@@ -131,9 +131,21 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     std::error_code ec;
     if (!std::filesystem::is_regular_file(sched.value(), ec))  // a FIFO would hold a worker forever
       return Error{ErrorCode::unreadable, "the planned log is not a regular file", sched.value(), std::nullopt};
+    // The station's time zone: the job's, else the daemon's; a name the tz
+    // database lacks refuses the job before it is queued.
+    std::string zone = config_.time_zone;
+    if (job.contains("time_zone")) {
+      if (!job["time_zone"].is_string()) return bad("'time_zone' must be a string (an IANA zone name)");
+      zone = job["time_zone"].get<std::string>();
+    }
+    if (!zone.empty()) {
+      auto tz = TimeZone::find(zone);
+      if (!tz) return bad(tz.error().message);
+    }
     out["library"] = lib.value();
     out["schedule"] = sched.value();
     out["window_s"] = w.value();
+    if (!zone.empty()) out["time_zone"] = zone;
     return out;
   }
   if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
@@ -234,7 +246,8 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
                                                        const std::function<void(std::string_view)>& warn) const {
   std::vector<std::string> warnings;
   auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"),
-                                 spec.at("recordings").get<std::vector<std::string>>(), spec.value("window_s", 60.0), ""},
+                                 spec.at("recordings").get<std::vector<std::string>>(), spec.value("window_s", 60.0), "",
+                                 spec.value("time_zone", ""), "the job's time_zone (or the daemon's time_zone setting)"},
                                 warnings);
   for (const auto& w : warnings) warn(w);
   if (!job) return job.error();

@@ -11,7 +11,8 @@
 //   {"kind": "locate", "templates": [paths], "library": "DIR", "recordings": [paths],
 //    "threshold": 0.3, "floor_k": 10, "fft_size": 0,
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
-//   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60}
+//   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60,
+//    "time_zone": "Europe/Berlin"}  (time_zone: optional; the daemon's when absent)
 // and, from the queue only (never prepared): a task of a distributed job,
 //   {"kind": "segment", "segment": {...}, "templates": [paths], "threshold", ...}
 // whose result is a locate document with exact numbers (task_plan.h).
@@ -37,6 +38,7 @@ struct RunnerConfig {
   size_t max_templates = 500;
   double max_recording_s = 7 * 24 * 3600.0;  // per job, all recordings together
   size_t max_inline_bytes = 16u << 20;       // decoded, per spot
+  std::string time_zone;  // the station's IANA zone for reconcile jobs that give none; empty: none
   int threads_per_job = 1;
   Planner planner = Planner::measure;
   FftCostTable costs;  // the cache's, at start

@@ -32,6 +32,7 @@ struct ReconcileArgs {
   double horizon_s = -1;  // unset: 3 × the window + 4 minutes
   std::string name_pattern = "%Y%m%dT%H%M%S";
   std::string start;
+  std::string time_zone;
   double loudness_margin_lu = 2.0;
   double loudness_target_lufs = -23.0;
   bool no_loudness = false;
@@ -101,7 +102,8 @@ int run(const ReconcileArgs& a) {
     return exit_code(e.code);
   };
   std::vector<std::string> warnings;
-  auto job_r = load_reconcile_job({a.library, a.schedule, a.recordings, a.window_s, a.start}, warnings);
+  auto job_r =
+      load_reconcile_job({a.library, a.schedule, a.recordings, a.window_s, a.start, a.time_zone, "--time-zone"}, warnings);
   for (const auto& w : warnings) warn(w);
   if (!job_r) return fail(job_r.error());
   const ReconcileJob& job = job_r.value();
@@ -179,7 +181,9 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
       "airings matching no placement are listed as unscheduled. Writes OUT/reconcile.json and\n"
       "OUT/reconcile.csv and OUT/reconcile.html (a self-contained page) and prints the verdicts. Detections are evidence to verify by listening.");
   cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
-  cmd->add_option("--schedule,-s", a->schedule, "planned log CSV: slot,spot,planned,window_s")->required();
+  cmd->add_option("--schedule,-s", a->schedule,
+                  "planned log CSV (comma, semicolon or tab): slot,spot,planned[,window_s] or their aliases")
+      ->required();
   cmd->add_option("--recording,-r", a->recordings, "airchecks, start time in the file name")->required();
   cmd->add_option("--out,-o", a->out, "output folder (created if needed)")->required();
   cmd->add_option("--format", a->formats, "documents to write: json, csv, html (default all three)")
@@ -195,6 +199,9 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_option("--name-pattern", a->name_pattern,
                   "where file names carry the start: %Y %m %d %H %M %S (default %Y%m%dT%H%M%S)");
   cmd->add_option("--start", a->start, "start of a single recording (ISO 8601 local), instead of its name");
+  cmd->add_option("--time-zone", a->time_zone,
+                  "the station's IANA time zone (Europe/Berlin): planned times written with a UTC offset or Z\n"
+                  "are converted to its local time (without it such rows are rejected)");
   cmd->add_option("--loudness-margin-lu", a->loudness_margin_lu,
                   "flag a spot louder than the 5 minutes of programme before it by more than this (default 2 LU)")
       ->check(CLI::Range(0.0, 40.0));
@@ -204,9 +211,13 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_flag("--no-loudness", a->no_loudness, "skip the loudness measurements");
   add_engine_options(cmd, a->engine);
   cmd->footer(
-      "Exit codes: 0 done; 2 usage error (bad log header, options); 3 a master or every recording could\n"
-      "not be read; 4 done, but some recording failed; 5 a report could not be written; 9 done, but most\n"
-      "placements fall outside the recorded time (the log's dates and the recordings' disagree); 130 interrupted.");
+      "Planned log: the delimiter (comma, semicolon, tab) is read from the header; column names ignore\n"
+      "case and aliases are accepted (README, planned log). Times: 2026-03-14T06:15:00, 2026-03-14 06:15,\n"
+      "fractions, and with --time-zone a UTC offset (+02:00, +0200, -05) or Z.\n"
+      "Exit codes: 0 done; 2 usage error (bad log header, unknown time zone, options); 3 a master or every\n"
+      "recording could not be read; 4 done, but some recording failed; 5 a report could not be written;\n"
+      "8 the planned log has no valid row (every row's reason is printed); 9 done, but most placements fall\n"
+      "outside the recorded time (the log's dates and the recordings' disagree); 130 interrupted.");
   return [a]() -> int { return run(*a); };
 }
 

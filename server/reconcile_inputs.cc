@@ -11,6 +11,14 @@ namespace godwit {
 
 Result<ReconcileJob> load_reconcile_job(const ReconcileInputs& in, std::vector<std::string>& warnings) {
   ReconcileJob job;
+  PlannedLogOptions log_options;
+  log_options.default_window_s = in.window_s;
+  log_options.zone_setting = in.zone_setting;
+  if (!in.time_zone.empty()) {  // before anything is read: a wrong name stops the whole run
+    auto zone = TimeZone::find(in.time_zone);
+    if (!zone) return zone.error();
+    log_options.zone = zone.value();
+  }
   auto masters = scan_library(in.library);
   if (!masters) return masters.error();
   job.masters = masters.value();
@@ -23,7 +31,7 @@ Result<ReconcileJob> load_reconcile_job(const ReconcileInputs& in, std::vector<s
   if (!f) return Error{ErrorCode::not_found, "cannot open the planned log", in.schedule, std::nullopt};
   std::ostringstream text;
   text << f.rdbuf();
-  auto log = parse_planned_log(text.str(), in.window_s);
+  auto log = parse_planned_log(text.str(), log_options);
   if (!log) {
     Error e = log.error();
     e.path = in.schedule;
@@ -32,6 +40,11 @@ Result<ReconcileJob> load_reconcile_job(const ReconcileInputs& in, std::vector<s
   job.log = std::move(log.value());
   for (const auto& p : job.log.problems)
     warnings.push_back(in.schedule + ":" + std::to_string(p.line) + ": " + p.reason + " (row skipped)");
+  if (auto st = require_placements(job.log); !st) {
+    Error e = st.error();
+    e.path = in.schedule;
+    return e;
+  }
 
   if (!in.start.empty() && in.recordings.size() != 1)
     return Error{ErrorCode::usage, "a start time applies to a single recording; name files with their start time", "",

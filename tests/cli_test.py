@@ -367,6 +367,63 @@ class DemoReconcile(unittest.TestCase):
             self.assertFalse(p["loudness"]["louder_than_programme"])  # no demo spot is 10 LU louder
         self.assertFalse(os.path.exists(os.path.join(out, "reconcile.csv")))
 
+    def reconcile_log(self, schedule, out, *extra, check=0):
+        return run("reconcile", "--library", os.path.join(self.demo, "library"), "--schedule", schedule,
+                   "--recording", *self.truth["recordings"], "--out", out, "--format", "json",
+                   "--planner", "estimate", "--cache-dir", "", *extra, check=check)
+
+    def test_semicolon_log_in_utc_with_the_station_zone_gives_the_plain_logs_verdicts(self):
+        # The demo's log as a traffic system in another locale writes it: semicolons, its own column names in
+        # another case, a space for the T, times in UTC (Z, +00:00, -0500) converted from the station's local
+        # times by Python's zoneinfo (the IANA tz database, Debian's tzdata) -- the outside reference for what
+        # godwit must convert back through ICU. Kestrel FM's zone here: Europe/Berlin (+01:00 in March 2026).
+        import zoneinfo
+        berlin = zoneinfo.ZoneInfo("Europe/Berlin")
+        with open(os.path.join(self.demo, "schedules", "kestrel-fm-2026-03-14.csv"), newline="") as f:
+            rows = list(csv.DictReader(f))
+        lines = [" Slot ID ;SPOT;Air Time;Tolerance_S"]
+        for i, r in enumerate(rows):
+            try:
+                local = datetime.datetime.fromisoformat(r["planned"]).replace(tzinfo=berlin)
+            except ValueError:  # the demo's deliberately bad row (T25:00:00) stays bad
+                lines.append(f"{r['slot']};{r['spot']};{r['planned']}Z;{r['window_s']}")
+                continue
+            u = local.astimezone(datetime.timezone.utc)
+            planned = [u.strftime("%Y-%m-%d %H:%M:%SZ"), u.strftime("%Y-%m-%dT%H:%M:%S+00:00"),
+                       (u - datetime.timedelta(hours=5)).strftime("%Y-%m-%d %H:%M:%S-0500")][i % 3]
+            lines.append(f"{r['slot']};\"{r['spot']}\";{planned};{r['window_s']}")
+        log = os.path.join(self.tmp.name, "kestrel-fm-2026-03-14-utc.csv")
+        with open(log, "w", newline="") as f:
+            f.write("\r\n".join(lines) + "\r\n")
+        out = os.path.join(self.tmp.name, "utc")
+        self.reconcile_log(log, out, "--time-zone", "Europe/Berlin", check=0)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            doc = json.load(f)
+        self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, self.truth["expected_verdicts"])
+        self.assertEqual([(p["slot"], p["planned"], p["status"], p.get("aired")) for p in doc["placements"]],
+                         [(p["slot"], p["planned"], p["status"], p.get("aired")) for p in self.doc["placements"]])
+        self.assertEqual(doc["unscheduled"], self.doc["unscheduled"])
+        self.assertEqual([p["line"] for p in doc["log_problems"]], self.truth["expected_bad_log_lines"])
+
+    def test_a_log_with_no_valid_row_exits_8_and_says_why_for_each_row(self):
+        log = os.path.join(self.tmp.name, "all-utc.csv")
+        with open(log, "w") as f:
+            f.write("slot;spot;planned\nS001;marlow-bakery;2026-03-14T05:00:30Z\nS002;marlow-bakery;2026-02-30 06:00\n")
+        out = os.path.join(self.tmp.name, "none")
+        p = self.reconcile_log(log, out, check=8)
+        self.assertIn("all-utc.csv:2: planned time '2026-03-14T05:00:30Z' has a UTC offset; set --time-zone to the "
+                      "station's zone", p.stderr)
+        self.assertIn("all-utc.csv:3: planned time '2026-02-30 06:00' has an invalid calendar date (February has 28 "
+                      "days in 2026)", p.stderr)
+        self.assertIn("no valid row", p.stderr)
+        self.assertFalse(os.path.exists(os.path.join(out, "reconcile.json")))
+        # An unknown zone is a usage error of the whole run.
+        p = self.reconcile_log(log, out, "--time-zone", "Europe/Atlantis", check=2)
+        self.assertIn("unknown time zone 'Europe/Atlantis'", p.stderr)
+        helptext = run("reconcile", "--help", check=0).stdout
+        self.assertIn("--time-zone", helptext)
+        self.assertIn("8 the planned log has no valid row", helptext)
+
     def test_bad_planned_log_header_is_a_usage_error(self):
         bad = os.path.join(self.tmp.name, "bad.csv")
         with open(bad, "w") as f:

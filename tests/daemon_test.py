@@ -353,6 +353,77 @@ class DaemonTests(unittest.TestCase):
         doc = c.req({"op": "result", "job": r["job"]})["result"]
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
 
+    def test_reconcile_jobs_read_utc_logs_in_the_station_zone_and_refuse_logs_without_a_valid_row(self):
+        # The daemon's time_zone setting serves jobs that give none; a job's own time_zone is checked before
+        # it is queued; a log with no valid row fails its job with no_placements. The UTC times are the demo's
+        # local times in Europe/Berlin (+01:00 on 2026-03-14, IANA tz database; Python's zoneinfo agrees).
+        bad = subprocess.run([ARGS.godwitd, "--listen", "127.0.0.1:0", "--state-dir", os.path.join(self.tmp, "s"),
+                              "--time-zone", "Europe/Atlantis"], capture_output=True, text=True, timeout=30)
+        self.assertEqual(bad.returncode, 2)
+        self.assertIn("unknown time zone 'Europe/Atlantis'", bad.stderr)
+        drop = os.path.join(self.tmp, "drop")
+        schedules = os.path.join(self.tmp, "root", "schedules")
+        os.makedirs(schedules)
+        d = self.start(extra_config='time_zone = "Europe/Berlin"\n',
+                       args=("--drop", drop, "--schedules", schedules, "--drop-stable-s", "1", "--drop-poll-s", "0.2"))
+        c = d.connect()
+        with open(f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv") as f:
+            plain = f.read().splitlines()
+        utc_log = os.path.join(schedules, "kestrel-fm-2026-03-14.csv")
+        with open(utc_log, "w") as f:
+            f.write("Slot;Spot ID;Scheduled;Window\n")
+            for line in plain[1:]:
+                slot, spot, planned, window = line.split(",")
+                if planned.endswith("T25:00:00"):
+                    f.write(f"{slot};{spot};{planned};{window}\n")
+                    continue
+                h = int(planned[11:13]) - 1  # the demo's hours are 06 and later: no change of day
+                f.write(f"{slot};{spot};{planned[:10]} {h:02d}{planned[13:]}Z;{window}\n")
+        job = {"kind": "reconcile", "library": f"{DEMO}/library", "schedule": utc_log, "recordings": DEMO_RECS}
+        r = c.req({"op": "submit", "job": job})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
+        self.assertEqual(doc["placements"][0]["planned"], "2026-03-14T06:00:30")
+        refused = c.req({"op": "submit", "job": {**job, "time_zone": "Europe/Atlantis"}})
+        self.assertEqual(refused["error"]["code"], "bad_request")
+        self.assertIn("unknown time zone 'Europe/Atlantis'", refused["error"]["message"])
+        # A job's own zone wins over the daemon's: in America/New_York (-04:00 on 2026-03-14) the same UTC
+        # times are five hours earlier on the station's clock.
+        ny = c.req({"op": "submit", "job": {**job, "time_zone": "America/New_York"}})
+        self.assertTrue(ny["ok"], ny)
+        self.assertEqual(wait_state(c, ny["job"])["state"], "done")
+        ny_doc = c.req({"op": "result", "job": ny["job"]})["result"]
+        self.assertEqual(ny_doc["placements"][0]["planned"], "2026-03-14T01:00:30")  # -04:00 in March 2026
+        empty_log = os.path.join(self.tmp, "root", "no-valid-row.csv")
+        with open(empty_log, "w") as f:
+            f.write("slot,spot,planned\nS1,marlow-bakery,2026-02-30T06:00:00\nS2,marlow-bakery,noon\n")
+        r = c.req({"op": "submit", "job": {**job, "schedule": empty_log}})
+        self.assertTrue(r["ok"], r)
+        st = wait_state(c, r["job"])
+        self.assertEqual(st["state"], "failed")
+        self.assertEqual(st["error"]["code"], "no_placements")
+        self.assertIn("February has 28 days in 2026", st["error"]["message"])
+        self.assertIn("line 3: planned time 'noon' is not a date-time", st["error"]["message"])
+        # The drop folder's day is read in the daemon's zone too.
+        os.makedirs(os.path.join(drop, "incoming"), exist_ok=True)
+        for rec in DEMO_RECS:
+            tmpname = os.path.join(drop, "incoming", "." + os.path.basename(rec))
+            shutil.copy(rec, tmpname)
+            os.rename(tmpname, os.path.join(drop, "incoming", os.path.basename(rec)))
+        report = os.path.join(drop, "results", "kestrel-fm-2026-03-14.reconcile.json")
+        end = time.time() + 180
+        day = {"placements": []}  # none written: all rows rejected (the zone not applied)
+        while time.time() < end:
+            if os.path.exists(report):
+                with open(report) as f:
+                    day = json.load(f)
+                if len(day["recordings"]) == 3:
+                    break
+            time.sleep(0.3)
+        self.assertEqual({p["slot"]: p["status"] for p in day["placements"]}, DEMO_TRUTH["expected_verdicts"])
+
     def test_inline_spot_is_located(self):
         import base64
         d = self.start()

@@ -9,7 +9,7 @@ TEST_CASE("each error code has a distinct wire name and a documented exit code")
                            ErrorCode::empty, ErrorCode::corrupt, ErrorCode::io, ErrorCode::cancelled,
                            ErrorCode::invalid_template, ErrorCode::forbidden, ErrorCode::busy,
                            ErrorCode::unavailable, ErrorCode::not_found_job, ErrorCode::bad_request,
-                           ErrorCode::too_large, ErrorCode::internal};
+                           ErrorCode::too_large, ErrorCode::no_placements, ErrorCode::internal};
   for (auto a : all)
     for (auto b : all)
       if (a != b) CHECK(wire_name(a) != wire_name(b));
@@ -18,6 +18,7 @@ TEST_CASE("each error code has a distinct wire name and a documented exit code")
   CHECK(exit_code(ErrorCode::corrupt) == 3);
   CHECK(exit_code(ErrorCode::io) == 5);
   CHECK(exit_code(ErrorCode::cancelled) == 130);
+  CHECK(exit_code(ErrorCode::no_placements) == 8);
 }
 
 TEST_CASE("describe names the file and the position") {

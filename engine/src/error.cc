@@ -29,6 +29,7 @@ constexpr CodeRow kRows[] = {
     {ErrorCode::not_found_job, "unknown_job", 6},
     {ErrorCode::bad_request, "bad_request", 6},
     {ErrorCode::too_large, "too_large", 6},
+    {ErrorCode::no_placements, "no_placements", 8},
     {ErrorCode::internal, "internal", 70},
 };
 

@@ -29,6 +29,7 @@ enum class ErrorCode {
   not_found_job,     // no such job
   bad_request,       // malformed JSON, unknown op, missing or mistyped field
   too_large,         // a request line, inline spot or job over its limit
+  no_placements,     // a planned log without a single valid row (empty, header only, or every row rejected)
   internal,          // a bug: please report it
 };
 
