@@ -2,6 +2,8 @@
 // thresholds, rates, threads, FFT planning and its cache, progress.
 #pragma once
 
+#include "godwit/peak_picker.h"
+
 #include <CLI/CLI.hpp>
 #include <memory>
 #include <string>
@@ -13,7 +15,7 @@
 namespace godwit {
 
 struct EngineArgs {
-  double threshold = 0.3;
+  double threshold = PickerOptions{}.threshold;
   double floor_k = 10;
   double rate_hz = 8000;
   int channel = -1;

@@ -205,7 +205,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
       return Error{ErrorCode::unsupported,
                    "file name is not valid UTF-8 (rename the file): " + escape_invalid_utf8(t), "", std::nullopt};
   out["templates"] = templates;
-  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, 0.3}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
+  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, PickerOptions{}.threshold}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
     auto v = number_in(job, field, lo, hi, dflt);
     if (!v) return v.error();
     out[field] = v.value();

@@ -139,7 +139,8 @@ nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e) {
                    {"coverage", p.coverage}, {"missing_s", missing}, {"weak", e->weak},
                    {"aired_part", {p.aired_from_s, p.aired_to_s, p.aired_from_range_s.first, p.aired_from_range_s.second,
                                    p.aired_to_range_s.first, p.aired_to_range_s.second, p.coverage_range.first,
-                                   p.coverage_range.second, p.aired_level}}};
+                                   p.coverage_range.second, p.aired_level}},
+                   {"aired_score", e->aired_score}};
   if (e->foreground_contrast) j["foreground_contrast"] = *e->foreground_contrast;
   if (e->spot_lufs) j["spot_lufs"] = *e->spot_lufs;
   if (e->programme_lufs) j["programme_lufs"] = *e->programme_lufs;
@@ -163,6 +164,7 @@ Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json
     e.profile.aired_to_range_s = {part[4], part[5]};
     e.profile.coverage_range = {part[6], part[7]};
     e.profile.aired_level = part[8];
+    e.aired_score = j.at("aired_score").get<double>();
     if (j.contains("foreground_contrast")) e.foreground_contrast = j["foreground_contrast"].get<double>();
     if (j.contains("spot_lufs")) e.spot_lufs = j["spot_lufs"].get<double>();
     if (j.contains("programme_lufs")) e.programme_lufs = j["programme_lufs"].get<double>();

@@ -8,6 +8,7 @@
 #include "godwit/reconcile_job.h"
 #include "godwit/resampler.h"
 #include "foreground_contrast.h"
+#include "pearson.h"
 
 namespace godwit {
 
@@ -75,8 +76,13 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     // matches.
     if (auto fc = detail::foreground_contrast(plans, master, span, rate, e.profile.aired, vo.segment_s))
       e.foreground_contrast = fc->contrast;
-    e.weak = e.profile.coverage <= 0 ||
-             std::fabs(m.score) / std::sqrt(std::max(e.profile.coverage, 0.05)) < o.min_airing_score ||
+    {  // the aired part's own match, at the native rate, in air time
+      const size_t from = std::min(master.size(), static_cast<size_t>(e.profile.aired_from_s / m.speed * rate));
+      const size_t to = std::min({master.size(), span.size(), static_cast<size_t>(e.profile.aired_to_s / m.speed * rate)});
+      if (to > from + 16)
+        e.aired_score = m.polarity * detail::pearson(master.data() + from, span.data() + from, to - from, 1e-12);
+    }
+    e.weak = e.profile.coverage < o.min_coverage || e.aired_score < o.min_airing_score ||
              (e.foreground_contrast && *e.foreground_contrast < -o.max_foreground_deficit);
     if (!e.weak && o.loudness.enabled) {
       // The aired part: up to the first missing range that reaches the end.

@@ -95,6 +95,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
     const Placement& p = r.placements[v.placement];
     nlohmann::json x{{"slot", p.slot}, {"spot", p.spot}, {"planned", p.planned}, {"window_s", p.window_s},
                      {"status", verdict_name(v.status)}};
+    if (!p.planned_as_written.empty() && p.planned_as_written != p.planned) x["planned_as_written"] = p.planned_as_written;
     summary[verdict_name(v.status)] = summary[verdict_name(v.status)].get<int>() + 1;
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];

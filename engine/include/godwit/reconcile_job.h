@@ -67,13 +67,20 @@ struct ReconcileOptions {
   // Versions are told apart only when the best distinguishing score leads
   // the next by this much and reaches verify.min_segment_score.
   double version_margin = 0.1;
-  // A detection whose aired part matches under this (|score| /
-  // sqrt(coverage)) is not reported as an airing. Default 0.4, the
-  // detection threshold: through a compound air chain (EQ, compression, a
-  // 64 kbps codec) whole airings score 0.43-0.65 at 0-3 dB SNR, so a higher
-  // bar cost them; a music bed aired alone (0.42-0.51) is told apart by its
-  // foreground contrast instead (below). (0.65 until 2026-12-03.)
+  // A detection whose aired part (Profile::aired_from_s .. aired_to_s)
+  // matches under this (Pearson over that part alone) is not reported as
+  // an airing. Default 0.4: through a compound air chain (EQ, compression,
+  // a 64 kbps codec) whole airings score 0.43-0.65 at 0-3 dB SNR, so a
+  // higher bar cost them; a music bed aired alone (0.42-0.51) is told apart
+  // by its foreground contrast instead (below). (0.65 until 2026-12-03;
+  // until then the aired part's match was estimated as |score| /
+  // sqrt(coverage), which undervalues a cut airing whose rest was replaced
+  // by other audio: over the whole master it scores about q * coverage.)
   double min_airing_score = 0.4;
+  // A detection of which less than this fraction of the master aired is
+  // not reported as an airing: a family's closing tag alone, or a few
+  // seconds of a bed, match well over their short span. Default 0.3.
+  double min_coverage = 0.3;
   // A detection whose foreground matches worse than its background by more
   // than this (foreground contrast below -max_foreground_deficit) aired
   // without its voice: a music bed alone, or a presenter over the bed. It
@@ -176,6 +183,7 @@ struct DetectionEvidence {
   // master has no foreground to judge by.
   std::optional<double> foreground_contrast;
   bool weak = false;
+  double aired_score = 0;  // Pearson of the master and the airing over the aired part (polarity applied)
   std::optional<double> spot_lufs, programme_lufs;
 };
 
