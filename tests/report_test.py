@@ -440,7 +440,7 @@ class ReportInChromium(unittest.TestCase):
         self.open_report()
         table = self.chrome.js("""Object.fromEntries(Array.from(document.querySelectorAll('tr.placement')).map(r => [
             r.dataset.slot, {status: r.dataset.status, spot: r.cells[1].querySelector('.spot-id').textContent,
-                             detected: r.querySelector('td.detected') ? r.querySelector('td.detected').firstChild.textContent : ''}]))""")
+                             detected: r.querySelector('td.detected') ? r.querySelector('td.detected .spot-id').textContent : ''}]))""")
         tips = self.chrome.js("""Array.from(document.querySelectorAll('#timeline g.slot')).map(g => ({
             slot: g.dataset.slot, status: g.dataset.status, detected: g.dataset.detected,
             title: g.querySelector('title').textContent}))""")
@@ -534,7 +534,7 @@ class ReportInChromium(unittest.TestCase):
             wide = self.chrome.js("""(() => { const w = document.documentElement.clientWidth;
                 return Array.from(document.querySelectorAll('body *')).filter(e => {
                   const b = e.getBoundingClientRect(); return b.width > 0 && b.right > w + 1; })
-                  .map(e => e.tagName + '#' + e.id + '.' + e.className).slice(0, 5); })()""")
+                  .map(e => e.tagName + '#' + e.id + '.' + e.getAttribute('class')).slice(0, 5); })()""")
             self.assertEqual(wide, [])
             players = self.chrome.js("""Array.from(document.querySelectorAll('audio')).filter(
                 a => getComputedStyle(a).display !== 'none').length""")

@@ -38,10 +38,33 @@ std::string fmt(const char* f, double v) {
 std::string clock(LocalSeconds t) { return format_iso8601_local(t, 0).substr(11); }
 std::string clock_ms(LocalSeconds t) { return format_iso8601_local(t, 3).substr(11); }
 
+// Where long words may wrap: after the 'T' of a date-time, after '_' and
+// '.' in ids (a hyphen already allows it before a letter).
+std::string wrappable(const std::string& text) {
+  auto digit = [&](size_t i) { return i < text.size() && text[i] >= '0' && text[i] <= '9'; };
+  std::string o;
+  for (size_t i = 0; i < text.size(); ++i) {
+    o += esc(std::string(1, text[i]));
+    const bool date_time = text[i] == 'T' && i > 0 && digit(i - 1) && digit(i + 1);
+    if (date_time || ((text[i] == '_' || text[i] == '.') && i + 1 < text.size())) o += "<wbr>";
+  }
+  return o;
+}
+
 // Text on a verdict colour: dark on the light ones (CIELAB L* over 60).
-const char* ink_on(const std::string& status) {
-  static const std::set<std::string> light = {"early", "partial", "not_recorded"};
-  return light.count(status) ? "#111" : "#fff";
+bool light(const std::string& status) { return status == "early" || status == "partial" || status == "not_recorded"; }
+
+// Each verdict's colour as a CSS variable on whatever carries its
+// data-status (rows, marks, chips, legend), and what wears it.
+std::string palette_css(const std::vector<std::string>& statuses) {
+  std::string c;
+  for (const auto& s : statuses)
+    c += "[data-status=" + s + "]{--c:" + verdict_colour(s) + (light(s) ? ";--ink:#111" : "") + "}";
+  return c + ".chip{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:4px;background:var(--c)}"
+             ".count{background:var(--c);color:var(--ink,#fff)}.swatch{background:var(--c)}"
+             ".swatch.recorded{background:#eef2f7;outline:1px solid #ccd}"
+             "g.slot rect{fill:var(--c);fill-opacity:.3;stroke:var(--c);stroke-width:.8}g.slot line{stroke:var(--c);"
+             "stroke-width:2}g.slot line.link{stroke-width:1;stroke-opacity:.6}rect.detection{fill:var(--c)}\n";
 }
 
 const std::string kNoAdvertiser = "(no advertiser)";
@@ -58,7 +81,7 @@ std::string advertiser_of(const ReconcileResult& r, const std::string& spot) {
 
 // The spot id with its advertiser and title beneath.
 std::string spot_cell(const ReconcileResult& r, const std::string& spot) {
-  std::string s = "<span class=\"spot-id\">" + esc(spot) + "</span>";
+  std::string s = "<span class=\"spot-id\">" + wrappable(spot) + "</span>";
   if (const SpotMeta* m = meta_of(r, spot); m && (!m->advertiser.empty() || !m->title.empty())) {
     s += "<br><span class=\"small meta\">";
     if (!m->advertiser.empty()) s += "<span class=\"advertiser\">" + esc(m->advertiser) + "</span>";
@@ -326,22 +349,24 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
        "h2{font-size:16px;margin-top:28px}#made{margin-top:0}"
        "#cautions{border:1px solid #e0a800;background:#fff8e1;padding:8px 12px}"
        ".count{display:inline-block;margin:0 10px 6px 0;padding:3px 9px;border-radius:4px}"
-       "table{border-collapse:collapse;width:100%}th,td{border-bottom:1px solid #ddd;padding:3px 6px;text-align:left;"
+       "table{border-collapse:collapse;width:100%}th,td{border-top:1px solid #ddd;padding:3px 6px;text-align:left;"
        "vertical-align:middle}th{background:#fafafa;position:sticky;top:0;z-index:1}.status{font-weight:600}"
        "td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}.small{color:#555;font-size:12px}"
-       "svg#timeline{border:1px solid #ddd;background:#fff;width:100%;height:auto}"
-       ".chip{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:4px;vertical-align:baseline}"
+       "svg#timeline{border:1px solid #ddd;background:#fff;width:100%;height:auto;box-sizing:border-box}"
        "#legend .legend-item{display:inline-block;margin:0 12px 4px 0;font-size:12px}"
        ".swatch{display:inline-block;width:14px;height:10px;margin-right:4px;vertical-align:baseline;border-radius:2px}"
        "#filters{border:1px solid #ddd;padding:6px 10px;background:#fafafa}#filters label{margin-right:10px;white-space:nowrap}"
-       ".listen-box{display:flex;flex-wrap:wrap;align-items:center;gap:6px 18px}tr.listen td{border-bottom:1px solid #ccc;"
-       "padding-bottom:6px}tr.placement:has(+tr.listen) td,tr.airing:has(+tr.listen) td{border-bottom:none}"
+       ".listen-box{display:flex;flex-wrap:wrap;align-items:center;gap:6px 18px}tr.listen td{border-top:none;"
+       "padding-bottom:6px}"
        ".player{display:flex;flex-direction:column}.player audio{height:30px;width:260px}"
        "svg.listen{display:block}.rec-path{overflow-wrap:anywhere}"
-       ".print-only{display:none}[hidden]{display:none!important}\n"
-       "@media print{@page{size:A4;margin:12mm}body{margin:0;font-size:9pt}h2{font-size:11pt;margin-top:12pt}"
+       ".print-only{display:none}[hidden]{display:none!important}\n" +
+       palette_css(shown) +
+       "@media print{@page{size:A4;margin:12mm}*{-webkit-print-color-adjust:exact;print-color-adjust:exact}"
+       "body{margin:0;font-size:9pt}h2{font-size:11pt;margin-top:12pt}"
        "#filters,audio,.profile,.no-print{display:none!important}.print-only{display:inline}"
-       "th{position:static}th,td{padding:1px 3px}.small{font-size:7.5pt}tr,svg{break-inside:avoid}"
+       "th{position:static}th,td{padding:1px 3px;overflow-wrap:anywhere}table{font-size:8pt}.small{font-size:7pt}"
+       "tr,svg{break-inside:avoid}"
        "a{color:inherit;text-decoration:none}.player{display:block}}\n"
        "</style></head><body>\n";
   // Patterns the listening pictures mark ranges with.
@@ -368,16 +393,15 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
   for (size_t i : r.unscheduled) advertisers.insert(advertiser_of(r, r.airings[i].spot));
   h += "<form id=\"filters\" class=\"no-print\" onsubmit=\"return false\"><b>Show</b> ";
   for (const std::string& s : shown)
-    h += "<label><input type=\"checkbox\" name=\"status\" value=\"" + s + "\" checked><span class=\"chip\" style=\"background:" +
-         verdict_colour(s) + "\"></span>" + s + "</label>";
+    h += "<label data-status=\"" + s + "\"><input type=\"checkbox\" name=\"status\" value=\"" + s +
+         "\" checked><span class=\"chip\"></span>" + s + "</label>";
   h += "<label>advertiser <select name=\"advertiser\"><option value=\"\">all</option>";
   for (const auto& a : advertisers) h += "<option value=\"" + esc(a) + "\">" + esc(a) + "</option>";
   h += "</select></label> <span id=\"shown\" class=\"small\"></span></form>\n";
 
   h += "<h2>Summary</h2><div id=\"summary\">";
   for (const std::string& s : shown)
-    h += "<span class=\"count\" data-status=\"" + s + "\" style=\"background:" + verdict_colour(s) + ";color:" + ink_on(s) +
-         "\">" + s + ": <b>" + std::to_string(counts[s]) + "</b></span>";
+    h += "<span class=\"count\" data-status=\"" + s + "\">" + s + ": <b>" + std::to_string(counts[s]) + "</b></span>";
   h += "</div>\n";
 
   // Per advertiser. Owed: placements without a satisfactory airing (early,
@@ -513,40 +537,39 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
          esc(advertiser_of(r, p.spot)) + "\" data-detected=\"" + esc(detected) + "\"><title>" + esc(tip) + "</title><rect x=\"" +
          fmt("%.1f", X(p.planned_s - p.window_s)) + "\" y=\"" + fmt("%.1f", y + 2) + "\" width=\"" +
          fmt("%.2f", std::max(1.0, X(p.planned_s + p.window_s) - X(p.planned_s - p.window_s))) + "\" height=\"" +
-         fmt("%.0f", lane_h - 4) + "\" fill=\"" + verdict_colour(st) + "\" fill-opacity=\"0.3\" stroke=\"" + verdict_colour(st) +
-         "\" stroke-width=\"0.8\"/><line x1=\"" + fmt("%.1f", X(p.planned_s)) + "\" y1=\"" + fmt("%.1f", y) + "\" x2=\"" +
-         fmt("%.1f", X(p.planned_s)) + "\" y2=\"" + fmt("%.1f", y + lane_h) + "\" stroke=\"" + verdict_colour(st) +
-         "\" stroke-width=\"2\"/>";
+         fmt("%.0f", lane_h - 4) + "\"/><line x1=\"" + fmt("%.1f", X(p.planned_s)) + "\" y1=\"" + fmt("%.1f", y) + "\" x2=\"" +
+         fmt("%.1f", X(p.planned_s)) + "\" y2=\"" + fmt("%.1f", y + lane_h) + "\"/>";
     if (v.airing) {
       const auto& a = r.airings[*v.airing];
-      h += "<line x1=\"" + fmt("%.1f", X(p.planned_s)) + "\" y1=\"" + fmt("%.1f", y + lane_h) + "\" x2=\"" + fmt("%.1f", X(a.aired_s)) +
-           "\" y2=\"" + fmt("%.0f", air_y) + "\" stroke=\"" + verdict_colour(st) + "\" stroke-opacity=\"0.6\"/>";
+      h += "<line class=\"link\" x1=\"" + fmt("%.1f", X(p.planned_s)) + "\" y1=\"" + fmt("%.1f", y + lane_h) + "\" x2=\"" +
+           fmt("%.1f", X(a.aired_s)) + "\" y2=\"" + fmt("%.0f", air_y) + "\"/>";
     }
     h += "</g>\n";
   }
-  std::map<size_t, std::pair<std::string, std::string>> served;  // airing -> slot, spot reported
+  std::map<size_t, const Placement*> served;  // airing -> the placement it served
   for (const auto& v : r.verdicts)
-    if (v.airing) served[*v.airing] = {r.placements[v.placement].slot, reported_spot(r.airings[*v.airing], r.placements[v.placement])};
+    if (v.airing) served[*v.airing] = &r.placements[v.placement];
   for (size_t i = 0; i < r.airings.size(); ++i) {
     const auto& a = r.airings[i];
     const double len = a.length_s / (a.speed > 0 ? a.speed : 1.0);
     if (!inside(a.aired_s, a.aired_s + len)) continue;
     auto sv = served.find(i);
-    const std::string detected = sv == served.end() ? a.spot : sv->second.second;
-    const std::string tip = (sv == served.end() ? std::string("unscheduled") : sv->second.first) + ": " + detected + " aired " +
+    const Placement* by = sv == served.end() ? nullptr : sv->second;
+    const std::string detected = by ? reported_spot(a, *by) : a.spot;
+    const std::string tip = (by ? by->slot : std::string("unscheduled")) + ": " + detected + " aired " +
                             clock_ms(a.aired_s) + " (" + airing_status[i] + "), score " + fmt("%.3f", a.score) +
                             ", coverage " + fmt("%.2f", a.coverage);
-    h += "<rect class=\"detection\" data-status=\"" + airing_status[i] + "\" data-advertiser=\"" + esc(advertiser_of(r, detected)) +
-         "\" data-detected=\"" + esc(detected) + "\"" + (sv == served.end() ? "" : " data-slot=\"" + esc(sv->second.first) + "\"") +
+    h += "<rect class=\"detection\" data-status=\"" + airing_status[i] + "\" data-advertiser=\"" +
+         esc(advertiser_of(r, by ? by->spot : a.spot)) + "\" data-detected=\"" + esc(detected) + "\"" +
+         (by ? " data-slot=\"" + esc(by->slot) + "\"" : "") +
          " x=\"" + fmt("%.1f", X(a.aired_s)) + "\" y=\"" + fmt("%.0f", air_y) + "\" width=\"" +
-         fmt("%.2f", std::max(2.0, X(a.aired_s + len * std::max(a.coverage, 0.02)) - X(a.aired_s))) + "\" height=\"16\" fill=\"" +
-         verdict_colour(airing_status[i]) + "\"><title>" + esc(tip) + "</title></rect>\n";
+         fmt("%.2f", std::max(2.0, X(a.aired_s + len * std::max(a.coverage, 0.02)) - X(a.aired_s))) + "\" height=\"16\"><title>" +
+         esc(tip) + "</title></rect>\n";
   }
   h += "</svg>\n<div id=\"legend\">";
   for (const std::string& s : shown)
-    h += "<span class=\"legend-item\" data-status=\"" + s + "\"><span class=\"swatch\" style=\"background:" + verdict_colour(s) +
-         "\"></span>" + s + "</span>";
-  h += "<span class=\"legend-item\"><span class=\"swatch\" style=\"background:#eef2f7;border:1px solid #ccd\"></span>recorded "
+    h += "<span class=\"legend-item\" data-status=\"" + s + "\"><span class=\"swatch\"></span>" + s + "</span>";
+  h += "<span class=\"legend-item\"><span class=\"swatch recorded\"></span>recorded "
        "time</span><span class=\"legend-item small\">window: pale bar, planned time: its tick; detection: solid bar, as "
        "long as the part that aired</span></div>\n";
   if (!apart.empty()) {
@@ -555,8 +578,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
       const auto& v = r.verdicts[k];
       const auto& p = r.placements[v.placement];
       h += "<li data-slot=\"" + esc(p.slot) + "\" data-status=\"" + verdict_name(v.status) + "\">" + esc(p.slot) + " " +
-           esc(p.spot) + ", planned " + esc(p.planned) + ": <span style=\"color:" + verdict_colour(verdict_name(v.status)) +
-           "\">" + verdict_name(v.status) + "</span></li>";
+           esc(p.spot) + ", planned " + esc(p.planned) + ": <span class=\"chip\"></span>" + verdict_name(v.status) + "</li>";
     }
     h += "</ul>\n";
   }
@@ -580,19 +602,19 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
     const std::string st = verdict_name(v.status);
     h += "<tr class=\"placement\" data-slot=\"" + esc(p.slot) + "\" data-status=\"" + st + "\" data-advertiser=\"" +
          esc(advertiser_of(r, p.spot)) + "\"><td>" + esc(p.slot) + "</td><td>" + spot_cell(r, p.spot) + "</td><td>" +
-         esc(p.planned) + "<br><span class=\"small\">&plusmn;" + fmt("%.0f", p.window_s) +
-         " s</span></td><td class=\"status\"><span class=\"chip\" style=\"background:" + verdict_colour(st) + "\"></span>" + st +
+         wrappable(p.planned) + "<br><span class=\"small\">&plusmn;" + fmt("%.0f", p.window_s) +
+         " s</span></td><td class=\"status\"><span class=\"chip\"></span>" + wrappable(st) +
          "</td>";
     if (v.airing) {
       const auto& a = r.airings[*v.airing];
       const std::string missing = ranges(a.missing_s), unrecorded = ranges(a.unrecorded_s);
       const std::string detected = reported_spot(a, p);
-      h += "<td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" +
+      h += "<td>" + wrappable(format_iso8601_local(a.aired_s, 3)) + "</td><td class=\"num\">" +
            fmt("%+.3f s", detail::round_decimals(v.deviation_s, 3)) + "</td><td class=\"num\">" + fmt("%.3f", a.score) +
            (a.polarity < 0 ? " (inverted)" : "") + speed_note(a) + "</td><td class=\"num\">" + fmt("%.2f", a.coverage) +
            (missing.empty() ? "" : "<br><span class=\"small\">missing " + missing + "</span>") +
            (unrecorded.empty() ? "" : "<br><span class=\"small\">not recorded " + unrecorded + "</span>") +
-           "</td><td class=\"detected\">" + esc(detected) +
+           "</td><td class=\"detected\"><span class=\"spot-id\">" + wrappable(detected) + "</span>" +
            (a.undetermined_among.empty() ? "" : "<br><span class=\"small\">version undetermined</span>") + "</td><td class=\"small\">" +
            recording_cell(a) + "</td><td class=\"small\">" + loudness_cell(a, o.loudness) + "</td><td class=\"no-print\">" +
            sparkline(a.profile) + "</td></tr>\n" +
@@ -609,7 +631,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
     const size_t i = r.unscheduled[k];
     const auto& a = r.airings[i];
     h += "<tr class=\"airing\" data-status=\"unscheduled\" data-advertiser=\"" + esc(advertiser_of(r, a.spot)) + "\"><td>" +
-         spot_cell(r, a.spot) + "</td><td>" + format_iso8601_local(a.aired_s, 3) + "</td><td class=\"num\">" + fmt("%.3f", a.score) +
+         spot_cell(r, a.spot) + "</td><td>" + wrappable(format_iso8601_local(a.aired_s, 3)) + "</td><td class=\"num\">" + fmt("%.3f", a.score) +
          (a.polarity < 0 ? " (inverted)" : "") + speed_note(a) + "</td><td class=\"num\">" + fmt("%.2f", a.coverage) +
          "</td><td class=\"small\">" + recording_cell(a) + "</td><td class=\"small\">" + loudness_cell(a, o.loudness) +
          "</td><td class=\"no-print\">" + sparkline(a.profile) + "</td></tr>\n" +
