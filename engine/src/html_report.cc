@@ -83,11 +83,8 @@ std::string advertiser_of(const ReconcileResult& r, const std::string& spot) {
 std::string spot_cell(const ReconcileResult& r, const std::string& spot) {
   std::string s = "<span class=\"spot-id\">" + wrappable(spot) + "</span>";
   if (const SpotMeta* m = meta_of(r, spot); m && (!m->advertiser.empty() || !m->title.empty())) {
-    s += "<br><span class=\"small meta\">";
-    if (!m->advertiser.empty()) s += "<span class=\"advertiser\">" + esc(m->advertiser) + "</span>";
-    if (!m->advertiser.empty() && !m->title.empty()) s += ": ";
-    if (!m->title.empty()) s += "<span class=\"title\">" + esc(m->title) + "</span>";
-    s += "</span>";
+    s += "<br><span class=\"small meta\">" + esc(m->advertiser) + (!m->advertiser.empty() && !m->title.empty() ? ": " : "") +
+         esc(m->title) + "</span>";
   }
   return s;
 }
@@ -100,13 +97,11 @@ std::string sparkline(const Profile& p) {
   for (size_t i = 0; i < n; ++i) {
     const double x = n > 1 ? w * static_cast<double>(i) / static_cast<double>(n - 1) : w / 2;
     const double y = h - h * std::clamp(static_cast<double>(std::fabs(p.scores[i])), 0.0, 1.0);
-    pts += fmt("%.1f", x) + "," + fmt("%.1f", y) + " ";
+    pts += (i ? " " : "") + fmt("%.1f", x) + "," + fmt("%.1f", y);
   }
+  // Drawn by the stylesheet (svg.profile): background, the 0.3 line, the trace.
   return "<svg class=\"profile\" width=\"120\" height=\"24\" viewBox=\"0 0 120 24\" role=\"img\" aria-label=\"score "
-         "profile, one point per second\"><rect width=\"120\" height=\"24\" fill=\"#f4f4f4\"/><line x1=\"0\" y1=\"" +
-         fmt("%.1f", h * 0.7) + "\" x2=\"120\" y2=\"" + fmt("%.1f", h * 0.7) +
-         "\" stroke=\"#ccc\" stroke-dasharray=\"2,2\"/><polyline fill=\"none\" stroke=\"#333\" stroke-width=\"1\" "
-         "points=\"" + pts + "\"/></svg>";
+         "profile\"><path d=\"M0 16.8H120\"/><polyline points=\"" + pts + "\"/></svg>";
 }
 
 // "aired at 1.0417x (+4.17 %)" under the score, when the speed changed.
@@ -159,7 +154,9 @@ std::string file_name(const std::string& path) {
 }
 
 std::string recording_cell(const AiringRecord& a) {
-  return "<span class=\"rec-path\" title=\"" + esc(a.recording) + "\">" + esc(file_name(a.recording)) + "</span> @ " +
+  const std::string name = file_name(a.recording);
+  return "<span class=\"rec-path\"" + (name == a.recording ? std::string() : " title=\"" + esc(a.recording) + "\"") + ">" +
+         esc(name) + "</span> @ " +
          fmt("%.3f s", detail::round_decimals(a.offset_s, 3));
 }
 
@@ -360,6 +357,8 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
        "padding-bottom:6px}"
        ".player{display:flex;flex-direction:column}.player audio{height:30px;width:260px}"
        "svg.listen{display:block}.rec-path{overflow-wrap:anywhere}"
+       "svg.profile{background:#f4f4f4}svg.profile path{stroke:#ccc;stroke-dasharray:2,2}"
+       "svg.profile polyline{fill:none;stroke:#333;stroke-width:1}"
        ".print-only{display:none}[hidden]{display:none!important}\n" +
        palette_css(shown) +
        "@media print{@page{size:A4;margin:12mm}*{-webkit-print-color-adjust:exact;print-color-adjust:exact}"
@@ -403,60 +402,6 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
   for (const std::string& s : shown)
     h += "<span class=\"count\" data-status=\"" + s + "\">" + s + ": <b>" + std::to_string(counts[s]) + "</b></span>";
   h += "</div>\n";
-
-  // Per advertiser. Owed: placements without a satisfactory airing (early,
-  // late, partial, wrong version, missing); unverified: not recorded, or a
-  // spot the library lacks, so nothing can be said.
-  struct Totals {
-    int ordered = 0, aired = 0, owed = 0, unverified = 0, unscheduled = 0;
-  };
-  std::map<std::string, Totals> by_adv;
-  for (const auto& v : r.verdicts) {
-    Totals& t = by_adv[advertiser_of(r, r.placements[v.placement].spot)];
-    ++t.ordered;
-    if (v.status == VerdictStatus::aired) ++t.aired;
-    else if (v.status == VerdictStatus::not_recorded || v.status == VerdictStatus::unknown_spot) ++t.unverified;
-    else ++t.owed;
-  }
-  for (size_t i : r.unscheduled) ++by_adv[advertiser_of(r, r.airings[i].spot)].unscheduled;
-  h += "<h2>By advertiser</h2><table id=\"advertisers\"><thead><tr><th>advertiser</th><th class=\"num\">ordered</th>"
-       "<th class=\"num\">aired</th><th class=\"num\">owed</th><th class=\"num\">unverified</th>"
-       "<th class=\"num\">unscheduled airings</th></tr></thead><tbody>\n";
-  for (const auto& [adv, t] : by_adv)
-    h += "<tr class=\"advertiser\" data-advertiser=\"" + esc(adv) + "\"><td>" + esc(adv) + "</td><td class=\"num ordered\">" +
-         std::to_string(t.ordered) + "</td><td class=\"num aired\">" + std::to_string(t.aired) + "</td><td class=\"num owed\">" +
-         std::to_string(t.owed) + "</td><td class=\"num unverified\">" + std::to_string(t.unverified) +
-         "</td><td class=\"num unscheduled\">" + std::to_string(t.unscheduled) + "</td></tr>\n";
-  h += "</tbody></table><p class=\"small\"><b>Aired</b>: in its window and complete. <b>Owed</b>: placements without a "
-       "satisfactory airing (early, late, partial, wrong version, missing). <b>Unverified</b>: not recorded, or a spot "
-       "the library lacks. Unscheduled airings are not counted against any order.</p>\n";
-
-  // Recordings and the gaps and overlaps between them.
-  h += "<h2>Recordings</h2><table id=\"recordings\"><thead><tr><th>file</th><th>from</th><th>to</th>"
-       "<th class=\"num\">length</th><th class=\"num\">rate</th><th class=\"num\">channels</th><th>format</th>"
-       "<th>problem</th></tr></thead><tbody>\n";
-  for (const auto& rec : r.recordings) {
-    h += "<tr class=\"recording\"><td class=\"rec-path\" title=\"" + esc(rec.path) + "\">" + esc(file_name(rec.path)) + "</td>";
-    if (rec.start_s)
-      h += "<td>" + format_iso8601_local(*rec.start_s, 0) + "</td><td>" + format_iso8601_local(*rec.start_s + rec.duration_s, 0) +
-           "</td>";
-    else
-      h += "<td colspan=\"2\" class=\"small\">start unknown</td>";
-    h += "<td class=\"num\">" + fmt("%.1f s", detail::round_decimals(rec.duration_s, 1)) + "</td><td class=\"num\">" +
-         fmt("%.0f Hz", rec.native_rate_hz) + "</td><td class=\"num\">" + std::to_string(rec.channels) + "</td><td>" +
-         esc(rec.format) + "</td><td class=\"small\">" + (rec.error ? esc(rec.error->describe()) : "") + "</td></tr>\n";
-  }
-  h += "</tbody></table>\n";
-  if (!r.timeline_issues.empty()) {
-    h += "<ul id=\"timeline-issues\">";
-    for (const auto& t : r.timeline_issues)
-      h += "<li class=\"" + std::string(timeline_issue_name(t.kind)) + "\">" + timeline_issue_name(t.kind) + " of " +
-           fmt("%.3f", detail::round_decimals(t.seconds, 3)) + " s at " + clock_ms(t.at_s) + " between " +
-           esc(file_name(t.before)) + " and " + esc(file_name(t.after)) + "</li>";
-    h += "</ul>\n";
-  } else if (!r.recordings.empty()) {
-    h += "<p class=\"small\" id=\"timeline-issues\">No gaps or overlaps between the recordings.</p>\n";
-  }
 
   // Timeline, over the recorded time only.
   Span span{0, 0};
@@ -581,6 +526,60 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
            esc(p.spot) + ", planned " + esc(p.planned) + ": <span class=\"chip\"></span>" + verdict_name(v.status) + "</li>";
     }
     h += "</ul>\n";
+  }
+
+  // Per advertiser. Owed: placements without a satisfactory airing (early,
+  // late, partial, wrong version, missing); unverified: not recorded, or a
+  // spot the library lacks, so nothing can be said.
+  struct Totals {
+    int ordered = 0, aired = 0, owed = 0, unverified = 0, unscheduled = 0;
+  };
+  std::map<std::string, Totals> by_adv;
+  for (const auto& v : r.verdicts) {
+    Totals& t = by_adv[advertiser_of(r, r.placements[v.placement].spot)];
+    ++t.ordered;
+    if (v.status == VerdictStatus::aired) ++t.aired;
+    else if (v.status == VerdictStatus::not_recorded || v.status == VerdictStatus::unknown_spot) ++t.unverified;
+    else ++t.owed;
+  }
+  for (size_t i : r.unscheduled) ++by_adv[advertiser_of(r, r.airings[i].spot)].unscheduled;
+  h += "<h2>By advertiser</h2><table id=\"advertisers\"><thead><tr><th>advertiser</th><th class=\"num\">ordered</th>"
+       "<th class=\"num\">aired</th><th class=\"num\">owed</th><th class=\"num\">unverified</th>"
+       "<th class=\"num\">unscheduled airings</th></tr></thead><tbody>\n";
+  for (const auto& [adv, t] : by_adv)
+    h += "<tr class=\"advertiser\" data-advertiser=\"" + esc(adv) + "\"><td>" + esc(adv) + "</td><td class=\"num ordered\">" +
+         std::to_string(t.ordered) + "</td><td class=\"num aired\">" + std::to_string(t.aired) + "</td><td class=\"num owed\">" +
+         std::to_string(t.owed) + "</td><td class=\"num unverified\">" + std::to_string(t.unverified) +
+         "</td><td class=\"num unscheduled\">" + std::to_string(t.unscheduled) + "</td></tr>\n";
+  h += "</tbody></table><p class=\"small\"><b>Aired</b>: in its window and complete. <b>Owed</b>: placements without a "
+       "satisfactory airing (early, late, partial, wrong version, missing). <b>Unverified</b>: not recorded, or a spot "
+       "the library lacks. Unscheduled airings are not counted against any order.</p>\n";
+
+  // Recordings and the gaps and overlaps between them.
+  h += "<h2>Recordings</h2><table id=\"recordings\"><thead><tr><th>file</th><th>from</th><th>to</th>"
+       "<th class=\"num\">length</th><th class=\"num\">rate</th><th class=\"num\">channels</th><th>format</th>"
+       "<th>problem</th></tr></thead><tbody>\n";
+  for (const auto& rec : r.recordings) {
+    h += "<tr class=\"recording\"><td class=\"rec-path\" title=\"" + esc(rec.path) + "\">" + esc(file_name(rec.path)) + "</td>";
+    if (rec.start_s)
+      h += "<td>" + format_iso8601_local(*rec.start_s, 0) + "</td><td>" + format_iso8601_local(*rec.start_s + rec.duration_s, 0) +
+           "</td>";
+    else
+      h += "<td colspan=\"2\" class=\"small\">start unknown</td>";
+    h += "<td class=\"num\">" + fmt("%.1f s", detail::round_decimals(rec.duration_s, 1)) + "</td><td class=\"num\">" +
+         fmt("%.0f Hz", rec.native_rate_hz) + "</td><td class=\"num\">" + std::to_string(rec.channels) + "</td><td>" +
+         esc(rec.format) + "</td><td class=\"small\">" + (rec.error ? esc(rec.error->describe()) : "") + "</td></tr>\n";
+  }
+  h += "</tbody></table>\n";
+  if (!r.timeline_issues.empty()) {
+    h += "<ul id=\"timeline-issues\">";
+    for (const auto& t : r.timeline_issues)
+      h += "<li class=\"" + std::string(timeline_issue_name(t.kind)) + "\">" + timeline_issue_name(t.kind) + " of " +
+           fmt("%.3f", detail::round_decimals(t.seconds, 3)) + " s at " + clock_ms(t.at_s) + " between " +
+           esc(file_name(t.before)) + " and " + esc(file_name(t.after)) + "</li>";
+    h += "</ul>\n";
+  } else if (!r.recordings.empty()) {
+    h += "<p class=\"small\" id=\"timeline-issues\">No gaps or overlaps between the recordings.</p>\n";
   }
 
   h += "<h2>Placements</h2><table id=\"placements\"><thead><tr><th>slot</th><th>spot</th><th>planned</th><th>status</th>"

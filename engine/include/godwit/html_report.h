@@ -9,12 +9,12 @@
 //   filters     by verdict and by advertiser (a few lines of inline script;
 //               no server needed)
 //   summary     counts by verdict, in the verdict colours
-//   advertisers per advertiser: ordered, aired, owed, unverified, unscheduled
-//   recordings  each file with its span, rate, channels and error; gaps and
-//               overlaps between files
 //   timeline    limited to the recorded time (shaded); planned windows in
 //               lanes, detections below, a legend; placements outside the
 //               recorded time listed apart
+//   advertisers per advertiser: ordered, aired, owed, unverified, unscheduled
+//   recordings  each file with its span, rate, channels and error; gaps and
+//               overlaps between files
 //   placements  every placement with its evidence, the spot's advertiser and
 //               title, a plot of its score profile and, with excerpts, a
 //               player for the airing and for its master and a picture of
