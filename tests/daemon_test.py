@@ -839,7 +839,13 @@ class DaemonTests(unittest.TestCase):
                 f.write(json.dumps({"event": "submit", "job": job, "spec": {"kind": "locate", "recordings": []},
                                     "submitted": f"2026-12-01T{i // 3600 % 24:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z"})
                         + "\n" + json.dumps({"event": "cancelled", "job": job}) + "\n")
+        # The oldest job had report files (a reconcile job's page and excerpts).
+        files = os.path.join(state, "results", f"j{0:015x}")
+        os.makedirs(os.path.join(files, "listen"))
+        with open(os.path.join(files, "listen", "S001_20260314T060037.250.opus"), "wb") as f:
+            f.write(b"OggS")
         d = self.start(extra_config="[limits]\nmax_finished_jobs = 500\nmax_reply_bytes = 2048\n")
+        self.assertFalse(os.path.exists(files))  # pruned with its job
         c = d.connect()
         r = c.req({"op": "jobs", "id": "page1"})
         self.assertIsNotNone(r, "connection closed without an answer")
