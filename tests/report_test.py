@@ -168,6 +168,8 @@ class DomSummary(html.parser.HTMLParser):
         self._count_status = None
         self._in_cautions = False
         self.cautions = ""
+        self._in_issues = False
+        self.issues = ""   # text of #timeline-issues
 
     def handle_starttag(self, tag, attrs):
         a = dict(attrs)
@@ -186,14 +188,20 @@ class DomSummary(html.parser.HTMLParser):
             self._count_status = a.get("data-status")
         if tag == "div" and a.get("id") == "cautions":
             self._in_cautions = True
+        if a.get("id") == "timeline-issues":
+            self._in_issues = True
 
     def handle_endtag(self, tag):
         if tag == "div":
             self._in_cautions = False
+        if tag in ("ul", "p"):
+            self._in_issues = False
 
     def handle_data(self, data):
         if self._in_cautions:
             self.cautions += data
+        if self._in_issues:
+            self.issues += data
         if self._count_status and data.strip().isdigit():
             self.counts[self._count_status] = int(data.strip())
             self._count_status = None
@@ -366,6 +374,28 @@ class ReportInChromium(unittest.TestCase):
         self.assertTrue(s007["missing"])
         n = self.chrome.js("""document.querySelectorAll('tr.listen[data-slot="S007"] rect.missing-range').length""")
         self.assertEqual(n, 1)
+
+    def test_an_airing_cut_by_the_end_of_the_recordings_is_marked_not_recorded_and_its_excerpt_clipped(self):
+        # The first file alone (06:00-06:05): S004 at 06:04:52 has 8 of its
+        # 20 s recorded.
+        out = os.path.join(self.tmp, "first-hour-file")
+        subprocess.run([ARGS.godwit, "reconcile", "--library", f"{self.demo}/library", "--schedule", self.schedule,
+                        "--recording", self.truth["recordings"][0], "--out", out, "--planner", "estimate",
+                        "--cache-dir", "", "-q"], capture_output=True)
+        doc = read_json(os.path.join(out, "reconcile.json"))
+        s004 = next(p for p in doc["placements"] if p["slot"] == "S004")
+        self.assertEqual(len(s004["not_recorded"]), 1)
+        self.assertAlmostEqual(s004["not_recorded"][0][0], 8.0, delta=0.01)
+        self.assertAlmostEqual(s004["not_recorded"][0][1], 20.0, delta=0.01)
+        self.chrome.open("file://" + os.path.join(out, "reconcile.html"))
+        row = 'tr.listen[data-slot="S004"]'
+        marks = self.chrome.js(f"""[document.querySelectorAll('{row} rect.unrecorded-range').length,
+                                    document.querySelectorAll('{row} rect.missing-range').length]""")
+        self.assertEqual(marks, [1, 0])
+        src = self.chrome.js(f"document.querySelector('{row} audio.aired').getAttribute('src')")
+        got = self.chrome.js(f"""(async () => (await new OfflineAudioContext(1, 48000, 48000).decodeAudioData(
+            await (await fetch({json.dumps(src)})).arrayBuffer())).duration)()""")
+        self.assertAlmostEqual(got, 2 + 8, delta=0.1)  # 2 s before it, then what was recorded of it
 
     def test_heading_names_the_station_the_day_the_version_and_the_recordings(self):
         self.open_report()
@@ -594,6 +624,7 @@ class LongDay(unittest.TestCase):
               f"(report cost {t_long - t_blank:.2f} s, limit 2 s)", file=sys.stderr)
         self.assertEqual(len(d.rows), 300)
         self.assertEqual(d.slots + d.outside, 300)
+        self.assertIn("gap of 3600.000 s at 14:00:00.000", d.issues)  # the fixture's lost hour
         self.assertLess(t_long - t_blank, 2.0)
         shot = os.path.join(ARGS.artifacts, "report-long-day.png")
         p = chromium("--window-size=1400,1300", f"--screenshot={shot}", "file://" + page, profile=self.profile)

@@ -295,7 +295,13 @@ ReportHeading report_heading(const std::string& log_name, const ReconcileResult&
       day = log_name.substr(i, 4) + "-" + log_name.substr(i + 4, 2) + "-" + log_name.substr(i + 6, 2), len = 8;
     if (!day.empty() && parse_iso8601_local(day + "T00:00:00")) {
       h.day = day;
-      station = log_name.substr(0, i) + log_name.substr(i + len);
+      // "kfm_20260314_log" -> "kfm_log": one separator where the date was.
+      std::string before = log_name.substr(0, i), after = log_name.substr(i + len);
+      const std::string sep = "-_. ";
+      if (!before.empty() && !after.empty() && sep.find(before.back()) != std::string::npos &&
+          sep.find(after.front()) != std::string::npos)
+        after.erase(after.begin());
+      station = before + after;
     }
   }
   if (!h.day.empty()) {
