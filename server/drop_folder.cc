@@ -12,6 +12,7 @@
 
 #include "atomic_file.h"
 #include "godwit/civil_time.h"
+#include "godwit/excerpt.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
 #include "json_text.h"
@@ -304,7 +305,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   ReportFiles files;
   files.dir = (fs::path(o_.dir) / "results").string();
   files.html_name = stem + ".reconcile.html";
-  files.listen_folder = stem + ".listen";
+  files.listen_folder = safe_file_name(stem, 100) + ".listen";  // a plain name in the page's links
   files.excerpts = runner_.config().excerpts;
   // In queue mode the day's search is shared out (hour x batch tasks) and
   // its reconciliation rebuilt here from the merged search.

@@ -139,7 +139,11 @@ int run(const ReconcileArgs& a) {
   files.dir = a.out;
   files.excerpts = !a.no_excerpts && (wants("html") || wants("json"));
   files.log_name = std::filesystem::path(a.schedule).stem().string();
-  auto listening = write_excerpts(r, o.locate.opener, files, {}, [](std::string_view w) { warn(w); });
+  auto listening = write_excerpts(r, o.locate.opener, files, o.locate.should_stop, [](std::string_view w) { warn(w); });
+  if (!listening && listening.error().code == ErrorCode::cancelled) {
+    std::cerr << "godwit: interrupted; no output written\n";
+    return exit_code(ErrorCode::cancelled);
+  }
   if (!listening) return fail(listening.error());
   const Listening* heard = listening.value() ? &*listening.value() : nullptr;
   for (const auto& f : a.formats) {
