@@ -19,7 +19,7 @@ std::string now_local() {
   char b[40];
   if (std::strftime(b, sizeof b, "%Y-%m-%dT%H:%M:%S%z", &tm) == 0) return "";
   std::string s = b;
-  if (s.size() >= 5) s.insert(s.size() - 2, ":");  // +0100 -> +01:00
+  if (s.size() >= 5) s.insert(s.end() - 2, ':');  // +0100 -> +01:00
   return s;
 }
 

@@ -97,7 +97,10 @@ std::string sparkline(const Profile& p) {
   for (size_t i = 0; i < n; ++i) {
     const double x = n > 1 ? w * static_cast<double>(i) / static_cast<double>(n - 1) : w / 2;
     const double y = h - h * std::clamp(static_cast<double>(std::fabs(p.scores[i])), 0.0, 1.0);
-    pts += (i ? " " : "") + fmt("%.1f", x) + "," + fmt("%.1f", y);
+    if (i) pts += ' ';
+    pts += fmt("%.1f", x);
+    pts += ',';
+    pts += fmt("%.1f", y);
   }
   // Drawn by the stylesheet (svg.profile): background, the 0.3 line, the trace.
   return "<svg class=\"profile\" width=\"120\" height=\"24\" viewBox=\"0 0 120 24\" role=\"img\" aria-label=\"score "
@@ -179,7 +182,10 @@ std::string listen_picture(const AiringRecord& a, const ExcerptRef& aired, const
       const double level = std::clamp((e.dbfs[k] - peak + 36.0) / 36.0, 0.0, 1.0);  // the top 36 dB
       const double y = up ? base - half * level : base + half * level;
       const double t = t0 + (static_cast<double>(k) + 0.5) * e.step_s * t_scale;
-      d += "L" + fmt("%.1f", X(t)) + " " + fmt("%.1f", y);
+      d += 'L';
+      d += fmt("%.1f", X(t));
+      d += ' ';
+      d += fmt("%.1f", y);
     }
     d += "L" + fmt("%.1f", X(t0 + static_cast<double>(e.dbfs.size()) * e.step_s * t_scale)) + " " + fmt("%.1f", base) + "Z";
     return d;
