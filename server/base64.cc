@@ -30,4 +30,25 @@ std::optional<std::string> base64_decode(std::string_view in) {
   return out;
 }
 
+std::string base64_encode(std::string_view in) {
+  static const char* const alphabet = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+  std::string out;
+  out.reserve((in.size() + 2) / 3 * 4);
+  size_t i = 0;
+  for (; i + 3 <= in.size(); i += 3) {
+    const unsigned v = static_cast<unsigned char>(in[i]) << 16 | static_cast<unsigned char>(in[i + 1]) << 8 |
+                       static_cast<unsigned char>(in[i + 2]);
+    for (int k = 18; k >= 0; k -= 6) out.push_back(alphabet[(v >> k) & 63]);
+  }
+  if (i < in.size()) {
+    const bool two = i + 1 < in.size();
+    const unsigned v = static_cast<unsigned char>(in[i]) << 16 | (two ? static_cast<unsigned char>(in[i + 1]) << 8 : 0u);
+    out.push_back(alphabet[(v >> 18) & 63]);
+    out.push_back(alphabet[(v >> 12) & 63]);
+    out.push_back(two ? alphabet[(v >> 6) & 63] : '=');
+    out.push_back('=');
+  }
+  return out;
+}
+
 }  // namespace godwit

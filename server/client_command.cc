@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "atomic_file.h"
+#include "base64.h"
 #include "daemon_config.h"
 #include "json_text.h"
 
@@ -96,6 +97,63 @@ int report(const Result<nlohmann::json>& r, const std::string& out = "", bool re
   return 0;
 }
 
+// A finished job's result and report files into `out`: reconcile.json (or
+// result.json for a locate job), and each file `files` lists (a reconcile
+// job's page and excerpts), so the page opens there as it would beside the
+// command line's.
+int fetch(Connection& c, nlohmann::json req, const std::string& out) {
+  namespace fs = std::filesystem;
+  auto refused = [](const Result<nlohmann::json>& r) { return !r || !r.value().value("ok", false); };
+  req["op"] = "result";
+  auto result = c.request(req);
+  if (refused(result)) return report(result);
+  std::error_code ec;
+  fs::create_directories(out, ec);
+  if (ec) {
+    std::cerr << "godwit: cannot create " << out << ": " << ec.message() << "\n";
+    return 5;
+  }
+  const nlohmann::json& doc = result.value()["result"];
+  const std::string doc_name = doc.contains("placements") ? "reconcile.json" : "result.json";
+  if (auto st = write_file_atomically((fs::path(out) / doc_name).string(), json_text(doc, 2) + "\n"); !st) {
+    std::cerr << "godwit: " << st.error().describe() << "\n";
+    return 5;
+  }
+  req["op"] = "files";
+  auto list = c.request(req);
+  if (refused(list)) return report(list);
+  size_t written = 1;
+  for (const auto& f : list.value().value("files", nlohmann::json::array())) {
+    const std::string name = f.value("name", "");
+    // Only plain relative names: a daemon cannot write outside `out`.
+    const fs::path rel(name);
+    bool plain = !name.empty() && rel.is_relative();
+    for (const auto& part : rel) plain = plain && part != ".." && part != ".";
+    if (!plain) {
+      std::cerr << "godwit: the daemon listed a file named '" << name << "'; skipped\n";
+      continue;
+    }
+    req["op"] = "file";
+    req["name"] = name;
+    auto got = c.request(req);
+    if (refused(got)) return report(got);
+    auto bytes = base64_decode(got.value().value("base64", ""));
+    if (!bytes) {
+      std::cerr << "godwit: " << name << ": not valid base64\n";
+      return 6;
+    }
+    const fs::path path = fs::path(out) / rel;
+    fs::create_directories(path.parent_path(), ec);
+    if (auto st = write_file_atomically(path.string(), *bytes); !st) {
+      std::cerr << "godwit: " << st.error().describe() << "\n";
+      return 5;
+    }
+    ++written;
+  }
+  std::cerr << "godwit: " << written << " files written to " << out << "\n";
+  return 0;
+}
+
 int run(const std::string& op, const ClientArgs& a) {
   Connection c;
   if (auto st = c.open(a.connect); !st) return report(st.error());
@@ -145,6 +203,7 @@ int run(const std::string& op, const ClientArgs& a) {
     return report(c2.request({{"op", "result"}, {"job", id}, {"token", req.value("token", "")}}), a.out, true);
   }
   if (!a.job.empty()) req["job"] = a.job;
+  if (op == "fetch") return fetch(c, req, a.out);
   if (op == "jobs" && !a.state.empty()) req["state"] = a.state;
   if (op == "watch") {
     auto r = c.request(req);
@@ -202,6 +261,11 @@ std::function<int()> add_client_commands(CLI::App& app) {
     c->add_option("job", a->job, "job id")->required();
     if (std::string(op) == "result") c->add_option("--out,-o", a->out, "write the result document to FILE");
   }
+  auto* fetch_cmd = app.add_subcommand(
+      "fetch", "a finished job's result and report files (a reconcile job's page and excerpts) into a folder");
+  common(fetch_cmd);
+  fetch_cmd->add_option("job", a->job, "job id")->required();
+  fetch_cmd->add_option("--out,-o", a->out, "folder to write them to (created if needed)")->required();
   auto* jobs = app.add_subcommand("jobs", "list godwitd's jobs");
   common(jobs);
   jobs->add_option("--state", a->state, "only jobs in this state");
@@ -213,7 +277,7 @@ std::function<int()> add_client_commands(CLI::App& app) {
   auto* cluster = app.add_subcommand("cluster", "queue mode: the workers on the daemon's Redis stream, pending, lag, dead letters");
   common(cluster);
   return [&app, a]() -> int {
-    for (const char* op : {"submit", "status", "result", "cancel", "jobs", "watch", "health", "cluster"})
+    for (const char* op : {"submit", "status", "result", "cancel", "fetch", "jobs", "watch", "health", "cluster"})
       if (app.got_subcommand(op)) return run(op, *a);
     return 2;
   };

@@ -42,6 +42,9 @@ struct DaemonConfig {
   double drop_poll_s = 2;
   double drop_stable_s = 5;
   bool drop_inotify = true;
+  // Reconcile jobs (and the drop folder's day) write excerpts to listen to
+  // beside their HTML page (report_files.h).
+  bool excerpts = true;
   // queue mode (task_queue.h): empty url = off
   std::string queue_url;          // redis://HOST:PORT/STREAM
   size_t queue_workers = 1;       // tasks this daemon runs at once

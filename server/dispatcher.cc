@@ -2,6 +2,9 @@
 
 #include <algorithm>
 
+#include "base64.h"
+#include "godwit/version.h"
+
 namespace godwit {
 namespace {
 
@@ -144,6 +147,28 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     if (!text) return {error_response(ErrorCode::io, "result file missing"), false, {}};
     return {{{"ok", true}, {"job", info->id}, {"result", nlohmann::json::parse(*text)}}, false, {}};
   }
+  if (op == "files" || op == "file") {
+    // A finished job's report files (a reconcile job's page and excerpts):
+    // `files` lists them, `file` gives one, base64-encoded.
+    std::optional<JobInfo> info;
+    if (auto e = need_job(info)) return {*e, false, {}};
+    if (info->state != JobState::done)
+      return {error_response(ErrorCode::not_found_job, "job " + info->id + " is " + job_state_name(info->state) +
+                                                           ", no files"), false, {}};
+    if (op == "files") {
+      nlohmann::json list = nlohmann::json::array();
+      for (const auto& f : store_.list_files(info->id)) list.push_back({{"name", f.name}, {"bytes", f.bytes}});
+      return {{{"ok", true}, {"job", info->id}, {"files", list}}, false, {}};
+    }
+    const auto name = req.find("name");
+    if (name == req.end() || !name->is_string())
+      return {error_response(ErrorCode::bad_request, "'name' (a name from \"files\") is required"), false, {}};
+    auto bytes = store_.read_file(info->id, name->get<std::string>());
+    if (!bytes)
+      return {error_response(ErrorCode::not_found, "job " + info->id + " has no file " + name->get<std::string>()), false, {}};
+    return {{{"ok", true}, {"job", info->id}, {"name", *name}, {"bytes", bytes->size()}, {"base64", base64_encode(*bytes)}},
+            false, {}};
+  }
   if (op == "cancel") {
     std::optional<JobInfo> info;
     if (auto e = need_job(info)) return {*e, false, {}};
@@ -198,7 +223,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
   if (op == "health") {
     const double up = std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count();
     nlohmann::json h{{"ok", true},
-                     {"version", "0.1.0"},
+                     {"version", godwit_version()},
                      {"uptime_s", std::round(up * 1000) / 1000},
                      {"queued", store_.queued()},
                      {"running", store_.running()},

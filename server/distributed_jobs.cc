@@ -62,7 +62,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
                                             const std::function<void(double)>& progress,
                                             const std::function<bool()>& should_stop,
                                             const std::function<void(std::string_view)>& warn,
-                                            std::string* html) const {
+                                            const ReportFiles* report) const {
   const bool reconcile = spec.value("kind", "") == "reconcile";
   const double speed_pct = spec.value("max_speed_change_pct", 4.5);
   nlohmann::json base{{"max_speed_change_pct", speed_pct}};
@@ -128,8 +128,9 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   ro.locate.should_stop = should_stop;
   auto r = finish_reconcile(rec->job, std::move(plan), std::move(search), ro, std::move(evidence));
   if (!r) return r.error();
-  if (html) *html = reconcile_to_html(r.value(), {rec->title, ro.loudness});
-  nlohmann::json out = reconcile_to_json(r.value(), ro.loudness);
+  auto documents = runner_.reconcile_documents(r.value(), spec, ro, rec->title, report, should_stop, warn);
+  if (!documents) return documents.error();
+  nlohmann::json out = std::move(documents.value());
   out["tasks"] = tasks.size();
   forget();
   return out;

@@ -27,10 +27,10 @@ namespace godwit {
 class DistributedJobs {
  public:
   DistributedJobs(QueueUrl url, QueueOptions options, PlanOptions plan, const JobRunner& runner);
-  // As JobRunner::run, `html` included.
+  // As JobRunner::run, `report` included.
   Result<nlohmann::json> run(const std::string& job_id, const nlohmann::json& spec,
                              const std::function<void(double)>& progress, const std::function<bool()>& should_stop,
-                             const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
+                             const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr) const;
   Result<nlohmann::json> cluster() const;
 
  private:

@@ -12,6 +12,7 @@
 
 #include "atomic_file.h"
 #include "godwit/civil_time.h"
+#include "godwit/excerpt.h"
 #include "godwit/locate_report.h"
 #include "library_scan.h"
 #include "json_text.h"
@@ -298,19 +299,24 @@ void DropFolder::reconcile_day(const std::string& name) {
   nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
                       {"recordings", recordings}, {"window_s", 60.0}};
   if (!runner_.config().time_zone.empty()) spec["time_zone"] = runner_.config().time_zone;
-  std::string html;
+  // The page and its excerpts: results/<log>.reconcile.html and
+  // results/<log>.listen/, remade whole each time.
+  const std::string stem = fs::path(schedule).stem().string();
+  ReportFiles files;
+  files.dir = (fs::path(o_.dir) / "results").string();
+  files.html_name = stem + ".reconcile.html";
+  files.listen_folder = safe_file_name(stem, 100) + ".listen";  // a plain name in the page's links
+  files.excerpts = runner_.config().excerpts;
   // In queue mode the day's search is shared out (hour x batch tasks) and
   // its reconciliation rebuilt here from the merged search.
   auto doc = executor_(
       "drop-day-" + day, spec, [](double) {}, [this] { return stop_.load(); },
-      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &html);
+      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &files);
   if (!doc) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());
     return;
   }
-  const std::string out = (fs::path(o_.dir) / "results" / (fs::path(schedule).stem().string() + ".reconcile.json")).string();
-  const std::string out_html = out.substr(0, out.size() - 5) + ".html";
-  if (auto st = write_file_atomically(out_html, html); !st) spdlog::warn("drop folder: {}", st.error().describe());
+  const std::string out = (fs::path(o_.dir) / "results" / (stem + ".reconcile.json")).string();
   if (auto st = write_file_atomically(out, json_text(doc.value(), 2) + "\n"); !st)
     spdlog::warn("drop folder: {}", st.error().describe());
   else

@@ -43,7 +43,8 @@ struct DropOptions {
   // When set: after each recording, the day's planned log found here (a
   // CSV whose name holds the date as YYYY-MM-DD or YYYYMMDD) is reconciled
   // against every recording of that day in done/, into
-  // results/<log stem>.reconcile.json (and .reconcile.html), so the day's
+  // results/<log stem>.reconcile.json (and .reconcile.html, with the
+  // excerpts it plays in results/<log stem>.listen/), so the day's
   // report grows hour by hour.
   std::string schedules;
   std::string name_pattern = "%Y%m%dT%H%M%S";

@@ -6,13 +6,14 @@
 #include <iostream>
 
 #include "client_command.h"
+#include "godwit/version.h"
 #include "locate_command.h"
 #include "reconcile_command.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"godwit: find where known audio clips (spots) aired in broadcast recordings"};
   app.require_subcommand(1);
-  app.set_version_flag("--version", "godwit 0.1.0");
+  app.set_version_flag("--version", std::string("godwit ") + godwit::godwit_version());
   auto locate = godwit::add_locate_command(app);
   auto reconcile = godwit::add_reconcile_command(app);
   auto client = godwit::add_client_commands(app);

@@ -73,6 +73,7 @@ int main(int argc, char** argv) {
   size_t workers = 0;
   double stable_s = -1, poll_s = -1;
   bool no_inotify = false;
+  bool no_excerpts = false;
   std::string planner;
   app.add_option("--listen", listen, "HOST:PORT to listen on (default 127.0.0.1:7878; [::1]:PORT for IPv6)");
   app.add_option("--state-dir", state_dir, "journal, results, inline spots, FFTW wisdom");
@@ -92,6 +93,8 @@ int main(int argc, char** argv) {
                  "moved in; default 5)");
   app.add_option("--drop-poll-s", poll_s, "drop folder polling period (default 2)");
   app.add_flag("--no-inotify", no_inotify, "poll the drop folder instead of using inotify (network shares)");
+  app.add_flag("--no-excerpts", no_excerpts,
+               "reconcile jobs and the drop folder's days write no excerpts to listen to (default: they do)");
   std::string queue;
   size_t queue_workers = 0, templates_per_task = 0;
   double claim_idle_s = -1;
@@ -125,6 +128,7 @@ int main(int argc, char** argv) {
     if (stable_s >= 0) c.drop_stable_s = stable_s;
     if (poll_s > 0) c.drop_poll_s = poll_s;
     if (no_inotify) c.drop_inotify = false;
+    if (no_excerpts) c.excerpts = false;
     if (!queue.empty()) c.queue_url = queue;
     if (queue_workers) c.queue_workers = queue_workers;
     if (templates_per_task) c.queue_templates_per_task = templates_per_task;
@@ -193,6 +197,7 @@ int main(int argc, char** argv) {
   rc.threads_per_job = cfg.threads_per_job;
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
+  rc.excerpts = cfg.excerpts;
   JobRunner runner(rc, guard);
   remove_orphan_inline_spots(store, rc.inline_dir);
   Dispatcher dispatcher(store, runner, cfg.workers);
@@ -220,7 +225,7 @@ int main(int argc, char** argv) {
     DistributedJobs* d = distributed.get();
     executor = [d](const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
                    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
-                   std::string* html) { return d->run(id, spec, progress, should_stop, warn, html); };
+                   const ReportFiles* report) { return d->run(id, spec, progress, should_stop, warn, report); };
     dispatcher.set_cluster_info([d] { return d->cluster(); });
     queue_worker = std::make_unique<QueueWorker>(url.value(), qo, runner, cfg.queue_workers, default_consumer_name());
     queue_worker->start();

@@ -146,6 +146,10 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     out["schedule"] = sched.value();
     out["window_s"] = w.value();
     if (!zone.empty()) out["time_zone"] = zone;
+    if (job.contains("excerpts")) {
+      if (!job["excerpts"].is_boolean()) return bad("'excerpts' must be true or false");
+      out["excerpts"] = job["excerpts"];
+    }
     return out;
   }
   if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
@@ -265,7 +269,7 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
 
 Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
-                                      const std::function<void(std::string_view)>& warn, std::string* html) const {
+                                      const std::function<void(std::string_view)>& warn, const ReportFiles* report) const {
   FftCostTable costs = this->costs();
   struct KeepCosts {  // whatever the job measured, kept for the next ones
     const JobRunner& runner;
@@ -285,8 +289,7 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     ro.locate.should_stop = should_stop;
     auto r = run_reconcile(rec.value().job, ro);
     if (!r) return r.error();
-    if (html) *html = reconcile_to_html(r.value(), {rec.value().title, ro.loudness});
-    return reconcile_to_json(r.value(), ro.loudness);
+    return reconcile_documents(r.value(), spec, ro, rec.value().title, report, should_stop, warn);
   }
   LocateOptions lo = locate_options(spec, warn);
   lo.bank.costs = &costs;
@@ -314,6 +317,22 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
   return locate_to_json(r.value());
 }
 
+Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& result, const nlohmann::json& spec,
+                                                     const ReconcileOptions& options, const std::string& title,
+                                                     const ReportFiles* report, const std::function<bool()>& should_stop,
+                                                     const std::function<void(std::string_view)>& warn) const {
+  std::optional<Listening> heard;
+  if (report) {
+    ReportFiles f = *report;
+    f.log_name = title;
+    f.excerpts = f.excerpts && spec.value("excerpts", true);
+    auto w = write_report_files(result, options, f, should_stop, warn);
+    if (!w) return w.error();
+    heard = std::move(w.value());
+  }
+  return reconcile_to_json(result, options.loudness, heard ? &*heard : nullptr);
+}
+
 Result<std::vector<std::string>> JobRunner::library_files(const std::string& dir) const {
   auto files = scan_library(dir);
   if (!files) return files;
@@ -329,7 +348,7 @@ FftCostTable JobRunner::costs() const {
 JobExecutor local_executor(const JobRunner& runner) {
   return [&runner](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
                    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
-                   std::string* html) { return runner.run(spec, progress, should_stop, warn, html); };
+                   const ReportFiles* report) { return runner.run(spec, progress, should_stop, warn, report); };
 }
 
 }  // namespace godwit

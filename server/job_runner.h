@@ -12,7 +12,7 @@
 //    "threshold": 0.3, "floor_k": 10, "fft_size": 0,
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
 //   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60,
-//    "time_zone": "Europe/Berlin"}  (time_zone: optional; the daemon's when absent)
+//    "time_zone": "Europe/Berlin", "excerpts": true}  (time_zone: optional; the daemon's when absent)
 // and, from the queue only (never prepared): a task of a distributed job,
 //   {"kind": "segment", "segment": {...}, "templates": [paths], "threshold", ...}
 // whose result is a locate document with exact numbers (task_plan.h).
@@ -29,6 +29,7 @@
 #include "godwit/fft_size_chooser.h"
 #include "godwit/reconcile_job.h"
 #include "path_guard.h"
+#include "report_files.h"
 
 namespace godwit {
 
@@ -42,6 +43,9 @@ struct RunnerConfig {
   int threads_per_job = 1;
   Planner planner = Planner::measure;
   FftCostTable costs;  // the cache's, at start
+  // Reconcile jobs write excerpts beside their page (a job may say
+  // "excerpts": false). Default: true.
+  bool excerpts = true;
 };
 
 class JobRunner {
@@ -54,10 +58,18 @@ class JobRunner {
   // Removes the inline spots a prepared job saved, when it is not run after
   // all (the queue was full, the journal could not be written).
   void discard(const nlohmann::json& prepared) const;
-  // For a reconcile job, `html` (when given) receives the HTML report too.
+  // For a reconcile job, `report` (when given) says where its HTML page and
+  // excerpts go (report_files.h; its log_name is the job's), and the JSON
+  // names the excerpts; a job with "excerpts": false makes none.
   Result<nlohmann::json> run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
                              const std::function<bool()>& should_stop,
-                             const std::function<void(std::string_view)>& warn, std::string* html = nullptr) const;
+                             const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr) const;
+  // A finished reconcile job's documents: its report files written as
+  // `report` says (when given), and the JSON. Errors: io, cancelled.
+  Result<nlohmann::json> reconcile_documents(const ReconcileResult& result, const nlohmann::json& prepared,
+                                             const ReconcileOptions& options, const std::string& title,
+                                             const ReportFiles* report, const std::function<bool()>& should_stop,
+                                             const std::function<void(std::string_view)>& warn) const;
   const RunnerConfig& config() const { return config_; }
   // A library's masters (library_scan.h), each of which must resolve under
   // a root (a symlink in the library may lead anywhere), else forbidden.
@@ -92,10 +104,11 @@ class JobRunner {
 
 // How a prepared job runs: on this machine (JobRunner::run; the default
 // where one is empty) or through the queue (distributed_jobs.h).
-// `html`, when given, receives a reconcile job's HTML report.
+// `report`, when given, is where a reconcile job's page and excerpts go.
 using JobExecutor = std::function<Result<nlohmann::json>(
     const std::string& job_id, const nlohmann::json& spec, const std::function<void(double)>& progress,
-    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn, std::string* html)>;
+    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
+    const ReportFiles* report)>;
 
 // The executor that runs jobs here, with `runner` (which must outlive it).
 JobExecutor local_executor(const JobRunner& runner);

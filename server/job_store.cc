@@ -4,6 +4,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <cstring>
 #include <ctime>
@@ -166,6 +167,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
 void JobStore::forget(const std::string& id) {
   std::error_code ec;
   std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
+  std::filesystem::remove_all(files_dir(id), ec);
   jobs_.erase(id);
   cancel_.erase(id);
   last_emit_.erase(id);
@@ -262,6 +264,36 @@ bool JobStore::cancel(const std::string& id) {
   }
   if (queued) mark_cancelled(id);
   return true;
+}
+
+std::string JobStore::files_dir(const std::string& id) const { return dir_ + "/results/" + id; }
+
+std::vector<JobStore::FileEntry> JobStore::list_files(const std::string& id) const {
+  namespace fs = std::filesystem;
+  std::vector<FileEntry> out;
+  const fs::path root = files_dir(id);
+  std::error_code ec;
+  if (!fs::is_directory(fs::symlink_status(root, ec))) return out;
+  for (fs::recursive_directory_iterator it(root, ec), end; !ec && it != end; it.increment(ec)) {
+    const std::string leaf = it->path().filename().string();
+    if (!leaf.empty() && leaf[0] == '.') {  // a folder being written, or a temporary
+      if (it->is_directory(ec)) it.disable_recursion_pending();
+      continue;
+    }
+    if (!it->is_regular_file(ec) || it->is_symlink(ec)) continue;
+    out.push_back({fs::relative(it->path(), root, ec).generic_string(), it->file_size(ec)});
+  }
+  std::sort(out.begin(), out.end(), [](const FileEntry& a, const FileEntry& b) { return a.name < b.name; });
+  return out;
+}
+
+std::optional<std::string> JobStore::read_file(const std::string& id, const std::string& name) const {
+  // Only a name the listing gives: no "..", no absolute path, no link.
+  const auto files = list_files(id);
+  if (std::none_of(files.begin(), files.end(), [&](const FileEntry& f) { return f.name == name; })) return std::nullopt;
+  std::ifstream in(files_dir(id) + "/" + name, std::ios::binary);
+  if (!in) return std::nullopt;
+  return std::string((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
 }
 
 std::optional<std::string> JobStore::result_text(const std::string& id) const {

@@ -4,7 +4,9 @@
 // fsync'ed before a submit is acknowledged: {"event":"submit","job",
 // "spec"}, {"event":"done"|"failed"|"cancelled","job",...}. Results
 // (STATE/results/<id>.json) are written atomically (temp, fsync, rename)
-// before their "done" line. On open the journal is replayed: a job whose
+// before their "done" line; a reconcile job's page and excerpts go to the
+// folder STATE/results/<id>/ (files_dir) before it, and go with the job
+// when it is forgotten. On open the journal is replayed: a job whose
 // last event is submit (it was queued or running at a crash), or whose
 // result file is missing, is queued again. A torn line (a crash or a full
 // disk part way through an append, never acknowledged) is skipped, and a
@@ -17,6 +19,7 @@
 #pragma once
 
 #include <condition_variable>
+#include <cstdint>
 #include <deque>
 #include <functional>
 #include <map>
@@ -61,6 +64,18 @@ class JobStore {
   // False when the job is unknown or already over.
   bool cancel(const std::string& id);
   std::optional<std::string> result_text(const std::string& id) const;
+  // The folder of a job's report files beside its JSON result (a reconcile
+  // job's reconcile.html and listen/*.opus).
+  std::string files_dir(const std::string& id) const;
+  struct FileEntry {
+    std::string name;  // relative: "reconcile.html", "listen/S001_20260314T060037.250.opus"
+    uintmax_t bytes = 0;
+  };
+  // The regular files in it and in its subfolders (not those starting with
+  // '.': a folder being written), sorted by name; empty when none.
+  std::vector<FileEntry> list_files(const std::string& id) const;
+  // One of list_files() by its name; empty for any other name.
+  std::optional<std::string> read_file(const std::string& id, const std::string& name) const;
 
   // Worker side. Blocks until a job is queued or stop() is called.
   std::optional<JobInfo> take();

@@ -1,5 +1,6 @@
 #include "reconcile_command.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -13,6 +14,7 @@
 #include "godwit/reconcile_report.h"
 #include "reconcile_inputs.h"
 #include "json_text.h"
+#include "report_files.h"
 
 namespace godwit {
 namespace {
@@ -36,6 +38,7 @@ struct ReconcileArgs {
   double loudness_margin_lu = 2.0;
   double loudness_target_lufs = -23.0;
   bool no_loudness = false;
+  bool no_excerpts = false;
   EngineArgs engine;
 };
 
@@ -130,12 +133,25 @@ int run(const ReconcileArgs& a) {
   std::error_code ec;
   std::filesystem::create_directories(a.out, ec);
   if (ec) return fail({ErrorCode::io, "cannot create the output folder: " + ec.message(), a.out, {}});
+  // Excerpts to listen to, for the page and the JSON (which name them).
+  auto wants = [&](const char* f) { return std::find(a.formats.begin(), a.formats.end(), f) != a.formats.end(); };
+  ReportFiles files;
+  files.dir = a.out;
+  files.excerpts = !a.no_excerpts && (wants("html") || wants("json"));
+  files.log_name = std::filesystem::path(a.schedule).stem().string();
+  auto listening = write_excerpts(r, o.locate.opener, files, o.locate.should_stop, [](std::string_view w) { warn(w); });
+  if (!listening && listening.error().code == ErrorCode::cancelled) {
+    std::cerr << "godwit: interrupted; no output written\n";
+    return exit_code(ErrorCode::cancelled);
+  }
+  if (!listening) return fail(listening.error());
+  const Listening* heard = listening.value() ? &*listening.value() : nullptr;
   for (const auto& f : a.formats) {
     const std::string path = (std::filesystem::path(a.out) / ("reconcile." + f)).string();
     std::string doc;
     if (f == "csv") doc = reconcile_to_csv(r);
-    else if (f == "html") doc = reconcile_to_html(r, {std::filesystem::path(a.schedule).stem().string(), o.loudness});
-    else doc = json_text(reconcile_to_json(r, o.loudness), 2) + "\n";
+    else if (f == "html") doc = report_html(r, files, o.loudness, heard);
+    else doc = json_text(reconcile_to_json(r, o.loudness, heard), 2) + "\n";
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
@@ -159,8 +175,17 @@ int run(const ReconcileArgs& a) {
   for (const auto& t : r.timeline_issues)
     warn(std::string("timeline ") + timeline_issue_name(t.kind) + " of " + std::to_string(t.seconds) + " s between " +
          t.before + " and " + t.after);
-  if (!a.engine.quiet)
-    std::cerr << "godwit: report written to " << a.out << "\n" << kEvidenceCaution << "\n" << kLoudnessCaution << "\n";
+  if (!a.engine.quiet) {
+    std::cerr << "godwit: report written to " << a.out << "\n";
+    if (heard && !heard->airings.empty()) {
+      size_t bytes = 0;
+      for (const auto& [i, e] : heard->airings) bytes += e.bytes;
+      std::fprintf(stderr, "godwit: %zu airing excerpts (%.1f KB each on average) and %zu masters in %s/%s\n",
+                   heard->airings.size(), static_cast<double>(bytes) / 1000.0 / static_cast<double>(heard->airings.size()),
+                   heard->masters.size(), a.out.c_str(), files.listen_folder.c_str());
+    }
+    std::cerr << kEvidenceCaution << "\n" << kLoudnessCaution << "\n";
+  }
   bool any_audio = false;  // a recording that broke part way was read up to its break
   for (const auto& s : r.recordings) any_audio = any_audio || s.duration_s > 0;
   if (!r.recordings.empty() && failed == r.recordings.size() && !any_audio) return 3;
@@ -179,7 +204,9 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
       "placement of the planned log a verdict: aired, early, late, partial, wrong_version, missing,\n"
       "not_recorded (its window was not wholly recorded) or unknown_spot (not in the library);\n"
       "airings matching no placement are listed as unscheduled. Writes OUT/reconcile.json and\n"
-      "OUT/reconcile.csv and OUT/reconcile.html (a self-contained page) and prints the verdicts. Detections are evidence to verify by listening.");
+      "OUT/reconcile.csv and OUT/reconcile.html (a page that opens offline) with OUT/listen/, an excerpt of\n"
+      "every airing (2 s either side) and its master to play from the page, and prints the verdicts.\n"
+      "Detections are evidence to verify by listening.");
   cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
   cmd->add_option("--schedule,-s", a->schedule,
                   "planned log CSV (comma, semicolon or tab): slot,spot,planned[,window_s] or their aliases")
@@ -209,6 +236,8 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
                   "target to report each spot's gap to (default -23, EBU R128; ATSC A/85: -24)")
       ->check(CLI::Range(-70.0, 0.0));
   cmd->add_flag("--no-loudness", a->no_loudness, "skip the loudness measurements");
+  cmd->add_flag("--no-excerpts", a->no_excerpts,
+                "write no OUT/listen/ excerpts (Opus, mono, about 37 KB per 30 s airing) and no players in the page");
   add_engine_options(cmd, a->engine);
   cmd->footer(
       "Planned log: the delimiter (comma, semicolon, tab) is read from the header; column names ignore\n"

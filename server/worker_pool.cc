@@ -25,10 +25,14 @@ void WorkerPool::loop() {
     const std::string id = job->id;
     spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));
     Result<nlohmann::json> result = Error{ErrorCode::internal, "not run", "", std::nullopt};
+    // A reconcile job's page and excerpts, served by `files` and `file`.
+    ReportFiles files;
+    files.dir = store_.files_dir(id);
+    files.excerpts = runner_.config().excerpts;
     try {
       result = executor_(
           id, job->spec, [&](double f) { store_.set_progress(id, f); }, [&] { return store_.cancel_requested(id); },
-          [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); }, nullptr);
+          [&](std::string_view w) { spdlog::warn("job {}: {}", id, w); }, &files);
     } catch (const std::exception& e) {  // a bug: this job fails, the daemon carries on
       result = Error{ErrorCode::internal, std::string("internal error (please report it): ") + e.what(), "",
                      std::nullopt};

@@ -309,6 +309,46 @@ class DemoReconcile(unittest.TestCase):
         self.assertTrue(s004["recording"].endswith("T060000.flac"))  # starts in the first file, ends in the next
         self.assertAlmostEqual(s004["offset_s"], 292.0, places=3)
 
+    def test_excerpts_beside_the_report_named_by_the_json(self):
+        listen = os.path.join(self.out, "listen")
+        found = [p for p in self.doc["placements"] if "aired" in p] + self.doc["unscheduled"]
+        named = set()
+        for p in found:
+            e = p["excerpt"]
+            self.assertTrue(e["file"].startswith("listen/"), e)
+            self.assertRegex(os.path.basename(e["file"]), r"^[A-Za-z0-9._-]+\.opus$")
+            with open(os.path.join(self.out, e["file"]), "rb") as f:
+                data = f.read()
+            self.assertEqual(len(data), e["bytes"])
+            # RFC 7845 (Ogg Opus) on RFC 3533 pages: the first page holds
+            # OpusHead with its pre-skip; the last page's granule position less
+            # the pre-skip is the length in 48 kHz samples.
+            self.assertEqual(data[:4], b"OggS")
+            head = data.index(b"OpusHead")
+            pre_skip = struct.unpack_from("<H", data, head + 10)[0]
+            last = data.rindex(b"OggS")
+            granule = struct.unpack_from("<q", data, last + 6)[0]
+            self.assertAlmostEqual((granule - pre_skip) / 48000, e["duration_s"], delta=0.002)
+            self.assertAlmostEqual(e["from_s"], -2.0, places=3)
+            named.add(e["file"])
+            named.add(p["master_excerpt"])
+        self.assertEqual({"listen/" + f for f in os.listdir(listen)}, named)
+        self.assertIn("excerpts", self.proc.stderr)
+
+    def test_no_excerpts_writes_none(self):
+        out = os.path.join(self.tmp.name, "no-excerpts")
+        run("reconcile", "--library", os.path.join(self.demo, "library"),
+            "--schedule", os.path.join(self.demo, "schedules", "kestrel-fm-2026-03-14.csv"),
+            "--recording", *self.truth["recordings"], "--out", out, "--no-excerpts", "-q",
+            "--planner", "estimate", "--cache-dir", "", check=0)
+        self.assertEqual(sorted(os.listdir(out)), ["reconcile.csv", "reconcile.html", "reconcile.json"])
+        with open(os.path.join(out, "reconcile.json")) as f:
+            doc = json.load(f)
+        self.assertEqual([p["status"] for p in doc["placements"]], [p["status"] for p in self.doc["placements"]])
+        self.assertFalse(any("excerpt" in p for p in doc["placements"] + doc["unscheduled"]))
+        with open(os.path.join(out, "reconcile.html")) as f:
+            self.assertNotIn("<audio", f.read())
+
     def test_csv_rows_equal_the_json(self):
         with open(os.path.join(self.out, "reconcile.csv"), newline="") as f:
             rows = list(csv.DictReader(f))

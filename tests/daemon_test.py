@@ -424,6 +424,56 @@ class DaemonTests(unittest.TestCase):
             time.sleep(0.3)
         self.assertEqual({p["slot"]: p["status"] for p in day["placements"]}, DEMO_TRUTH["expected_verdicts"])
 
+    def test_reconcile_job_files_are_served_and_fetched(self):
+        import base64
+        d = self.start()
+        c = d.connect()
+        job = {"kind": "reconcile", "library": f"{DEMO}/library",
+               "schedule": f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv", "recordings": DEMO_RECS}
+        r = c.req({"op": "submit", "job": job})
+        self.assertTrue(r["ok"], r)
+        self.assertEqual(c.req({"op": "files", "job": r["job"]})["error"]["code"], "unknown_job")  # not done yet
+        self.assertEqual(wait_state(c, r["job"])["state"], "done")
+        doc = c.req({"op": "result", "job": r["job"]})["result"]
+        files = c.req({"op": "files", "job": r["job"]})
+        self.assertTrue(files["ok"], files)
+        names = {f["name"]: f["bytes"] for f in files["files"]}
+        self.assertIn("reconcile.html", names)
+        named = {p["excerpt"]["file"] for p in doc["placements"] if "aired" in p}
+        named |= {u["excerpt"]["file"] for u in doc["unscheduled"]}
+        named |= {p["master_excerpt"] for p in doc["placements"] + doc["unscheduled"] if "master_excerpt" in p}
+        self.assertEqual(set(names) - {"reconcile.html"}, named)
+        one = sorted(named)[0]
+        got = c.req({"op": "file", "job": r["job"], "name": one})
+        self.assertTrue(got["ok"], got)
+        data = base64.b64decode(got["base64"])
+        self.assertEqual(len(data), names[one])
+        with open(os.path.join(d.state, "results", r["job"], one), "rb") as f:
+            self.assertEqual(f.read(), data)
+        self.assertEqual(data[:4], b"OggS")  # RFC 3533: an Ogg page
+        for bad in ("../" + r["job"] + ".json", "/etc/passwd", "listen/../reconcile.html", "nothing.opus"):
+            e = c.req({"op": "file", "job": r["job"], "name": bad})
+            self.assertEqual(e["error"]["code"], "not_found", bad)
+        self.assertEqual(c.req({"op": "file", "job": r["job"]})["error"]["code"], "bad_request")
+        # The client fetches the lot into a folder where the page plays.
+        out = os.path.join(self.tmp, "fetched")
+        p = subprocess.run([ARGS.godwit, "fetch", "--connect", f"127.0.0.1:{d.port}", r["job"], "--out", out],
+                           capture_output=True, text=True, timeout=60)
+        self.assertEqual(p.returncode, 0, p.stderr)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            self.assertEqual(json.load(f), doc)
+        with open(os.path.join(out, "reconcile.html")) as f:
+            page = f.read()
+        for name in named:
+            self.assertIn(f'src="{name}"', page)
+            self.assertTrue(os.path.isfile(os.path.join(out, name)), name)
+        # A job may do without excerpts.
+        r2 = c.req({"op": "submit", "job": dict(job, excerpts=False)})
+        self.assertTrue(r2["ok"], r2)
+        wait_state(c, r2["job"])
+        self.assertEqual([f["name"] for f in c.req({"op": "files", "job": r2["job"]})["files"]], ["reconcile.html"])
+        self.assertEqual(c.req({"op": "submit", "job": dict(job, excerpts="no")})["error"]["code"], "bad_request")
+
     def test_inline_spot_is_located(self):
         import base64
         d = self.start()
@@ -467,7 +517,18 @@ class DaemonTests(unittest.TestCase):
             doc = json.load(f)
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, DEMO_TRUTH["expected_verdicts"])
         with open(report[: -len(".json")] + ".html") as f:
-            self.assertEqual(f.read().count('class="placement"'), len(doc["placements"]))
+            page = f.read()
+        self.assertEqual(page.count('class="placement"'), len(doc["placements"]))
+        # Its excerpts, beside it, named by the page and the JSON.
+        listen = os.path.join(drop, "results", "kestrel-fm-2026-03-14.listen")
+        for p in doc["placements"]:
+            if "aired" in p:
+                self.assertTrue(p["excerpt"]["file"].startswith("kestrel-fm-2026-03-14.listen/"), p["excerpt"])
+                self.assertIn(f'src="{p["excerpt"]["file"]}"', page)
+                self.assertTrue(os.path.isfile(os.path.join(drop, "results", p["excerpt"]["file"])))
+        self.assertFalse(any(n.startswith(".") for n in os.listdir(os.path.join(drop, "results"))
+                             if n.endswith(".new")))
+        self.assertTrue(os.listdir(listen))
 
     def test_drop_folder_interim_report_says_not_recorded_for_hours_not_arrived(self):
         drop = os.path.join(self.tmp, "drop1")
@@ -778,7 +839,13 @@ class DaemonTests(unittest.TestCase):
                 f.write(json.dumps({"event": "submit", "job": job, "spec": {"kind": "locate", "recordings": []},
                                     "submitted": f"2026-12-01T{i // 3600 % 24:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z"})
                         + "\n" + json.dumps({"event": "cancelled", "job": job}) + "\n")
+        # The oldest job had report files (a reconcile job's page and excerpts).
+        files = os.path.join(state, "results", f"j{0:015x}")
+        os.makedirs(os.path.join(files, "listen"))
+        with open(os.path.join(files, "listen", "S001_20260314T060037.250.opus"), "wb") as f:
+            f.write(b"OggS")
         d = self.start(extra_config="[limits]\nmax_finished_jobs = 500\nmax_reply_bytes = 2048\n")
+        self.assertFalse(os.path.exists(files))  # pruned with its job
         c = d.connect()
         r = c.req({"op": "jobs", "id": "page1"})
         self.assertIsNotNone(r, "connection closed without an answer")

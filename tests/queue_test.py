@@ -294,7 +294,16 @@ class QueueTests(unittest.TestCase):
         with open(os.path.join(self.demo, "truth.json")) as f:
             truth = json.load(f)
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, truth["expected_verdicts"])
-        self.assert_same_reconciliation(doc, self.cli_reconcile(self.recs))
+        want = self.cli_reconcile(self.recs)
+        self.assert_same_reconciliation(doc, want)
+        # The day rebuilt here also cut its excerpts, as the command line does,
+        # and serves them.
+        excerpts = lambda d: sorted((p["excerpt"]["file"], p["excerpt"]["duration_s"])
+                                    for p in d["placements"] + d["unscheduled"] if "excerpt" in p)
+        self.assertTrue(excerpts(doc))
+        self.assertEqual(excerpts(doc), excerpts(want))
+        served = {f["name"] for f in c.req({"op": "files", "job": r["job"]})["files"]}
+        self.assertLessEqual({f for f, _ in excerpts(doc)} | {"reconcile.html"}, served)
         cl = c.req({"op": "cluster"})
         self.assertEqual(sum(w["done"] for w in cl["workers"]), 12, cl)
 

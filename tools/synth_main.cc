@@ -182,7 +182,8 @@ int make_demo(const fs::path& out) {
 }
 
 // A day of reconciliation results for rendering tests: `placements` slots
-// over 24 h with every verdict represented. The evidence is made up (a
+// over 24 h with most verdicts represented, recorded in hour files but for
+// a gap at 14:00. The evidence is made up (a
 // rendering fixture, not a detection); it never leaves the test.
 int make_report_fixture(const std::string& out, int placements) {
   ReconcileResult r;
@@ -202,7 +203,8 @@ int make_report_fixture(const std::string& out, int placements) {
     Verdict v;
     v.placement = static_cast<size_t>(i);
     v.status = statuses[rng.next() % 8];
-    if (v.status != VerdictStatus::missing) {
+    if (p.planned_s >= day + 14 * 3600.0 && p.planned_s < day + 15 * 3600.0) v.status = VerdictStatus::not_recorded;
+    if (v.status != VerdictStatus::missing && v.status != VerdictStatus::not_recorded) {
       AiringRecord a;
       a.spot = p.spot;
       v.deviation_s = v.status == VerdictStatus::early ? -120 : v.status == VerdictStatus::late ? 150 : rng.uniform(-30, 30);
@@ -222,7 +224,29 @@ int make_report_fixture(const std::string& out, int placements) {
     r.placements.push_back(p);
     r.verdicts.push_back(v);
   }
-  std::ofstream(out) << reconcile_to_html(r, {"fixture: 24 h, " + std::to_string(placements) + " placements", {}});
+  // The day recorded in hour files, one hour (14:00) lost to a gap.
+  for (int hour = 0; hour < 24; ++hour) {
+    if (hour == 14) continue;
+    RecordingStatus rec;
+    rec.path = "kestrel-fm-" + format_iso8601_local(day + hour * 3600.0, 0).substr(0, 13) + ".flac";
+    rec.start_s = day + hour * 3600.0;
+    rec.duration_s = 3600;
+    rec.native_rate_hz = 44100;
+    rec.format = "flac";
+    rec.channels = 2;
+    r.recordings.push_back(rec);
+  }
+  r.recorded = {{day, day + 14 * 3600.0}, {day + 15 * 3600.0, day + 86400.0}};
+  TimelineIssue gap;
+  gap.before = r.recordings[13].path;
+  gap.after = r.recordings[14].path;
+  gap.at_s = day + 14 * 3600.0;
+  gap.seconds = 3600;
+  r.timeline_issues.push_back(gap);
+  for (const auto& s : kSpots) r.spots[s.id] = {std::string(s.id) + ".wav", s.duration_s, {s.title, s.advertiser, s.family}};
+  HtmlReportOptions ho;
+  ho.title = "kestrel-fm-2026-03-14";
+  std::ofstream(out) << reconcile_to_html(r, ho);
   return 0;
 }
 

@@ -10,16 +10,18 @@
 #include <vector>
 
 #include "godwit/audio_source.h"
+#include "sndfile_lock.h"
 
 namespace godwit {
-namespace {
 
-// libsndfile keeps the error of a failed sf_open process-wide
-// (sf_error(nullptr)); open and read it under one lock.
-std::mutex& open_mutex() {
+std::mutex& detail::sndfile_open_mutex() {
   static std::mutex mu;
   return mu;
 }
+
+namespace {
+
+std::mutex& open_mutex() { return detail::sndfile_open_mutex(); }
 
 std::string format_name(int format) {
   switch (format & SF_FORMAT_TYPEMASK) {

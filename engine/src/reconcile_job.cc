@@ -328,6 +328,17 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts, ctx);
   res.verdicts = std::move(rec.verdicts);
   res.unscheduled = std::move(rec.unscheduled);
+
+  // 8. What the reports need beside the verdicts: the masters with their
+  // sidecars, the runs as streams (excerpts), the recorded time.
+  for (const auto& t : templates) {
+    SpotInfo& s = res.spots[t.id];
+    s.path = t.path;
+    s.length_s = t.duration_s;
+    if (auto it = job.meta.find(t.id); it != job.meta.end()) s.meta = it->second;
+  }
+  for (size_t i = 0; i < timeline.runs.size(); ++i) res.runs.push_back(run_parts(timeline, i));
+  res.recorded = recorded;
   return res;
 }
 

@@ -78,6 +78,24 @@ nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
 }
 
 
+// The sidecar's advertiser and title of `spot`, when it has them.
+void meta_fields(const ReconcileResult& r, const std::string& spot, nlohmann::json& j) {
+  auto it = r.spots.find(spot);
+  if (it == r.spots.end()) return;
+  if (!it->second.meta.advertiser.empty()) j["advertiser"] = it->second.meta.advertiser;
+  if (!it->second.meta.title.empty()) j["title"] = it->second.meta.title;
+}
+
+void excerpt_fields(const Listening* l, size_t airing, const std::string& heard, nlohmann::json& j) {
+  if (!l) return;
+  if (auto it = l->airings.find(airing); it != l->airings.end())
+    j["excerpt"] = {{"file", it->second.file},
+                    {"from_s", detail::round_decimals(it->second.from_s, 3)},
+                    {"duration_s", detail::round_decimals(it->second.duration_s, 3)},
+                    {"bytes", it->second.bytes}};
+  if (auto it = l->masters.find(heard); it != l->masters.end()) j["master_excerpt"] = it->second.file;
+}
+
 }  // namespace
 
 const std::string& reported_spot(const AiringRecord& a, const Placement& p) {
@@ -86,7 +104,7 @@ const std::string& reported_spot(const AiringRecord& a, const Placement& p) {
   return fits ? p.spot : a.spot;
 }
 
-nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& lo) {
+nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& lo, const Listening* listening) {
   nlohmann::json j;
   nlohmann::json summary = nlohmann::json::object();
   for (VerdictStatus st : all_verdicts()) summary[verdict_name(st)] = 0;
@@ -96,12 +114,14 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
     nlohmann::json x{{"slot", p.slot}, {"spot", p.spot}, {"planned", p.planned}, {"window_s", p.window_s},
                      {"status", verdict_name(v.status)}};
     if (!p.planned_as_written.empty() && p.planned_as_written != p.planned) x["planned_as_written"] = p.planned_as_written;
+    meta_fields(r, p.spot, x);
     summary[verdict_name(v.status)] = summary[verdict_name(v.status)].get<int>() + 1;
     if (v.airing) {
       const AiringRecord& a = r.airings[*v.airing];
       x.update(airing_fields(a, lo));
       x["deviation_s"] = detail::round_decimals(v.deviation_s, 3);
       x["detected_spot"] = reported_spot(a, p);
+      excerpt_fields(listening, *v.airing, reported_spot(a, p), x);
     }
     if (v.status == VerdictStatus::not_recorded) {
       auto spans = [](const std::vector<LocalSpan>& list) {
@@ -118,7 +138,9 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
   j["unscheduled"] = nlohmann::json::array();
   for (size_t i : r.unscheduled) {
     nlohmann::json x{{"spot", r.airings[i].spot}};
+    meta_fields(r, r.airings[i].spot, x);
     x.update(airing_fields(r.airings[i], lo));
+    excerpt_fields(listening, i, r.airings[i].spot, x);
     j["unscheduled"].push_back(std::move(x));
   }
   summary["unscheduled"] = r.unscheduled.size();
@@ -138,6 +160,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
   for (const auto& p : r.log_problems) j["log_problems"].push_back({{"line", p.line}, {"reason", p.reason}});
   j["families"] = r.families;
   j["rejected_weak_detections"] = r.rejected_weak;
+  if (listening && !listening->problems.empty()) j["excerpt_problems"] = listening->problems;
   j["cautions"] = {kEvidenceCaution, kLoudnessCaution};
   return j;
 }

@@ -136,6 +136,13 @@ struct RecordingStatus {
   std::optional<Error> error;
 };
 
+// A master of the job's library, as the reports show it.
+struct SpotInfo {
+  std::string path;
+  double length_s = 0;
+  SpotMeta meta;  // from its sidecar; empty fields when there was none
+};
+
 struct ReconcileResult {
   std::vector<Placement> placements;
   std::vector<Verdict> verdicts;        // one per placement
@@ -146,6 +153,11 @@ struct ReconcileResult {
   std::vector<RecordingStatus> recordings;
   std::vector<std::vector<std::string>> families;  // sibling groups of 2 or more
   size_t rejected_weak = 0;  // detections under min_airing_score
+  std::map<std::string, SpotInfo> spots;      // the job's masters, by spot id
+  // Each run of the timeline as one stream (AiringRecord::run indexes it;
+  // AiringRecord::run_offset_s is in its time): for excerpts.
+  std::vector<std::vector<ConcatPart>> runs;
+  std::vector<LocalSpan> recorded;            // the time recorded and read (recorded_spans)
 };
 
 Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options);

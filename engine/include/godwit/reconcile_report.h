@@ -5,7 +5,9 @@
 //                        and when an airing was assigned: "aired", "deviation_s",
 //                        "score", "coverage", "detected_spot", "recording",
 //                        "offset_s", "polarity", "missing": [[from_s, to_s]],
-//                        "versions": [{"spot", "score"}]}],
+//                        "versions": [{"spot", "score"}],
+//                        with excerpts: "excerpt": {"file", "from_s", "duration_s", "bytes"},
+//                        "master_excerpt": file; with sidecar metadata: "advertiser", "title"}],
 //        "unscheduled": [{"spot", "aired", "score", "coverage", "recording", "offset_s", "polarity"}],
 //        "summary": {"aired": n, "early": n, ..., "unscheduled": n},
 //        "recordings": [...], "timeline_issues": [...], "log_problems": [...],
@@ -16,11 +18,16 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
+#include "godwit/excerpt.h"
 #include "godwit/reconcile_job.h"
 
 namespace godwit {
 
-nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& loudness = {});
+// `listening`, when excerpts were made (excerpt.h), adds each airing's
+// "excerpt" and "master_excerpt" (file names relative to the report) and
+// "excerpt_problems".
+nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions& loudness = {},
+                                 const Listening* listening = nullptr);
 std::string reconcile_to_csv(const ReconcileResult& r);
 
 // The spot to report as detected for a placement: the placement's own when
