@@ -164,6 +164,10 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   return s;
 }
 
+JobStore::~JobStore() {
+  if (journal_fd_ >= 0) ::close(journal_fd_);
+}
+
 void JobStore::forget(const std::string& id) {
   std::error_code ec;
   std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);

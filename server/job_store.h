@@ -54,6 +54,9 @@ class JobStore {
   // journal, which is rewritten without them at the next open.
   static Result<std::unique_ptr<JobStore>> open(const std::string& state_dir, size_t max_queued,
                                                 size_t max_finished = 10000);
+  ~JobStore();  // closes the journal
+  JobStore(const JobStore&) = delete;
+  JobStore& operator=(const JobStore&) = delete;
 
   // Errors: busy (queue full), io (journal write failed; nothing recorded).
   Result<std::string> submit(const nlohmann::json& spec);

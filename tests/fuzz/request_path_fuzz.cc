@@ -1,0 +1,208 @@
+// Fuzz target: the daemon's request path, as a session runs it, without a
+// socket: bytes -> LineFramer -> Dispatcher::handle -> the answer's text.
+//
+// The input is expanded first (byte_expansion.h), so a few bytes can stand
+// for a 32 MiB line or an array nested 100 000 deep in any field. Each
+// input meets a fresh state folder holding four jobs (done with a result,
+// failed, queued, cancelled) and roots holding a real library, recording
+// and planned log, so submit, status, result, cancel, jobs and watch all
+// reach their real work (paths resolved, audio opened, the journal
+// appended and fsync'ed, inline spots written). Two dispatchers see every
+// line: one without a token, one requiring "fuzz-token-0123456789".
+//
+// Checked beyond crashes, leaks and sanitizer findings:
+//   - framing in the session's 8 KiB reads gives the lines framing in one
+//     piece gives (and in 1-7 byte pieces, for inputs under 64 KiB);
+//   - every answer is one line of JSON text that parses back to an object
+//     with a boolean "ok", an error carrying a known code (never
+//     `internal`), and an echoed "id" only of the documented kinds;
+//   - no inline spots stay behind for a submit that was not journaled.
+#include <unistd.h>
+
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <memory>
+#include <set>
+#include <string>
+#include <vector>
+
+#include "byte_expansion.h"
+#include "dispatcher.h"
+#include "fuzz_fixture.h"
+#include "job_runner.h"
+#include "job_store.h"
+#include "json_text.h"
+#include "line_framer.h"
+#include "path_guard.h"
+
+namespace fs = std::filesystem;
+using namespace godwit;
+
+namespace {
+
+constexpr size_t kMaxInputBytes = 32u << 20;  // a request line of 32 MiB, and a little more
+constexpr size_t kMaxLineBytes = 24u << 20;   // ServerLimits' default
+constexpr size_t kSessionReadBytes = 8192;    // the session's read buffer
+// Lines dispatched per input (all are framed): a repeat mark can make a
+// million small requests, which says no more than the first few dozen
+// and would take minutes.
+constexpr size_t kMaxDispatchedLines = 64;
+const char* kToken = "fuzz-token-0123456789";
+
+struct World {
+  fs::path root;   // read-only fixture: library, recording, planned log
+  fs::path state;  // this process's state folder, reset for every input
+  std::unique_ptr<PathGuard> guard;
+  std::unique_ptr<JobRunner> runner;
+};
+
+World& world() {
+  static World w;
+  return w;
+}
+
+// The four jobs every input starts with; ids are in the dictionary.
+void seed_state(const World& w) {
+  std::error_code ec;
+  fs::remove_all(w.state, ec);
+  fs::create_directories(w.state / "results", ec);
+  const std::string rec = (w.root / "h-20260314T060000.wav").string();
+  const std::string lib = (w.root / "lib").string();
+  const nlohmann::json spec{{"kind", "locate"}, {"recordings", {rec}}, {"templates", {lib + "/spot-a.wav"}},
+                            {"threshold", 0.3}, {"floor_k", 10.0}, {"fft_size", 0}, {"max_speed_change_pct", 4.5}};
+  std::string journal;
+  int n = 0;
+  for (const char* end : {"done", "failed", "", "cancelled"}) {
+    const std::string id = std::string("j00000000000000") + "dfqc"[n++];
+    journal += json_text({{"event", "submit"}, {"job", id}, {"spec", spec}, {"submitted", "2026-12-01T00:00:0" +
+                                                                                          std::to_string(n) + "Z"}}) +
+               "\n";
+    if (*end == 0) continue;
+    nlohmann::json line{{"event", end}, {"job", id}};
+    if (std::string(end) == "failed") line["error"] = {{"code", "corrupt"}, {"message", "decoding failed"}};
+    journal += json_text(line) + "\n";
+  }
+  std::ofstream(w.state / "journal.jsonl", std::ios::binary) << journal;
+  std::ofstream(w.state / "results" / "j00000000000000d.json", std::ios::binary)
+      << R"({"analysis_rate_hz":8000.0,"complete":true,"matches":[],"recordings":[],"templates":[]})"
+      << "\n";
+}
+
+std::vector<LineFramer::Event> frame(const std::string& bytes, size_t piece) {
+  LineFramer framer(kMaxLineBytes);
+  std::vector<LineFramer::Event> out;
+  for (size_t at = 0; at < bytes.size(); at += piece) {
+    auto evs = framer.feed(std::string_view(bytes).substr(at, piece));
+    for (auto& e : evs) out.push_back(std::move(e));
+  }
+  return out;
+}
+
+bool same_events(const std::vector<LineFramer::Event>& a, const std::vector<LineFramer::Event>& b) {
+  if (a.size() != b.size()) return false;
+  for (size_t i = 0; i < a.size(); ++i)
+    if (a[i].kind != b[i].kind || a[i].text != b[i].text) return false;
+  return true;
+}
+
+[[noreturn]] void fail(const std::string& what) {
+  std::fprintf(stderr, "request_path_fuzz: %s\n", what.c_str());
+  std::abort();
+}
+
+void check_answer(const Reply& reply) {
+  const std::string text = json_text(reply.response);
+  if (text.find('\n') != std::string::npos) fail("an answer spans lines");
+  nlohmann::json back;
+  try {
+    back = nlohmann::json::parse(text);
+  } catch (const std::exception& e) {
+    fail(std::string("an answer is not JSON: ") + e.what());
+  }
+  if (!back.is_object() || !back.contains("ok") || !back["ok"].is_boolean()) fail("an answer lacks a boolean ok: " + text.substr(0, 500));
+  if (!back["ok"].get<bool>()) {
+    const auto& e = back["error"];
+    if (!e.is_object() || !e.contains("code") || !e["code"].is_string() || !e.contains("message"))
+      fail("an error answer lacks code or message: " + text.substr(0, 500));
+    const std::string code = e["code"];
+    if (code == "internal" || code_from_wire_name(code) == ErrorCode::internal)
+      fail("an internal or unknown error code: " + text.substr(0, 500));
+  }
+  if (back.contains("id")) {
+    const auto& id = back["id"];
+    if (!(id.is_number() || (id.is_string() && id.get_ref<const std::string&>().size() <= Dispatcher::kMaxIdBytes)))
+      fail("an echoed id of a kind the protocol does not allow: " + text.substr(0, 500));
+  }
+}
+
+// Inline spot folders must belong to journaled jobs.
+void check_no_stray_inline_spots(const World& w, const JobStore& store) {
+  std::set<std::string> used;
+  for (const auto& j : store.list(std::nullopt))
+    for (const auto& t : j.spec.value("templates", nlohmann::json::array()))
+      if (t.is_string()) used.insert(fs::path(t.get<std::string>()).parent_path().filename().string());
+  std::error_code ec;
+  for (fs::directory_iterator it(w.state / "inline", ec), end; !ec && it != end; it.increment(ec))
+    if (!used.count(it->path().filename().string()))
+      fail("inline spots left behind by a submit that was not journaled: " + it->path().string());
+}
+
+}  // namespace
+
+extern "C" int LLVMFuzzerInitialize(int*, char***) {
+  World& w = world();
+  w.root = fuzz::fixture_root();
+  w.state = fuzz::private_scratch_dir("request-state");
+  w.guard = std::make_unique<PathGuard>(std::vector<std::string>{w.root.string()});
+  RunnerConfig rc;  // the daemon's defaults, but a small inline limit and the fast planner
+  rc.default_library = (w.root / "lib").string();
+  rc.inline_dir = (w.state / "inline").string();
+  rc.max_inline_bytes = 1u << 20;
+  rc.planner = Planner::estimate;
+  w.runner = std::make_unique<JobRunner>(rc, *w.guard);
+  return 0;
+}
+
+extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
+  World& w = world();
+  const std::string bytes = fuzz::expand_bytes(data, size, kMaxInputBytes);
+
+  const auto events = frame(bytes, kSessionReadBytes);
+  if (!same_events(events, frame(bytes, bytes.size() + 1))) fail("framing depends on how the bytes arrive");
+  if (bytes.size() < (64u << 10)) {
+    LineFramer framer(kMaxLineBytes);
+    std::vector<LineFramer::Event> small;
+    for (size_t at = 0, k = 0; at < bytes.size(); at += 1 + k % 7, ++k) {
+      auto evs = framer.feed(std::string_view(bytes).substr(at, 1 + k % 7));
+      for (auto& e : evs) small.push_back(std::move(e));
+    }
+    if (!same_events(events, small)) fail("framing in small pieces differs");
+  }
+
+  seed_state(w);
+  auto store = JobStore::open(w.state.string(), 2, 3);
+  if (!store) fail("the seeded state does not open: " + store.error().describe());
+  Dispatcher open_door(*store.value(), *w.runner, 1);
+  Dispatcher locked(*store.value(), *w.runner, 2);
+  locked.set_token(kToken);
+  locked.set_cluster_info([]() -> Result<nlohmann::json> {
+    return nlohmann::json{{"stream", "godwit"}, {"pending", 1}, {"lag", 0}, {"dead", 0},
+                          {"workers", {{{"worker", "fuzz:1"}, {"threads", 1}}}}};
+  });
+  size_t dispatched = 0;
+  for (const auto& ev : events) {
+    if (dispatched == kMaxDispatchedLines) break;
+    ++dispatched;
+    if (ev.kind == LineFramer::Event::too_long) {
+      check_answer({Dispatcher::error_response(ErrorCode::too_large, "request line over the limit"), false, {}});
+      continue;
+    }
+    if (ev.text.empty()) continue;  // the session skips empty lines
+    check_answer(open_door.handle(ev.text));
+    check_answer(locked.handle(ev.text));
+  }
+  check_no_stray_inline_spots(w, *store.value());
+  return 0;
+}
