@@ -54,6 +54,7 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   num(t["limits"]["max_reply_bytes"], c.max_reply_bytes, "limits.max_reply_bytes");
   num(t["limits"]["max_finished_jobs"], c.max_finished_jobs, "limits.max_finished_jobs");
   num(t["limits"]["max_templates"], c.max_templates, "limits.max_templates");
+  num(t["limits"]["max_recordings"], c.max_recordings, "limits.max_recordings");
   num(t["limits"]["max_recording_h"], c.max_recording_h, "limits.max_recording_h");
   num(t["limits"]["max_inline_mb"], c.max_inline_mb, "limits.max_inline_mb");
   num(t["drop_folder"]["poll_s"], c.drop_poll_s, "drop_folder.poll_s");

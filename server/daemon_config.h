@@ -36,6 +36,7 @@ struct DaemonConfig {
   size_t max_queued = 100;
   size_t max_finished_jobs = 10000;
   size_t max_templates = 500;
+  size_t max_recordings = 1000;
   double max_recording_h = 168;
   size_t max_inline_mb = 16;
   // drop folder

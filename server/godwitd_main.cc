@@ -191,6 +191,7 @@ int main(int argc, char** argv) {
   rc.default_library = cfg.library;
   rc.inline_dir = cfg.state_dir + "/inline";
   rc.max_templates = cfg.max_templates;
+  rc.max_recordings = cfg.max_recordings;
   rc.max_recording_s = cfg.max_recording_h * 3600;
   rc.max_inline_bytes = cfg.max_inline_mb << 20;
   rc.time_zone = cfg.time_zone;

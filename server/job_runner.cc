@@ -30,8 +30,11 @@ Result<std::string> guarded(const PathGuard& g, const nlohmann::json& v, const c
   return *r;
 }
 
+// Over `max_count` paths the list is refused before any is resolved: each
+// costs system calls (and a recording an open), and a 24 MiB request line
+// holds hundreds of thousands.
 Result<std::vector<std::string>> guarded_list(const PathGuard& g, const nlohmann::json& job, const char* field,
-                                              bool required) {
+                                              bool required, size_t max_count) {
   std::vector<std::string> out;
   if (!job.contains(field)) {
     if (required) return bad(std::string("'") + field + "' is required");
@@ -39,6 +42,10 @@ Result<std::vector<std::string>> guarded_list(const PathGuard& g, const nlohmann
   }
   const auto& a = job[field];
   if (!a.is_array()) return bad(std::string("'") + field + "' must be an array of paths");
+  if (a.size() > max_count)
+    return Error{ErrorCode::too_large,
+                 std::to_string(a.size()) + " " + field + ", over the limit of " + std::to_string(max_count) + " per job",
+                 "", std::nullopt};
   for (const auto& v : a) {
     auto p = guarded(g, v, field);
     if (!p) return p.error();
@@ -99,7 +106,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   if (!job.is_object()) return bad("'job' must be an object");
   const std::string kind = job.value("kind", "");
   nlohmann::json out{{"kind", kind}};
-  auto recs = guarded_list(guard_, job, "recordings", true);
+  auto recs = guarded_list(guard_, job, "recordings", true, config_.max_recordings);
   if (!recs) return recs.error();
   double total_s = 0;
   for (const auto& r : recs.value()) {
@@ -154,7 +161,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   }
   if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
 
-  auto tmpl = guarded_list(guard_, job, "templates", false);
+  auto tmpl = guarded_list(guard_, job, "templates", false, config_.max_templates);
   if (!tmpl) return tmpl.error();
   std::vector<std::string> templates = tmpl.value();
   std::string library;
@@ -165,6 +172,11 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   }
   if (job.contains("inline")) {
     if (!job["inline"].is_array()) return bad("'inline' must be an array");
+    if (job["inline"].size() > config_.max_templates)  // before any is decoded and written
+      return Error{ErrorCode::too_large,
+                   std::to_string(job["inline"].size()) + " inline spots, over the limit of " +
+                       std::to_string(config_.max_templates) + " templates per job",
+                   "", std::nullopt};
     const std::string dir = config_.inline_dir + "/" + random_name();
     std::error_code ec;
     inline_dir = dir;

@@ -36,7 +36,8 @@ namespace godwit {
 struct RunnerConfig {
   std::string default_library;   // used when a locate job names no templates
   std::string inline_dir;        // where inline spots are saved
-  size_t max_templates = 500;
+  size_t max_templates = 500;    // per job (also the most paths or inline spots a job may list)
+  size_t max_recordings = 1000;  // per job, checked before any is opened
   double max_recording_s = 7 * 24 * 3600.0;  // per job, all recordings together
   size_t max_inline_bytes = 16u << 20;       // decoded, per spot
   std::string time_zone;  // the station's IANA zone for reconcile jobs that give none; empty: none

@@ -879,6 +879,39 @@ class DaemonTests(unittest.TestCase):
         self.assertEqual(r["id"], 9)
         self.assertTrue(c.req({"op": "health"})["ok"])
 
+    def test_jobs_listing_too_many_files_are_refused_before_any_is_opened(self):
+        # Found by fuzzing the request path: a 10 MiB submit naming one
+        # recording 200 000 times held a handler thread for its 200 000
+        # opens (the hours limit was checked after them); four such held
+        # every handler, and every other client waited.
+        import base64
+        import struct
+        pcm = struct.pack("<100h", *range(100))
+        tiny = (b"RIFF" + struct.pack("<I", 36 + len(pcm)) + b"WAVEfmt " + struct.pack("<IHHIIHH", 16, 1, 1, 8000, 16000, 2, 16)
+                + b"data" + struct.pack("<I", len(pcm)) + pcm)
+        d = self.start()
+        huge = [{"kind": "locate", "recordings": [DEMO_RECS[0]] * 200000},
+                {"kind": "locate", "recordings": [DEMO_RECS[0]], "templates": [f"{DEMO}/library/marlow-bakery.wav"] * 200000},
+                {"kind": "locate", "recordings": [DEMO_RECS[0]], "inline": [{"id": "x", "audio_base64": base64.b64encode(tiny).decode()}] * 30000},
+                {"kind": "reconcile", "recordings": [DEMO_RECS[0]] * 200000, "library": f"{DEMO}/library",
+                 "schedule": f"{DEMO}/schedules/kestrel-fm-2026-03-14.csv"}]
+        hostile = [d.connect() for _ in huge]
+        t0 = time.time()
+        for c, job in zip(hostile, huge):
+            c.send_raw((json.dumps({"op": "submit", "job": job}) + "\n").encode())
+        time.sleep(0.2)
+        t1 = time.time()
+        self.assertTrue(Client(d.port, timeout=10).req({"op": "health"})["ok"])
+        self.assertLess(time.time() - t1, 1.0, "other clients waited for the hostile submits")
+        for c in hostile:
+            r = c.read()
+            self.assertEqual(r["error"]["code"], "too_large", r)
+        self.assertLess(time.time() - t0, 5.0, "the hostile submits took long to refuse")
+        with open(os.path.join(d.state, "journal.jsonl")) as f:
+            self.assertEqual(f.read(), "")
+        self.assertEqual(os.listdir(os.path.join(d.state, "inline")) if os.path.isdir(os.path.join(d.state, "inline"))
+                         else [], [])
+
     def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
         d = self.start(extra_config="[limits]\nmax_connections = 8\nmax_connections_per_address = 4\n"
                                     "idle_timeout_s = 2\nwatch_heartbeat_s = 1\n")
