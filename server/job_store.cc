@@ -87,8 +87,13 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   s->max_queued_ = max_queued;
   s->max_finished_ = std::max<size_t>(1, max_finished);
   const std::string journal = dir + "/journal.jsonl";
+  // Left by a kill mid-write: a result, the journal's compaction, the FFT
+  // cost cache (written beside the journal at exit).
+  remove_stale_temporaries(dir);
+  remove_stale_temporaries(dir + "/results");
   // Replay.
   std::vector<std::string> order;
+  bool pruned_lines = false;
   {
     std::ifstream in(journal);
     std::string line;
@@ -107,6 +112,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         s->jobs_[id] = info;
       } else if (ev == "pruned") {
         s->jobs_.erase(id);
+        pruned_lines = true;
       } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
         if (auto st = job_state_from(ev)) it->second.state = *st;
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
@@ -129,8 +135,13 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
     if (info.state != JobState::queued) s->finished_.push_back(id);
   }
   // Beyond max_finished, the oldest finished jobs are forgotten, and the
-  // journal is rewritten with the rest (else it would grow forever).
-  if (s->finished_.size() > s->max_finished_) {
+  // journal is rewritten with the rest, as it is when it names jobs pruned
+  // while running (else it would grow forever). A rewrite that fails (a
+  // full disk) leaves the journal as it was, which replays to the same
+  // jobs: it is tried again at the next open.
+  std::set<std::string> on_disk;  // the jobs the journal on disk names, once this is done
+  for (const auto& [id, info] : s->jobs_) on_disk.insert(id);
+  if (s->finished_.size() > s->max_finished_ || pruned_lines) {
     std::set<std::string> gone;
     while (s->finished_.size() > s->max_finished_) {
       gone.insert(s->finished_.front());
@@ -146,12 +157,29 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
       if (info.state == JobState::failed) end["error"] = info.error;
       text += json_text(end) + "\n";
     }
-    if (auto st = write_file_atomically(journal, text); !st) return st.error();
+    if (write_file_atomically(journal, text))
+      for (const auto& id : gone) on_disk.erase(id);
+  }
+  // Results (and report folders) of jobs the journal no longer names
+  // (pruned; a kill between a "pruned" line and the removal of its result)
+  // are removed. A result stays while its job is in the journal: else the
+  // job would run again.
+  std::vector<fs::path> orphans;
+  for (fs::directory_iterator it(fs::path(dir) / "results", ec), end; !ec && it != end; it.increment(ec)) {
+    const fs::path p = it->path();
+    const std::string name = p.filename().string();
+    if (name.empty() || name[0] == '.') continue;  // temporaries: removed above, or by the job that writes them
+    std::error_code de;
+    const bool result = p.extension() == ".json", folder = it->is_directory(de);
+    if ((result && !on_disk.count(p.stem().string())) || (folder && !on_disk.count(name))) orphans.push_back(p);
+  }
+  for (const auto& p : orphans) {
+    std::error_code rc;
+    fs::remove_all(p, rc);
   }
   s->journal_fd_ = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
   if (s->journal_fd_ < 0)
     return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
-  remove_stale_temporaries(dir + "/results");  // results half-written when the daemon was killed
   // A torn tail (a crash or a full disk mid-append; never acknowledged) is
   // cut off, so the next line starts on a line of its own.
   {
@@ -169,9 +197,6 @@ JobStore::~JobStore() {
 }
 
 void JobStore::forget(const std::string& id) {
-  std::error_code ec;
-  std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
-  std::filesystem::remove_all(files_dir(id), ec);
   jobs_.erase(id);
   cancel_.erase(id);
   last_emit_.erase(id);
@@ -381,8 +406,18 @@ void JobStore::prune() {
       forget(finished_.front());
     }
   }
-  std::lock_guard jl(journal_mu_);
-  for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
+  if (gone.empty()) return;
+  {
+    std::lock_guard jl(journal_mu_);
+    for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
+  }
+  // After the journal says so: a result removed first would make a kill
+  // in between run its job again.
+  for (const auto& id : gone) {
+    std::error_code ec;
+    std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
+    std::filesystem::remove_all(files_dir(id), ec);
+  }
 }
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {

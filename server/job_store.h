@@ -8,11 +8,14 @@
 // folder STATE/results/<id>/ (files_dir) before it, and go with the job
 // when it is forgotten. On open the journal is replayed: a job whose
 // last event is submit (it was queued or running at a crash), or whose
-// result file is missing, is queued again. A torn line (a crash or a full
-// disk part way through an append, never acknowledged) is skipped, and a
-// line glued to it is still read; a torn tail is cut off at open, and an
-// append that fails part way cuts off what it wrote. Temporary result
-// files left by a kill are removed at open.
+// result file is missing, is queued again; the journal is compacted when
+// it names pruned jobs, and results (and folders) of jobs it no longer
+// names are removed. A torn line (a crash or a full disk part way through
+// an append, never acknowledged) is skipped, and a line glued to it is
+// still read; a torn tail is cut off at open, and an append that fails
+// part way cuts off what it wrote. Temporary files left by a kill
+// (results, the compaction, the FFT cost cache beside the journal) are
+// removed at open.
 //
 // Thread contract: safe for concurrent use; no lock is held over an fsync
 // of a result or over a job.
@@ -105,6 +108,7 @@ class JobStore {
   void emit(const nlohmann::json& event);
   void set_state(const std::string& id, JobState s, const nlohmann::json& extra);
   void prune();                            // beyond max_finished_
+  // Drops a finished job from memory (its result file is the caller's).
   void forget(const std::string& id);      // REQUIRES: mu_ held (or opening); id is finished_.front()
 
   std::string dir_;
