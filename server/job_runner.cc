@@ -84,7 +84,13 @@ Result<double> number_in(const nlohmann::json& job, const char* field, double lo
 
 Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
   std::string inline_dir;
-  auto r = prepare_job(job, inline_dir);
+  auto r = [&]() -> Result<nlohmann::json> {
+    try {
+      return prepare_job(job, inline_dir);
+    } catch (const std::exception& e) {  // a field of the wrong JSON type
+      return bad(std::string("bad request: ") + e.what());
+    }
+  }();
   if (!r && !inline_dir.empty()) {  // refused: its inline spots are not kept
     std::error_code ec;
     std::filesystem::remove_all(inline_dir, ec);

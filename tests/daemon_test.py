@@ -748,7 +748,9 @@ class DaemonTests(unittest.TestCase):
         junk = base64.b64encode(b"not audio at all" * 100).decode()
         refused = [{"inline": [{"id": "a", "audio_base64": "not base64!"}]},
                    {"inline": [{"id": "b", "audio_base64": junk}]},
-                   {"inline": [{"id": "c", "audio_base64": wav}], "threshold": 7}]
+                   {"inline": [{"id": "c", "audio_base64": wav}], "threshold": 7},
+                   # A field of the wrong type after a spot was saved (found by fuzzing: the folder stayed).
+                   {"inline": [{"id": "e", "audio_base64": wav}, {"id": "f", "audio_base64": wav, "format": 7}]}]
         for extra in refused:
             r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [DEMO_RECS[0]], **extra}})
             self.assertFalse(r["ok"], r)
