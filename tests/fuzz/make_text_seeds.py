@@ -31,8 +31,8 @@ def wav(n=160, rate=8000):
 
 
 def rep(k, unit):
-    """A repeat mark: `unit` written 2**k times (byte_expansion.h)."""
-    return b"\xff" + bytes([k, len(unit) - 1]) + unit
+    """A repeat mark: `unit` written 2**k times, k <= 25 (byte_expansion.h)."""
+    return b"\xff" + bytes([230 + k, len(unit) - 1]) + unit
 
 
 def request_seeds():
@@ -56,6 +56,8 @@ def request_seeds():
                              '"recordings":["%s","%s"],"window_s":30}}\n' % (LIB, R, REC, REC2)).encode(),
         "submit-inline": ('{"op":"submit","job":{"kind":"locate","recordings":["%s"],"inline":[{"id":"tiny",'
                           '"format":"wav","audio_base64":"%s"}]}}\n' % (REC, tiny)).encode(),
+        "inline-wrong-type": ('{"op":"submit","job":{"kind":"locate","recordings":["%s"],"inline":[{"id":"x",'
+                              '"audio_base64":"AAAA","format":1}]}}\n' % REC).encode(),
         "submit-awkward": "".join('{"op":"submit","job":{"kind":"locate","recordings":["%s"]}}\n' % p for p in (
             f"{R}/noise.wav", f"{R}/pipe.wav", f"{R}/outside.wav", f"{R}/empty.wav", f"{R}/sub", "/etc/passwd",
             f"{R}/../../etc/passwd")).encode(),
@@ -121,8 +123,8 @@ DICTIONARY = [
     f'"{R}/noise.wav"', f'"{R}/outside.wav"', f'"{R}/sub"', '"/etc/passwd"', '"/../"',
     '"{"', '"}"', '"["', '"]"', '":"', '","', '"\\\\"', '"\\\\u0000"', '"\\\\ud800"', '"\\\\n"', '"null"',
     '"true"', '"1e999"', '"-0"',
-    '"\\xff\\x10\\x00["', '"\\xff\\x10\\x00{"', '"\\xff\\x12\\x04{\\"a\\":"', '"\\xff\\x19\\x00a"',
-    '"\\xff\\x14\\x00\\""', '"\\xc3\\x28"', '"\\xed\\xa0\\x80"', '"\\xf4\\x90\\x80\\x80"', '"\\x0d\\x0a"',
+    '"\\xff\\xf6\\x00["', '"\\xff\\xf6\\x00{"', '"\\xff\\xf8\\x04{\\"a\\":"', '"\\xff\\xff\\x00a"',
+    '"\\xff\\xfa\\x00\\""', '"\\xff\\x40\\x00["', '"\\xc3\\x28"', '"\\xed\\xa0\\x80"', '"\\xf4\\x90\\x80\\x80"', '"\\x0d\\x0a"',
 ]
 
 
