@@ -1,9 +1,14 @@
 #include "line_framer.h"
 
+#include <algorithm>
+
 namespace godwit {
 
 std::vector<LineFramer::Event> LineFramer::feed(std::string_view bytes) {
   std::vector<Event> out;
+  // One allocation for the events, however many lines the bytes hold (a
+  // read of pipelined requests, or of nothing but newlines).
+  out.reserve(static_cast<size_t>(std::count(bytes.begin(), bytes.end(), '\n')) + 1);
   size_t pos = 0;
   while (pos < bytes.size()) {
     const size_t nl = bytes.find('\n', pos);

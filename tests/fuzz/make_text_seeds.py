@@ -70,6 +70,7 @@ def request_seeds():
         "line-just-under": b'{"op":"health","x":"' + rep(23, b"ab") + b'"}\n',
         "many-recordings": b'{"op":"submit","job":{"kind":"locate","recordings":[' + rep(12, ('"%s",' % REC).encode())
                            + ('"%s"]}}\n' % REC).encode(),
+        "many-lines": b'{"op":"watch"}\n' + rep(25, b"\n" * 24 + b'{"op":"health"}\n'),
         "crlf-pipelined": b'{"op":"health"}\r\n\r\n\n{"op":"status","job":"j00000000000000d"}\r\n{"op":',
         "invalid-utf8": b'{"op":"health","id":"\xc3\x28\xff"}\n{"op":"st\xe9tus","job":"j\xed\xa0\x80"}\n'
                         b'\xfe\xff\x00\x01\n',
