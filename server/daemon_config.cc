@@ -38,6 +38,7 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   str(t["planner"], c.planner, "planner");
   num(t["workers"], c.workers, "workers");
   num(t["threads_per_job"], c.threads_per_job, "threads_per_job");
+  num(t["job_nice"], c.job_nice, "job_nice");
   if (auto roots = t["roots"].as_array()) {
     c.roots.clear();
     for (auto& r : *roots)

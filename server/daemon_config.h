@@ -22,6 +22,7 @@ struct DaemonConfig {
   std::string time_zone;
   size_t workers = 1;
   int threads_per_job = 1;
+  int job_nice = 10;  // jobs' threads run this much nicer than requests' (job_priority.h)
   std::string token_file;
   std::string log_level = "info";
   std::string planner = "measure";

@@ -14,6 +14,7 @@
 #include "godwit/civil_time.h"
 #include "godwit/excerpt.h"
 #include "godwit/locate_report.h"
+#include "job_priority.h"
 #include "library_scan.h"
 #include "json_text.h"
 
@@ -69,6 +70,7 @@ void DropFolder::stop() {
 }
 
 void DropFolder::loop() {
+  (void)lower_this_thread_priority(runner_.config().job_nice);  // its jobs run below requests
   const fs::path incoming = fs::path(o_.dir) / "incoming", work = fs::path(o_.dir) / "work";
   // Claimed before a crash: run again (under a name JSON can carry, for
   // files claimed before names were made so). Anything but a regular file

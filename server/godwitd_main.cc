@@ -196,6 +196,7 @@ int main(int argc, char** argv) {
   rc.max_inline_bytes = cfg.max_inline_mb << 20;
   rc.time_zone = cfg.time_zone;
   rc.threads_per_job = cfg.threads_per_job;
+  rc.job_nice = cfg.job_nice;
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   rc.excerpts = cfg.excerpts;

@@ -42,6 +42,7 @@ struct RunnerConfig {
   size_t max_inline_bytes = 16u << 20;       // decoded, per spot
   std::string time_zone;  // the station's IANA zone for reconcile jobs that give none; empty: none
   int threads_per_job = 1;
+  int job_nice = 10;  // threads that run jobs lower their priority by this (job_priority.h)
   Planner planner = Planner::measure;
   FftCostTable costs;  // the cache's, at start
   // Reconcile jobs write excerpts beside their page (a job may say

@@ -3,6 +3,7 @@
 #include <spdlog/spdlog.h>
 
 #include "godwit/locate_report.h"
+#include "job_priority.h"
 
 namespace godwit {
 
@@ -21,6 +22,8 @@ void WorkerPool::drain() {
 }
 
 void WorkerPool::loop() {
+  if (!lower_this_thread_priority(runner_.config().job_nice))
+    spdlog::warn("cannot lower the priority of a job thread; jobs compete with requests");
   while (auto job = store_.take()) {
     const std::string id = job->id;
     spdlog::info("job {} started ({})", id, job->spec.value("kind", ""));

@@ -914,6 +914,24 @@ class DaemonTests(unittest.TestCase):
         self.assertEqual(os.listdir(os.path.join(d.state, "inline")) if os.path.isdir(os.path.join(d.state, "inline"))
                          else [], [])
 
+    def test_job_threads_run_below_request_threads(self):
+        # Requests stay fast while jobs keep every core busy: the threads
+        # running a job (and the engine's, which inherit it) are nicer by
+        # job_nice than the ones answering requests.
+        d = self.start(extra_config="job_nice = 7\n")
+        c = d.connect()
+        job = c.req({"op": "submit", "job": long_job()})["job"]
+        wait_state(c, job, ("running",))
+        nice = {}
+        for tid in os.listdir(f"/proc/{d.proc.pid}/task"):
+            with open(f"/proc/{d.proc.pid}/task/{tid}/stat") as f:
+                fields = f.read().rsplit(")", 1)[1].split()
+            nice[int(tid)] = int(fields[16])  # field 19 of proc(5), counted after the name
+        self.assertEqual(nice[d.proc.pid], 0, nice)  # the I/O thread
+        self.assertIn(7, nice.values(), nice)
+        self.assertEqual(set(nice.values()), {0, 7}, nice)
+        self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
+
     def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
         d = self.start(extra_config="[limits]\nmax_connections = 8\nmax_connections_per_address = 4\n"
                                     "idle_timeout_s = 2\nwatch_heartbeat_s = 1\n")
