@@ -1,7 +1,9 @@
 #!/usr/bin/python3
-"""godwitd benchmark: request latency under load, and job throughput vs the CLI.
+"""godwitd benchmark: request latency under load, with and without hostile
+clients, and job throughput vs the CLI.
 
-Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 4] [--clients 50] [--seconds 5]
+Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--clients 50] [--seconds 5]
+                       [--hostile] [--hostile-seconds 10] [--no-throughput]
 
 1. The same locate jobs (the demo library against each of the demo's three
    aircheck files, repeated) run once through `godwit locate` one after
@@ -9,9 +11,19 @@ Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 4] [--c
    threads): total wall time side by side, overhead in percent (target < 5).
 2. While a long job runs, `clients` connections each send status and health
    requests back to back for `seconds`: p50 and p99 latency.
+3. With --hostile, the same again for --hostile-seconds, first alone and
+   then while hostile clients (hostile_clients.py: 100 000-deep nesting,
+   32 MiB lines, 16 MiB requests, slowloris lines, connection floods,
+   invalid UTF-8, binary garbage) hammer the daemon from other loopback
+   addresses: latency side by side (target: p99 of status <= 10 ms), and
+   per hostile kind the requests answered or closed within their deadline
+   (target: all). Well-behaved and hostile clients run in two processes
+   of their own (asyncio; threads), apart from this one.
 """
 import argparse
+import asyncio
 import json
+import multiprocessing
 import os
 import shutil
 import socket
@@ -19,6 +31,66 @@ import subprocess
 import tempfile
 import threading
 import time
+
+import hostile_clients
+
+READ_TIMEOUT_S = 3  # the daemon's, in this benchmark: slowloris lines are closed within the run
+
+
+def well_behaved(port, job, clients, seconds, queue, start_at):
+    """`clients` connections, each sending status and health back to back; their latencies by op."""
+    async def one(k, lat, stop):
+        reader, writer = await asyncio.open_connection("127.0.0.1", port)
+        reqs = [(json.dumps({"op": "status", "job": job}) + "\n").encode(), b'{"op":"health"}\n']
+        n = k
+        while time.time() < stop:
+            op = n % 2
+            t = time.perf_counter()
+            writer.write(reqs[op])
+            line = await reader.readline()
+            lat[op].append(time.perf_counter() - t)
+            if not json.loads(line)["ok"]:
+                raise AssertionError(line)
+            n += 1
+        writer.close()
+
+    async def all_clients():
+        lat = ([], [])
+        while time.time() < start_at:
+            await asyncio.sleep(0.005)
+        stop = time.time() + seconds
+        await asyncio.gather(*(one(k, lat, stop) for k in range(clients)))
+        return lat
+
+    status, health = asyncio.run(all_clients())
+    queue.put({"status": status, "health": health})
+
+
+def percentiles(xs):
+    xs = sorted(xs)
+    if not xs:
+        return {"n": 0}
+    return {"n": len(xs), "p50_ms": 1e3 * xs[len(xs) // 2], "p99_ms": 1e3 * xs[int(len(xs) * 0.99)],
+            "max_ms": 1e3 * xs[-1]}
+
+
+def latency_run(port, job, clients, seconds, hostile):
+    """Well-behaved clients for `seconds` (and hostile ones beside them): their percentiles, the hostile tally."""
+    ctx = multiprocessing.get_context("fork")
+    q_good, q_bad = ctx.Queue(), ctx.Queue()
+    start_at = time.time() + 1.0  # both processes connect first
+    good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at))
+    procs = [good]
+    if hostile:
+        procs.append(ctx.Process(target=hostile_clients.run, args=(port, seconds, READ_TIMEOUT_S, q_bad, start_at)))
+    for p in procs:
+        p.start()
+    lat = q_good.get(timeout=seconds + 120)
+    tally = q_bad.get(timeout=seconds + 120) if hostile else None
+    for p in procs:
+        p.join(60)
+    return {"status": percentiles(lat["status"]), "health": percentiles(lat["health"]),
+            "all": percentiles(lat["status"] + lat["health"])}, tally
 
 
 def main():
@@ -29,6 +101,9 @@ def main():
     ap.add_argument("--jobs", type=int, default=6)
     ap.add_argument("--clients", type=int, default=50)
     ap.add_argument("--seconds", type=float, default=5)
+    ap.add_argument("--hostile", action="store_true", help="also measure latency beside hostile clients")
+    ap.add_argument("--hostile-seconds", type=float, default=10)
+    ap.add_argument("--no-throughput", action="store_true", help="skip the throughput comparison")
     a = ap.parse_args()
     tmp = tempfile.mkdtemp(prefix="godwit-dbench-")
     daemon = None
@@ -39,7 +114,7 @@ def main():
         jobs = [[recs[i % 3]] * 4 for i in range(a.jobs)]  # 20 min of audio each
         common = ["--planner", "estimate", "--cache-dir", "", "--threads", "2", "-q"]
         t0 = time.time()
-        for r in jobs:
+        for r in ([] if a.no_throughput else jobs):
             args = [a.godwit, "locate", "--library", f"{demo}/library", *sum((["--recording", x] for x in r), []), *common]
             subprocess.run(args, check=True, capture_output=True)
         cli_s = time.time() - t0
@@ -47,7 +122,7 @@ def main():
         cfg = os.path.join(tmp, "d.toml")
         open(cfg, "w").write(f'listen = "127.0.0.1:0"\nstate_dir = "{tmp}/state"\nroots = ["{demo}"]\n'
                              f'library = "{demo}/library"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 2\n'
-                             f'log_level = "warn"\n')
+                             f'log_level = "warn"\n[limits]\nread_timeout_s = {READ_TIMEOUT_S}\n')
         daemon = subprocess.Popen([a.godwitd, "--config", cfg], stdout=subprocess.PIPE, text=True)
         port = json.loads(daemon.stdout.readline())["port"]
 
@@ -61,18 +136,26 @@ def main():
             return json.loads(f.readline())
 
         s, f = conn()
-        t0 = time.time()
-        ids = [req(f, {"op": "submit", "job": {"kind": "locate", "recordings": r}})["job"] for r in jobs]
-        for i in ids:
-            while req(f, {"op": "status", "job": i})["state"] not in ("done", "failed"):
-                time.sleep(0.05)
-        daemon_s = time.time() - t0
-        print(f"throughput: {a.jobs} locate jobs of 20 min audio, 6 masters, 2 engine threads")
-        print(f"  godwit locate (one after another)   {cli_s:7.2f} s")
-        print(f"  godwitd (submitted together)        {daemon_s:7.2f} s")
-        print(f"  overhead {100 * (daemon_s / cli_s - 1):+.1f} %   (target < 5 %)")
+        if not a.no_throughput:
+            t0 = time.time()
+            ids = [req(f, {"op": "submit", "job": {"kind": "locate", "recordings": r}})["job"] for r in jobs]
+            for i in ids:
+                while req(f, {"op": "status", "job": i})["state"] not in ("done", "failed"):
+                    time.sleep(0.05)
+            daemon_s = time.time() - t0
+            print(f"throughput: {a.jobs} locate jobs of 20 min audio, 6 masters, 2 engine threads")
+            print(f"  godwit locate (one after another)   {cli_s:7.2f} s")
+            print(f"  godwitd (submitted together)        {daemon_s:7.2f} s")
+            print(f"  overhead {100 * (daemon_s / cli_s - 1):+.1f} %   (target < 5 %)", flush=True)
 
-        long_job = req(f, {"op": "submit", "job": {"kind": "locate", "recordings": recs * 20}})["job"]
+        # Untimed names (hard links: a symbolic link would resolve to the
+        # timed name): each file is searched on its own, whereas the timed
+        # originals repeated would be one timeline searched once.
+        loops = []
+        for i in range(300 if a.hostile else 60):
+            loops.append(os.path.join(demo, "airchecks", f"loop-{i:03d}.flac"))
+            os.link(recs[i % 3], loops[-1])
+        long_job = req(f, {"op": "submit", "job": {"kind": "locate", "recordings": loops}})["job"]
         lat = []
         lock = threading.Lock()
         stop = time.time() + a.seconds
@@ -95,10 +178,36 @@ def main():
         [t.join() for t in threads]
         lat.sort()
         running = req(f, {"op": "status", "job": long_job})["state"]
-        req(f, {"op": "cancel", "job": long_job})
         print(f"latency: {a.clients} clients, status+health back to back for {a.seconds:.0f} s while a job runs ({running})")
         print(f"  requests {len(lat)}   p50 {1e3 * lat[len(lat) // 2]:.2f} ms   p99 {1e3 * lat[int(len(lat) * 0.99)]:.2f} ms"
-              f"   max {1e3 * lat[-1]:.2f} ms")
+              f"   max {1e3 * lat[-1]:.2f} ms", flush=True)
+        if a.hostile:
+            runs = {}
+            for hostile in (False, True):
+                runs[hostile] = latency_run(port, long_job, a.clients, a.hostile_seconds, hostile)
+            running = req(f, {"op": "status", "job": long_job})["state"]
+            print(f"latency beside hostile clients: {a.clients} well-behaved clients (asyncio, own process), "
+                  f"status+health back to back for {a.hostile_seconds:.0f} s while a job runs ({running}), "
+                  f"alone and beside hostile clients (own process); daemon read_timeout_s = {READ_TIMEOUT_S}")
+            print(f"  {'':24} {'alone':>28} {'beside hostile clients':>28}")
+            for op in ("status", "health", "all"):
+                cells = []
+                for hostile in (False, True):
+                    p = runs[hostile][0][op]
+                    cells.append(f"n {p['n']:6d} p50 {p['p50_ms']:5.2f} p99 {p['p99_ms']:6.2f}")
+                print(f"  {op + ' (ms)':24} {cells[0]:>28} {cells[1]:>28}")
+            for op in ("status", "all"):
+                print(f"  max {op} (ms)             {runs[False][0][op]['max_ms']:28.2f} {runs[True][0][op]['max_ms']:28.2f}")
+            print(f"  target: p99 of status <= 10 ms beside hostile clients: "
+                  f"{'met' if runs[True][0]['status']['p99_ms'] <= 10 else 'MISSED'}")
+            tally = runs[True][1]
+            print(f"  hostile requests answered (or, for unfinished lines, closed) within their deadline:")
+            for kind, t in sorted(tally.items()):
+                print(f"    {kind:10} {t['within_deadline']:6d} of {t['requests']:6d}   missed {t['missed']:4d}"
+                      f"   worst {t['worst_s']:.3f} s")
+            print(f"  target: all within their deadline: "
+                  f"{'met' if all(t['missed'] == 0 for t in tally.values()) else 'MISSED'}", flush=True)
+        req(f, {"op": "cancel", "job": long_job})
     finally:
         if daemon and daemon.poll() is None:
             daemon.terminate()
