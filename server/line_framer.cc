@@ -1,24 +1,26 @@
 #include "line_framer.h"
 
-#include <algorithm>
-
 namespace godwit {
 
 std::vector<LineFramer::Event> LineFramer::feed(std::string_view bytes) {
   std::vector<Event> out;
-  // One allocation for the events, however many lines the bytes hold (a
-  // read of pipelined requests, or of nothing but newlines).
-  out.reserve(static_cast<size_t>(std::count(bytes.begin(), bytes.end(), '\n')) + 1);
   size_t pos = 0;
   while (pos < bytes.size()) {
     const size_t nl = bytes.find('\n', pos);
     const size_t end = nl == std::string_view::npos ? bytes.size() : nl;
     if (!skipping_) {
-      buf_.append(bytes.substr(pos, end - pos));
-      if (buf_.size() > max_) {
-        buf_.clear();
+      const std::string_view piece = bytes.substr(pos, end - pos);
+      if (buf_.size() + piece.size() > max_) {
+        std::string().swap(buf_);  // a hostile line's memory goes back at once
         skipping_ = true;
         out.push_back({Event::too_long, {}});
+      } else {
+        // A long line gets room for the longest at once (address space;
+        // pages are touched as bytes arrive): growing by doubling copied up
+        // to 16 MiB within one read, stalling every connection of the I/O
+        // thread for tens of milliseconds.
+        if (buf_.size() + piece.size() > kReserveAllFromBytes && buf_.capacity() < max_) buf_.reserve(max_);
+        buf_.append(piece);
       }
     }
     if (nl == std::string_view::npos) break;

@@ -1,5 +1,7 @@
 // LineFramer: splits a byte stream into request lines, never buffering more
-// than `max_line_bytes` of one line.
+// than `max_line_bytes` of one line. A line over 256 KiB reserves
+// `max_line_bytes` of address space at once, so no read copies a long line
+// to grow it; a line over the limit frees its buffer.
 //
 // feed() takes bytes and returns events in order: a complete line (without
 // its "\n" and any "\r"), or `too_long` once for a line that exceeded the
@@ -27,6 +29,7 @@ class LineFramer {
   size_t pending() const { return buf_.size(); }
 
  private:
+  static constexpr size_t kReserveAllFromBytes = 256u << 10;
   size_t max_;
   std::string buf_;
   bool skipping_ = false;
