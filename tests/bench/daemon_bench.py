@@ -11,8 +11,10 @@ Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--c
    threads): total wall time side by side, overhead in percent (target < 5).
 2. While a long job runs, `clients` connections each send status and health
    requests back to back for `seconds`: p50 and p99 latency.
-3. With --hostile, the same again for --hostile-seconds, first alone and
-   then while hostile clients (hostile_clients.py: 100 000-deep nesting,
+3. With --hostile, the same again for --hostile-seconds (clients back to
+   back, then each sending one request every 20 ms: 2 500 requests a
+   second in all, as well-behaved clients that poll would), each first
+   alone and then while hostile clients (hostile_clients.py: 100 000-deep nesting,
    32 MiB lines, 16 MiB requests, slowloris lines, connection floods,
    invalid UTF-8, binary garbage) hammer the daemon from other loopback
    addresses: latency side by side (target: p99 of status <= 10 ms), and
@@ -25,6 +27,7 @@ import asyncio
 import json
 import multiprocessing
 import os
+import resource
 import shutil
 import socket
 import subprocess
@@ -37,13 +40,18 @@ import hostile_clients
 READ_TIMEOUT_S = 3  # the daemon's, in this benchmark: slowloris lines are closed within the run
 
 
-def well_behaved(port, job, clients, seconds, queue, start_at):
-    """`clients` connections, each sending status and health back to back; their latencies by op."""
+def well_behaved(port, job, clients, seconds, queue, start_at, interval_s):
+    """`clients` connections, each sending status and health alternately: back to back (interval_s 0), or
+    one every interval_s (a late answer delays the next request, no burst follows); latencies by op."""
     async def one(k, lat, stop):
         reader, writer = await asyncio.open_connection("127.0.0.1", port)
         reqs = [(json.dumps({"op": "status", "job": job}) + "\n").encode(), b'{"op":"health"}\n']
         n = k
+        due = time.perf_counter() + interval_s * k / clients  # spread over the interval
         while time.time() < stop:
+            if interval_s:
+                await asyncio.sleep(max(0.0, due - time.perf_counter()))
+                due = max(due + interval_s, time.perf_counter())
             op = n % 2
             t = time.perf_counter()
             writer.write(reqs[op])
@@ -74,12 +82,30 @@ def percentiles(xs):
             "max_ms": 1e3 * xs[-1]}
 
 
-def latency_run(port, job, clients, seconds, hostile):
-    """Well-behaved clients for `seconds` (and hostile ones beside them): their percentiles, the hostile tally."""
+def machine_cpu_s():
+    """CPU seconds the whole machine spent busy, and in all."""
+    with open("/proc/stat") as f:
+        v = [int(x) for x in f.readline().split()[1:]]
+    tick = os.sysconf("SC_CLK_TCK")
+    return (sum(v) - v[3] - v[4]) / tick, sum(v) / tick
+
+
+def process_cpu_s(pid):
+    with open(f"/proc/{pid}/stat") as f:
+        v = f.read().rsplit(")", 1)[1].split()
+    return (int(v[11]) + int(v[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid=None):
+    """Well-behaved clients for `seconds` (and hostile ones beside them): their percentiles, the hostile tally,
+    and where the machine's CPU went meanwhile (cores busy: the daemon, the clients, everything else)."""
+    busy0, all0 = machine_cpu_s()
+    d0 = process_cpu_s(daemon_pid) if daemon_pid else 0
+    c0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     ctx = multiprocessing.get_context("fork")
     q_good, q_bad = ctx.Queue(), ctx.Queue()
     start_at = time.time() + 1.0  # both processes connect first
-    good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at))
+    good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at, interval_s))
     procs = [good]
     if hostile:
         procs.append(ctx.Process(target=hostile_clients.run, args=(port, seconds, READ_TIMEOUT_S, q_bad, start_at)))
@@ -89,8 +115,15 @@ def latency_run(port, job, clients, seconds, hostile):
     tally = q_bad.get(timeout=seconds + 120) if hostile else None
     for p in procs:
         p.join(60)
+    busy1, all1 = machine_cpu_s()
+    c1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    wall = (all1 - all0) / os.cpu_count()
+    daemon = (process_cpu_s(daemon_pid) - d0) if daemon_pid else 0
+    clients_s = (c1.ru_utime + c1.ru_stime) - (c0.ru_utime + c0.ru_stime)
+    cpu = {"busy": (busy1 - busy0) / wall, "daemon": daemon / wall, "clients": clients_s / wall,
+           "others": (busy1 - busy0 - daemon - clients_s) / wall}
     return {"status": percentiles(lat["status"]), "health": percentiles(lat["health"]),
-            "all": percentiles(lat["status"] + lat["health"])}, tally
+            "all": percentiles(lat["status"] + lat["health"]), "cpu": cpu}, tally
 
 
 def main():
@@ -181,13 +214,15 @@ def main():
         print(f"latency: {a.clients} clients, status+health back to back for {a.seconds:.0f} s while a job runs ({running})")
         print(f"  requests {len(lat)}   p50 {1e3 * lat[len(lat) // 2]:.2f} ms   p99 {1e3 * lat[int(len(lat) * 0.99)]:.2f} ms"
               f"   max {1e3 * lat[-1]:.2f} ms", flush=True)
-        if a.hostile:
+        for interval_s in ([0.0, 0.02] if a.hostile else []):
             runs = {}
             for hostile in (False, True):
-                runs[hostile] = latency_run(port, long_job, a.clients, a.hostile_seconds, hostile)
+                runs[hostile] = latency_run(port, long_job, a.clients, a.hostile_seconds, hostile, interval_s,
+                                            daemon.pid)
             running = req(f, {"op": "status", "job": long_job})["state"]
+            pace = "back to back" if not interval_s else f"each one request every {1e3 * interval_s:.0f} ms"
             print(f"latency beside hostile clients: {a.clients} well-behaved clients (asyncio, own process), "
-                  f"status+health back to back for {a.hostile_seconds:.0f} s while a job runs ({running}), "
+                  f"status+health {pace} for {a.hostile_seconds:.0f} s while a job runs ({running}), "
                   f"alone and beside hostile clients (own process); daemon read_timeout_s = {READ_TIMEOUT_S}")
             print(f"  {'':24} {'alone':>28} {'beside hostile clients':>28}")
             for op in ("status", "health", "all"):
@@ -198,6 +233,8 @@ def main():
                 print(f"  {op + ' (ms)':24} {cells[0]:>28} {cells[1]:>28}")
             for op in ("status", "all"):
                 print(f"  max {op} (ms)             {runs[False][0][op]['max_ms']:28.2f} {runs[True][0][op]['max_ms']:28.2f}")
+            cells = [" ".join(f"{k} {v:.2f}" for k, v in runs[h][0]["cpu"].items()) for h in (False, True)]
+            print(f"  cores busy: {cells[0]}  |  {cells[1]}   (of {os.cpu_count()}; others: not this benchmark)")
             print(f"  target: p99 of status <= 10 ms beside hostile clients: "
                   f"{'met' if runs[True][0]['status']['p99_ms'] <= 10 else 'MISSED'}")
             tally = runs[True][1]
