@@ -47,8 +47,12 @@ def request_seeds():
         "cancel-queued": b'{"op":"cancel","job":"j00000000000000q"}\n{"op":"cancel","job":"j00000000000000d"}\n'
                          b'{"op":"jobs"}\n',
         "watch": b'{"op":"watch"}\n{"op":"watch","job":"j00000000000000q"}\n',
+        "files": b'{"op":"files","job":"j00000000000000d"}\n{"op":"file","job":"j00000000000000d","name":"listen/S1.opus"}\n'
+                 b'{"op":"file","job":"j00000000000000d","name":"../j00000000000000d.json"}\n',
         "submit-locate": ('{"op":"submit","id":7,"job":{"kind":"locate","recordings":["%s","%s"],"library":"%s",'
                           '"threshold":0.4}}\n' % (REC, REC2, LIB)).encode(),
+        "submit-reconcile-zone": ('{"op":"submit","job":{"kind":"reconcile","library":"%s","schedule":"%s/log-2026-03-14.csv",'
+                                  '"recordings":["%s"],"time_zone":"Europe/Berlin","excerpts":false}}\n' % (LIB, R, REC)).encode(),
         "submit-templates": ('{"op":"submit","job":{"kind":"locate","recordings":["%s"],"templates":["%s/spot-a.wav",'
                              '"%s/spot-b.flac"],"fft_size":65536,"max_speed_change_pct":0}}\n'
                              % (REC, LIB, LIB)).encode(),
@@ -90,6 +94,12 @@ def log_seeds():
         "windows": b"slot,spot,planned,window_s\nA,a,2026-03-14T06:00:00,-1\nB,a,2026-03-14T06:00:00,nan\n"
                    b"C,a,2026-03-14T06:00:00,1e999\nD,a,2026-03-14T06:00:00,0x10\nE,a,2026-03-14T06:00:00, 5 \n",
         "no-header": b"S1,a,2026-03-14T06:00:00\n",
+        "semicolons-aliases": b"Placement ID;Cart;Air Time;Tolerance\r\n1;marlow;2026-03-14 06:00;30,5\r\n2;\"a;b\";2026-03-14 06:05:10,25;\r\n;;;\r\n",
+        "tabs-offsets": b"slot\tspot\tplanned\nA\ta\t2026-03-29T01:30:00Z\nB\tb\t2026-10-25T02:30:00+02:00\nC\tc\t2026-10-25 00:30z\n"
+                        b"D\td\t20260314T0615+0530\nE\te\t2026-03-14T06:15:00+19:00\n",
+        "twice-named": b"slot,spot,time,Air Time\nS1,a,2026-03-14T06:00:00,2026-03-14T06:00:00\n",
+        "utf16": "slot,spot,planned\nS1,a,2026-03-14T06:00:00\n".encode("utf-16"),
+        "short-rows": b"slot,spot,planned,window_s\nS1,a\nS2,b,2026-03-14T06:00:00,5,extra\nS3,c,2026-03-14T06:00:00,86401\n",
         "blank": b"\n\n   \n#only\n",
     }
 
@@ -109,6 +119,9 @@ def name_seeds():
         "far": b"9999-12-31T23:59:59.999999",
         "year0": b"0000-01-01T00:00:00.5",
         "latin1": b"h\xe9-20260314T060000.flac",
+        "written-space": b"2026-03-14 06:15",
+        "written-offset": b"2026-03-14T06:15:00.123456789-05:30",
+        "written-basic-z": b"20260314T0615Z",
     }
 
 
@@ -117,6 +130,7 @@ DICTIONARY = [
     '"submit"', '"status"', '"result"', '"cancel"', '"jobs"', '"watch"', '"health"', '"cluster"',
     '"locate"', '"reconcile"', '"segment"', '"recordings"', '"templates"', '"library"', '"schedule"', '"inline"',
     '"window_s"', '"threshold"', '"floor_k"', '"fft_size"', '"max_speed_change_pct"', '"audio_base64"', '"format"',
+    '"files"', '"file"', '"name"', '"excerpts"', '"time_zone"', '"Europe/Berlin"', '"listen/S1.opus"', '"reconcile.html"',
     '"queued"', '"running"', '"done"', '"failed"', '"cancelled"',
     '"j00000000000000d"', '"j00000000000000f"', '"j00000000000000q"', '"j00000000000000c"',
     f'"{TOKEN}"', '"2026-12-01T00:00:01Z/j00000000000000d"',

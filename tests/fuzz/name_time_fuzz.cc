@@ -13,6 +13,11 @@
 //     and its text has the fixed shape YYYY-MM-DDTHH:MM:SS[.f...] (unless
 //     it rounds past 9999-12-31T23:59:59, where four-digit years end);
 //   - a name that parses as ISO 8601 round-trips the same way;
+//   - what format_iso8601_local writes, read_written_date_time (the planned
+//     log's reader) reads as the same local time, without an offset;
+//   - read_written_date_time on the name itself: a time it reads has an
+//     offset within 18 hours and as many fraction digits as it can hold,
+//     and written back without the offset round-trips the same way;
 //   - a time from a name is a whole second of a year 0000-9999.
 #include <cmath>
 #include <cstdio>
@@ -55,6 +60,9 @@ void check_round_trip(LocalSeconds t, const std::string& from) {
     const double tolerance = 0.5 * std::pow(10.0, -d) + std::fabs(t) * 4e-16 + 1e-9;
     if (!(std::fabs(*back - t) <= tolerance))
       fail("round trip of " + from + " at " + std::to_string(d) + " decimals: " + text);
+    const DateTimeReading written = read_written_date_time(text);
+    if (!written.ok() || written.time.utc_offset_s || !(std::fabs(written.time.wall - *back) <= 1e-6))
+      fail("read_written_date_time reads format_iso8601_local's " + text + " otherwise");
   }
 }
 
@@ -74,5 +82,15 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
     }
   }
   if (const auto t = parse_iso8601_local(name)) check_round_trip(*t, name);
+  const DateTimeReading written = read_written_date_time(name);
+  if (written.ok()) {
+    if (written.time.utc_offset_s && std::abs(*written.time.utc_offset_s) > 18 * 3600) fail("an offset over 18 h: " + name);
+    if (written.time.fraction_digits < 0 || written.time.fraction_digits > 9) fail("fraction digits out of range: " + name);
+    // The last microseconds of 9999 round to 10000-01-01 in a double.
+    if (written.time.wall >= kYear0 && written.time.wall <= kYear10000) check_round_trip(written.time.wall, name);
+    else fail("a written time outside years 0000-9999: " + name);
+  } else if (written.fault == DateTimeFault::none) {
+    fail("not ok without a fault");
+  }
   return 0;
 }

@@ -3,10 +3,10 @@
 //
 // The input is expanded first (byte_expansion.h), so a few bytes can stand
 // for a 32 MiB line or an array nested 100 000 deep in any field. Each
-// input meets a fresh state folder holding four jobs (done with a result,
-// failed, queued, cancelled) and roots holding a real library, recording
-// and planned log, so submit, status, result, cancel, jobs and watch all
-// reach their real work (paths resolved, audio opened, the journal
+// input meets a fresh state folder holding four jobs (done with a result
+// and report files, failed, queued, cancelled) and roots holding a real
+// library, recording and planned log, so submit, status, result, files,
+// file, cancel, jobs and watch all reach their real work (paths resolved, audio opened, the journal
 // appended and fsync'ed, inline spots written). Two dispatchers see every
 // line (the second only those up to 1 MiB): one without a token, one
 // requiring "fuzz-token-0123456789".
@@ -92,6 +92,10 @@ void seed_state(const World& w) {
   std::ofstream(w.state / "results" / "j00000000000000d.json", std::ios::binary)
       << R"({"analysis_rate_hz":8000.0,"complete":true,"matches":[],"recordings":[],"templates":[]})"
       << "\n";
+  // The done job's report files, for `files` and `file`.
+  fs::create_directories(w.state / "results" / "j00000000000000d" / "listen", ec);
+  std::ofstream(w.state / "results" / "j00000000000000d" / "reconcile.html", std::ios::binary) << "<!doctype html>\n";
+  std::ofstream(w.state / "results" / "j00000000000000d" / "listen" / "S1.opus", std::ios::binary) << "OggS";
 }
 
 // The events of framing `bytes` in pieces of `piece(k)` bytes (k counts the
