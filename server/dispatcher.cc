@@ -247,6 +247,11 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     r["ok"] = true;
     return {r, false, {}};
   }
+  if (auto extra = extra_ops_.find(op); extra != extra_ops_.end()) {
+    auto r = extra->second(req);
+    if (!r) return {error_response(r.error().code, r.error().message), false, {}};
+    return {r.value(), false, {}};
+  }
   return {error_response(ErrorCode::bad_request, "unknown op '" + op + "'"), false, {}};
 }
 

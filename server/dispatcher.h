@@ -20,6 +20,7 @@
 
 #include <chrono>
 #include <functional>
+#include <map>
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
@@ -46,6 +47,11 @@ class Dispatcher {
   void set_token(std::string token);
   // Queue mode: the cluster's state (task_queue.h), for `cluster` and `health`.
   void set_cluster_info(std::function<Result<nlohmann::json>()> info) { cluster_info_ = std::move(info); }
+  // An op served by another module (the record's `airings`, `proof`):
+  // request object in, response object (with "ok": true) or an error out.
+  // Call before serving.
+  using OpHandler = std::function<Result<nlohmann::json>(const nlohmann::json& request)>;
+  void add_op(std::string name, OpHandler handler) { extra_ops_[std::move(name)] = std::move(handler); }
   Reply handle(std::string_view line) const;
   static nlohmann::json error_response(ErrorCode code, const std::string& message);
 
@@ -55,6 +61,7 @@ class Dispatcher {
   const JobRunner& runner_;
   size_t workers_;
   std::function<Result<nlohmann::json>()> cluster_info_;
+  std::map<std::string, OpHandler> extra_ops_;
   std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
   mutable std::mutex token_mu_;
   std::string token_;  // GUARDED_BY(token_mu_)

@@ -9,6 +9,7 @@
 #include "godwit/version.h"
 #include "locate_command.h"
 #include "reconcile_command.h"
+#include "record_commands.h"
 
 int main(int argc, char** argv) {
   CLI::App app{"godwit: find where known audio clips (spots) aired in broadcast recordings"};
@@ -17,6 +18,7 @@ int main(int argc, char** argv) {
   auto locate = godwit::add_locate_command(app);
   auto reconcile = godwit::add_reconcile_command(app);
   auto client = godwit::add_client_commands(app);
+  auto record = godwit::add_record_commands(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -25,6 +27,7 @@ int main(int argc, char** argv) {
   try {
     if (app.got_subcommand("locate")) return locate();
     if (app.got_subcommand("reconcile")) return reconcile();
+    if (app.got_subcommand("airings") || app.got_subcommand("proof")) return record();
     return client();
   } catch (const std::exception& e) {
     std::cerr << "godwit: internal error: " << e.what() << "\n";

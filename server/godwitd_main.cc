@@ -22,6 +22,8 @@
 #include "job_store.h"
 #include "path_guard.h"
 #include "queue_worker.h"
+#include "record_ops.h"
+#include "record_store.h"
 #include "server.h"
 #include "worker_pool.h"
 #include "json_text.h"
@@ -200,10 +202,17 @@ int main(int argc, char** argv) {
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   rc.excerpts = cfg.excerpts;
+  auto record_r = RecordStore::open(cfg.state_dir);  // STATE/store.sqlite: the store of record
+  if (!record_r) {
+    std::cerr << "godwitd: " << record_r.error().describe() << "\n";
+    return 5;
+  }
+  attach_record(*record_r.value(), rc);
   JobRunner runner(rc, guard);
   remove_orphan_inline_spots(store, rc.inline_dir);
   Dispatcher dispatcher(store, runner, cfg.workers);
   dispatcher.set_token(token);
+  attach_record(*record_r.value(), dispatcher);
 
   std::unique_ptr<DistributedJobs> distributed;
   std::unique_ptr<QueueWorker> queue_worker;

@@ -348,6 +348,10 @@ Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& res
     if (!w) return w.error();
     heard = std::move(w.value());
   }
+  if (config_.on_reconciled)
+    if (auto st = config_.on_reconciled(result, options, spec); !st)
+      return Error{st.error().code, "the store of record was not written: " + st.error().message, st.error().path,
+                   std::nullopt};
   return reconcile_to_json(result, options.loudness, heard ? &*heard : nullptr);
 }
 

@@ -48,6 +48,9 @@ struct RunnerConfig {
   // Reconcile jobs write excerpts beside their page (a job may say
   // "excerpts": false). Default: true.
   bool excerpts = true;
+  // Called with each finished reconciliation, after its report files (the
+  // store of record, record_ops.h); an error fails the job. Empty: none.
+  std::function<Status(const ReconcileResult&, const ReconcileOptions&, const nlohmann::json& prepared)> on_reconciled;
 };
 
 class JobRunner {

@@ -13,6 +13,7 @@
 #include "godwit/html_report.h"
 #include "godwit/reconcile_report.h"
 #include "reconcile_inputs.h"
+#include "reconcile_record.h"
 #include "json_text.h"
 #include "report_files.h"
 
@@ -39,6 +40,8 @@ struct ReconcileArgs {
   double loudness_target_lufs = -23.0;
   bool no_loudness = false;
   bool no_excerpts = false;
+  std::string state_dir;  // the store of record (record_store.h); empty: none
+  std::string station;
   EngineArgs engine;
 };
 
@@ -155,6 +158,16 @@ int run(const ReconcileArgs& a) {
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
+  if (!a.state_dir.empty()) {
+    RecordContext rc;
+    rc.station = a.station;
+    rc.time_zone = a.time_zone;
+    rc.schedule = a.schedule;
+    if (auto st = record_reconcile_in(a.state_dir, r, o, rc); !st) {
+      std::cerr << "godwit: the store of record was not written: " << st.error().describe() << "\n";
+      return 5;
+    }
+  }
   size_t unknown = 0, not_recorded = 0;
   for (const auto& v : r.verdicts) {
     const Placement& p = r.placements[v.placement];
@@ -238,6 +251,12 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_flag("--no-loudness", a->no_loudness, "skip the loudness measurements");
   cmd->add_flag("--no-excerpts", a->no_excerpts,
                 "write no OUT/listen/ excerpts (Opus, mono, about 37 KB per 30 s airing) and no players in the page");
+  cmd->add_option("--state-dir", a->state_dir,
+                  "also keep the result in the store of record DIR/store.sqlite (for `godwit airings` and\n"
+                  "`godwit proof`); re-running a day replaces its rows");
+  cmd->add_option("--station", a->station,
+                  "with --state-dir: the station's name (default: the recordings' file names before their\n"
+                  "timestamp, kestrel-fm-20260314T060000.flac -> kestrel-fm)");
   add_engine_options(cmd, a->engine);
   cmd->footer(
       "Planned log: the delimiter (comma, semicolon, tab) is read from the header; column names ignore\n"
@@ -246,7 +265,8 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
       "Exit codes: 0 done; 2 usage error (bad log header, unknown time zone, options); 3 a master or every\n"
       "recording could not be read; 4 done, but some recording failed; 5 a report could not be written;\n"
       "8 the planned log has no valid row (every row's reason is printed); 9 done, but most placements fall\n"
-      "outside the recorded time (the log's dates and the recordings' disagree); 130 interrupted.");
+      "outside the recorded time (the log's dates and the recordings' disagree); 130 interrupted.\n"
+      "With --state-dir, 5 also when the store of record could not be written (the report files were).");
   return [a]() -> int { return run(*a); };
 }
 

@@ -11,9 +11,8 @@
 #include "json_number.h"
 
 namespace godwit {
-namespace {
 
-std::string esc(const std::string& s) {
+std::string html_escape(const std::string& s) {
   std::string o;
   for (char c : s) {
     switch (c) {
@@ -27,6 +26,26 @@ std::string esc(const std::string& s) {
   }
   return o;
 }
+
+// Text on a verdict colour: dark on the light ones (CIELAB L* over 60).
+static bool light(const std::string& status) { return status == "early" || status == "partial" || status == "not_recorded"; }
+
+// Each verdict's colour as a CSS variable on whatever carries its
+// data-status (rows, marks, chips, legend), and what wears it.
+std::string verdict_palette_css(const std::vector<std::string>& statuses) {
+  std::string c;
+  for (const auto& s : statuses)
+    c += "[data-status=" + s + "]{--c:" + verdict_colour(s) + (light(s) ? ";--ink:#111" : "") + "}";
+  return c + ".chip{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:4px;background:var(--c)}"
+             ".count{background:var(--c);color:var(--ink,#fff)}.swatch{background:var(--c)}"
+             ".swatch.recorded{background:#eef2f7;outline:1px solid #ccd}"
+             "g.slot rect{fill:var(--c);fill-opacity:.3;stroke:var(--c);stroke-width:.8}g.slot line{stroke:var(--c);"
+             "stroke-width:2}g.slot line.link{stroke-width:1;stroke-opacity:.6}rect.detection{fill:var(--c)}\n";
+}
+
+namespace {
+
+std::string esc(const std::string& s) { return html_escape(s); }
 
 std::string fmt(const char* f, double v) {
   char b[64];
@@ -51,21 +70,7 @@ std::string wrappable(const std::string& text) {
   return o;
 }
 
-// Text on a verdict colour: dark on the light ones (CIELAB L* over 60).
-bool light(const std::string& status) { return status == "early" || status == "partial" || status == "not_recorded"; }
-
-// Each verdict's colour as a CSS variable on whatever carries its
-// data-status (rows, marks, chips, legend), and what wears it.
-std::string palette_css(const std::vector<std::string>& statuses) {
-  std::string c;
-  for (const auto& s : statuses)
-    c += "[data-status=" + s + "]{--c:" + verdict_colour(s) + (light(s) ? ";--ink:#111" : "") + "}";
-  return c + ".chip{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:4px;background:var(--c)}"
-             ".count{background:var(--c);color:var(--ink,#fff)}.swatch{background:var(--c)}"
-             ".swatch.recorded{background:#eef2f7;outline:1px solid #ccd}"
-             "g.slot rect{fill:var(--c);fill-opacity:.3;stroke:var(--c);stroke-width:.8}g.slot line{stroke:var(--c);"
-             "stroke-width:2}g.slot line.link{stroke-width:1;stroke-opacity:.6}rect.detection{fill:var(--c)}\n";
-}
+std::string palette_css(const std::vector<std::string>& statuses) { return verdict_palette_css(statuses); }
 
 const std::string kNoAdvertiser = "(no advertiser)";
 

@@ -40,6 +40,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "godwit/excerpt.h"
 #include "godwit/reconcile_job.h"
@@ -75,5 +76,13 @@ ReportHeading report_heading(const std::string& log_name, const ReconcileResult&
 const char* verdict_colour(const std::string& status);
 
 std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions& options);
+
+// Helpers the other pages share (the proof of performance): text escaped
+// for HTML (& < > " '), and the CSS giving each of `statuses` (verdict
+// names, "unscheduled") its colour as --c (and dark text, --ink, on the
+// light ones) on whatever carries its data-status, with the .chip, .count
+// and .swatch classes that wear it.
+std::string html_escape(const std::string& s);
+std::string verdict_palette_css(const std::vector<std::string>& statuses);
 
 }  // namespace godwit
