@@ -40,6 +40,7 @@ inline JobRecord synthetic_day(const SyntheticDay& d) {
   job.station = d.station;
   job.key = d.station + "-" + d.day + "-" + std::to_string(d.variant);
   job.source = "test";
+  job.schedule = "/logs/" + d.station + "-" + d.day + ".csv";
   job.software = "test";
   job.finished_utc = 1700000000;
   job.options_sha256 = sha256_hex("options");

@@ -150,14 +150,18 @@ TEST_CASE("store: re-running a station-day replaces its rows instead of adding t
   c = store->counts().value();
   CHECK(c.detections == first.detections);
   CHECK(c.placements == first.placements);
-  // An edited log with fewer placements: the day holds the new plan only.
+  // An edited log without five of its slots: the day holds the new plan only.
   JobRecord edited = synthetic_day({.airings = 100, .variant = 5});
-  edited.placements.resize(10);
+  edited.placements.erase(edited.placements.begin() + 10, edited.placements.begin() + 15);
   REQUIRE(store->write_job(edited).ok());
-  CHECK(store->counts().value().placements == 10);
-  // Another day of the same station is left alone.
-  REQUIRE(store->write_job(synthetic_day({.day = "2026-03-15", .airings = 100})).ok());
-  CHECK(store->counts().value().placements == 10 + first.placements);
+  CHECK(store->counts().value().placements == first.placements - 5);
+  // Another day of the same station is left alone, though its log's first
+  // placement is of the day before (planned at 23:59, aired late).
+  JobRecord next = synthetic_day({.day = "2026-03-15", .airings = 100});
+  next.placements.front().planned_local = at("2026-03-14T23:59:00");
+  next.placements.front().planned = "2026-03-14T23:59:00";
+  REQUIRE(store->write_job(next).ok());
+  CHECK(store->counts().value().placements == 2 * first.placements - 5);
 }
 
 TEST_CASE("store: airings over several days and two stations, in time order and paged") {

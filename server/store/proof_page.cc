@@ -49,10 +49,15 @@ std::string airing_cells(const nlohmann::json& a, const std::string& deviation) 
   if (!a.is_object()) return "<td colspan=\"8\"></td>";
   const auto& l = sub(a, "loudness");
   std::string version = str(a, "spot");
-  if (sub(a, "version_undetermined_among").is_array() && !sub(a, "version_undetermined_among").empty())
-    version += " <span class=\"small\">(undetermined)</span>";
-  else
+  const auto& among = sub(a, "version_undetermined_among");
+  if (among.is_array() && !among.empty()) {
+    std::string list;
+    for (const auto& s : among)
+      if (s.is_string()) list += (list.empty() ? "" : ", ") + s.get<std::string>();
+    version = "<span class=\"small\">undetermined among</span> " + e(list);
+  } else {
     version = e(version);
+  }
   std::string rec = e(file_name(str(a, "recording")));
   return "<td class=\"time\">" + e(clock(str(a, "aired"))) + "</td><td>" + version + "</td><td class=\"num\">" +
          deviation + "</td><td class=\"num\">" + num(a, "coverage", "%.2f") + "</td><td class=\"num\">" +
@@ -98,7 +103,7 @@ std::string proof_to_html(const nlohmann::json& doc) {
        ".tag{white-space:nowrap}"
        "table{border-collapse:collapse;width:100%;margin-top:4px}th,td{border-bottom:1px solid #e3e6ea;padding:3px 6px;"
        "text-align:left;vertical-align:top}th{font-size:12px;color:#5a6473;font-weight:600;background:#f6f7f9}"
-       "td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}td.owed{font-weight:700}"
+       "td.time{white-space:nowrap}td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}td.owed{font-weight:700}"
        "tr[data-owed=yes] td:first-child{box-shadow:inset 4px 0 0 var(--c)}"
        "td.rec,td.sha{overflow-wrap:anywhere;font-size:12px}td.sha{font-family:ui-monospace,monospace}"
        "section.station{margin-top:30px;border-top:1px solid #c9ced6;padding-top:4px}"
@@ -120,8 +125,8 @@ std::string proof_to_html(const nlohmann::json& doc) {
 
   const auto& totals = sub(doc, "totals");
   h += "<h2>At a glance</h2><div id=\"glance\"><span class=\"count\" style=\"background:#1d2430;color:#fff\">ordered: <b>" +
-       num(totals, "ordered", "%.0f") + "</b></span><span class=\"count\" style=\"background:#fff;border:2px solid "
-       "#1d2430\">owed: <b>" + num(totals, "owed", "%.0f") + "</b></span>";
+       num(totals, "ordered", "%.0f") + "</b></span><span class=\"count owed\" "
+       "style=\"background:#fff;color:#1d2430;border:2px solid #1d2430\">owed: <b>" + num(totals, "owed", "%.0f") + "</b></span>";
   for (const auto& s : statuses())
     h += "<span class=\"count\" data-status=\"" + s + "\">" + s + ": <b>" + num(totals, s.c_str(), "%.0f") + "</b></span>";
   h += "</div>\n";

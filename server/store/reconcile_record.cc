@@ -29,6 +29,14 @@ std::string spans_json(const std::vector<LocalSpan>& list) {
   return a.dump();
 }
 
+// Paths as the store keeps them: absolute, so the record means the same
+// whatever the working folder of the run was.
+std::string absolute_path(const std::string& p) {
+  std::error_code ec;
+  auto a = fs::absolute(p, ec);
+  return ec ? p : a.lexically_normal().string();
+}
+
 void file_stamp(const std::string& path, int64_t& size, int64_t& mtime_ns) {
   std::error_code ec;
   const auto s = fs::file_size(path, ec);
@@ -100,10 +108,10 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
   std::map<std::string, size_t> recording_index;
   for (const auto& s : r.recordings) {
     RecordingRow row;
-    row.path = s.path;
+    row.path = absolute_path(s.path);
     file_stamp(s.path, row.size_bytes, row.mtime_ns);
     std::optional<std::string> known;
-    if (store && row.size_bytes > 0) known = store->known_sha256(job.station, s.path, row.size_bytes, row.mtime_ns);
+    if (store && row.size_bytes > 0) known = store->known_sha256(job.station, row.path, row.size_bytes, row.mtime_ns);
     if (known) {
       row.sha256 = *known;
     } else if (auto h = file_sha256(s.path)) {
@@ -121,7 +129,7 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
   for (const auto& [spot, info] : r.spots) {
     MasterRow m;
     m.spot = spot;
-    m.path = info.path;
+    m.path = absolute_path(info.path);
     if (auto h = file_sha256(info.path)) m.sha256 = h.value();
     m.title = info.meta.title;
     m.advertiser = info.meta.advertiser;
@@ -139,7 +147,7 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
     auto rec = recording_index.find(a.recording);
     if (rec == recording_index.end()) {
       RecordingRow row;
-      row.path = a.recording;
+      row.path = absolute_path(a.recording);
       rec = recording_index.emplace(a.recording, job.recordings.size()).first;
       job.recordings.push_back(std::move(row));
     }

@@ -3,6 +3,7 @@
 #include <ctime>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "airings_query.h"
 #include "json_text.h"
@@ -78,8 +79,20 @@ class Source {
   std::string token_;
 };
 
+// --from and --to checked here, so the messages name the options.
+std::optional<Error> bad_range(const RecordArgs& a) {
+  if (!parse_range_start(a.from))
+    return Error{ErrorCode::usage, "--from must be a date (2026-03-14) or a local date-time (2026-03-14T06:00:00)", "", {}};
+  if (!parse_range_end(a.to))
+    return Error{ErrorCode::usage, "--to must be a date (2026-03-14, through its end) or a local date-time", "", {}};
+  if (*parse_range_end(a.to) < *parse_range_start(a.from))
+    return Error{ErrorCode::usage, "--to is before --from", "", {}};
+  return std::nullopt;
+}
+
 int run_airings(const RecordArgs& a) {
   if (!a.spot.empty() && !a.advertiser.empty()) return fail({ErrorCode::usage, "give --spot or --advertiser, not both", "", {}});
+  if (auto e = bad_range(a)) return fail(*e);
   Source src;
   if (auto st = src.open(a); !st) return fail(st.error());
   nlohmann::json req = request_of("airings", a);
@@ -87,16 +100,15 @@ int run_airings(const RecordArgs& a) {
   const bool csv = a.format == "csv";
   std::string cursor;
   size_t n = 0;
-  if (csv) std::cout << airings_csv_header();
-  else std::cout << "[";
-  for (;;) {
+  for (bool first = true;; first = false) {
     if (!cursor.empty()) req["cursor"] = cursor;
     auto page = src.ask(req);
     if (!page) {
-      if (!csv && n == 0) std::cout << "]\n";
+      if (!first && !csv) std::cout << "\n]\n";  // what was printed stays a valid document
       std::cout.flush();
       return fail(page.error());
     }
+    if (first) std::cout << (csv ? airings_csv_header() : std::string("["));
     for (const auto& j : page.value()["airings"]) {
       if (csv) {
         // The CSV from the JSON, so both sources print alike.
@@ -136,6 +148,7 @@ int run_airings(const RecordArgs& a) {
 
 int run_proof(const RecordArgs& a) {
   if (a.spot.empty() == a.advertiser.empty()) return fail({ErrorCode::usage, "give --advertiser NAME or --spot ID (one of them)", "", {}});
+  if (auto e = bad_range(a)) return fail(*e);
   Source src;
   if (auto st = src.open(a); !st) return fail(st.error());
   auto r = src.ask(request_of("proof", a));

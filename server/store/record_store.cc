@@ -2,8 +2,8 @@
 
 #include <cmath>
 #include <filesystem>
+#include <algorithm>
 #include <map>
-#include <set>
 
 #include "store_schema.h"
 
@@ -293,19 +293,32 @@ Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(
     }
   }
 
-  // Placements: each station-day of the job replaced whole.
-  std::set<std::string> days;
-  for (const auto& p : job.placements) days.insert(day_of(p.planned_local));
-  auto clear = prep("DELETE FROM placements WHERE station_id = ?1 AND day = ?2");
-  if (!clear) return clear.error();
-  for (const auto& d : days) {
-    clear.value().bind(1, station.value()).bind(2, d);
+  // Placements: the station's plan over the span the job's log covers
+  // (first to last planned time), and what an earlier run of the same log
+  // wrote, are replaced by the job's.
+  const std::string plan = std::filesystem::path(job.schedule).filename().string();
+  if (!job.placements.empty()) {
+    LocalSeconds first = job.placements.front().planned_local, last = first;
+    for (const auto& p : job.placements) {
+      first = std::min(first, p.planned_local);
+      last = std::max(last, p.planned_local);
+    }
+    auto clear = prep(
+        "DELETE FROM placements WHERE station_id = ?1 AND ((planned_local >= ?2 AND planned_local <= ?3) OR "
+        "(plan = ?4 AND plan <> ''))");
+    if (!clear) return clear.error();
+    clear.value().bind(1, station.value()).bind(2, first).bind(3, last).bind(4, plan);
     if (auto st = clear.value().run(); !st) return st;
   }
   auto place_st = prep(
       "INSERT INTO placements(station_id, job_id, day, slot, spot, advertiser, title, planned_local, planned, window_s, "
-      "status, deviation_s, detection_id, detected_spot, recorded_json, unrecorded_json, suggestion) "
-      "VALUES(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17)");
+      "status, deviation_s, detection_id, detected_spot, recorded_json, unrecorded_json, suggestion, plan) "
+      "VALUES(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18) "
+      "ON CONFLICT(station_id, slot, planned_local) DO UPDATE SET job_id = excluded.job_id, day = excluded.day, spot = "
+      "excluded.spot, advertiser = excluded.advertiser, title = excluded.title, planned = excluded.planned, "
+      "window_s = excluded.window_s, status = excluded.status, deviation_s = excluded.deviation_s, detection_id = "
+      "excluded.detection_id, detected_spot = excluded.detected_spot, recorded_json = excluded.recorded_json, "
+      "unrecorded_json = excluded.unrecorded_json, suggestion = excluded.suggestion, plan = excluded.plan");
   if (!place_st) return place_st.error();
   for (size_t i = 0; i < job.placements.size(); ++i) {
     if (auto st = hook("placements", i); !st) return st;
@@ -326,7 +339,8 @@ Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(
         .bind(14, p.detected_spot)
         .bind(15, p.recorded_json)
         .bind(16, p.unrecorded_json)
-        .bind(17, p.suggestion);
+        .bind(17, p.suggestion)
+        .bind(18, plan);
     if (p.detection && *p.detection < detection_ids.size()) s.bind(13, detection_ids[*p.detection]);
     else s.bind_null(13);
     if (auto st = s.run(); !st) return st;

@@ -15,9 +15,16 @@
 //               authority on that pair: the pair's detections it did not
 //               find again are deleted (a changed offset, an airing no
 //               longer confirmed), the rest updated in place.
-//   placements  keyed by station + planned day + slot. A job's planned log
-//               is the whole plan of each day it names: the station-day's
-//               placements are replaced by the job's.
+//   placements  keyed by station + slot + planned time (slot ids repeat
+//               from one day's log to the next). A job's planned log
+//               is the whole plan of the time it spans, from its first
+//               planned placement to its last, and replaces what an
+//               earlier run of a log of the same file name wrote: the
+//               station's placements in that span, or from that log, are
+//               replaced by the job's. So a re-run of a day, or of its log
+//               edited (slots removed, times moved), leaves no stale slot,
+//               and a neighbouring day's plan is left alone even when a log
+//               reaches just past midnight.
 //   recordings, masters  upserted by their keys; a file whose content
 //               changed is a new row (the old one keeps its detections).
 //   searches    (recording, master, search-options fingerprint) upserted.

@@ -93,7 +93,8 @@ CREATE TABLE placements(
   recorded_json TEXT NOT NULL DEFAULT '[]',
   unrecorded_json TEXT NOT NULL DEFAULT '[]',
   suggestion TEXT NOT NULL DEFAULT '',
-  UNIQUE(station_id, day, slot));
+  plan TEXT NOT NULL DEFAULT '',        -- the planned log's file name: what a re-run of it replaces
+  UNIQUE(station_id, slot, planned_local));
 CREATE INDEX detections_time ON detections(aired_local);
 CREATE INDEX placements_time ON placements(planned_local);
 )sql",
@@ -113,6 +114,8 @@ CREATE INDEX detections_advertiser_time ON detections(advertiser, aired_local);
 CREATE INDEX detections_pair ON detections(recording_id, master_id);
 CREATE INDEX detections_job ON detections(job_id);
 CREATE INDEX placements_detection ON placements(detection_id);
+CREATE INDEX placements_station_time ON placements(station_id, planned_local);
+CREATE INDEX placements_plan ON placements(station_id, plan);
 CREATE INDEX placements_spot_time ON placements(spot, planned_local);
 CREATE INDEX placements_advertiser_time ON placements(advertiser, planned_local);
 CREATE INDEX recordings_station_start ON recordings(station_id, start_local);
