@@ -17,6 +17,7 @@ double rounded(double v, int decimals) {
 }
 
 nlohmann::json parsed(const std::string& text) {
+  if (text == "[]") return nlohmann::json::array();
   try {
     return nlohmann::json::parse(text);
   } catch (const std::exception&) {
