@@ -12,6 +12,7 @@ $B day --templates 100 --hours 24 --no-speed-search
 $B speed --hours 2
 /usr/bin/python3 tests/bench/daemon_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth --hostile
 build/tests/bench/line_framer_bench
+build/tests/bench/store_bench
 build/tests/bench/accuracy_bench --hours 6 --seed 1
 build/tests/bench/accuracy_bench --hours 6 --seed 2
 /usr/bin/python3 tests/bench/queue_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth

@@ -7,8 +7,9 @@
 //           -> {"ok":true,"airings":[...],"next"?: cursor}
 //   proof   {from, to, advertiser | spot} -> {"ok":true,"proof":{...}}
 //
-// The queries run on the connection's I/O thread: an airings page is
-// bounded (limit) and indexed; a proof reads one advertiser's range.
+// The queries run on the daemon's request handler threads (never its I/O
+// thread): an airings page is bounded (limit) and indexed; a proof reads
+// one advertiser's range.
 //
 // Thread contract: the store must outlive the dispatcher and the runner.
 #pragma once
@@ -26,8 +27,8 @@ namespace godwit {
 Result<nlohmann::json> airings_op(RecordStore& store, const nlohmann::json& req);
 Result<nlohmann::json> proof_op(RecordStore& store, const nlohmann::json& req);
 
-// Registers the ops with `dispatcher` and the hook in `runner` (before the
-// runner is made from it). `time_zone` is the daemon's station zone.
+// Registers the ops with `dispatcher`, and the hook in `runner` (before the
+// JobRunner is made from it; its time_zone is recorded as the station's).
 void attach_record(RecordStore& store, Dispatcher& dispatcher);
 void attach_record(RecordStore& store, RunnerConfig& runner);
 
