@@ -202,17 +202,17 @@ int main(int argc, char** argv) {
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   rc.excerpts = cfg.excerpts;
-  auto record_r = RecordStore::open(cfg.state_dir);  // STATE/store.sqlite: the store of record
-  if (!record_r) {
-    std::cerr << "godwitd: " << record_r.error().describe() << "\n";
-    return 5;
-  }
-  attach_record(*record_r.value(), rc);
+  // STATE/store.sqlite, the store of record. Without it (a full disk, a
+  // store newer than this build) the daemon still runs jobs, unrecorded.
+  auto record_r = RecordStore::open(cfg.state_dir);
+  if (record_r) attach_record(*record_r.value(), rc);
+  else spdlog::error("the store of record is unavailable; reconciliations are not recorded: {}", record_r.error().describe());
   JobRunner runner(rc, guard);
   remove_orphan_inline_spots(store, rc.inline_dir);
   Dispatcher dispatcher(store, runner, cfg.workers);
   dispatcher.set_token(token);
-  attach_record(*record_r.value(), dispatcher);
+  if (record_r) attach_record(*record_r.value(), dispatcher);
+  else attach_record_unavailable(record_r.error(), dispatcher);
 
   std::unique_ptr<DistributedJobs> distributed;
   std::unique_ptr<QueueWorker> queue_worker;

@@ -107,6 +107,13 @@ void attach_record(RecordStore& store, Dispatcher& dispatcher) {
   dispatcher.add_op("proof", [&store](const nlohmann::json& req) { return proof_op(store, req); });
 }
 
+void attach_record_unavailable(const Error& why, Dispatcher& dispatcher) {
+  for (const char* op : {"airings", "proof"})
+    dispatcher.add_op(op, [why](const nlohmann::json&) -> Result<nlohmann::json> {
+      return Error{ErrorCode::unavailable, "the store of record is unavailable: " + why.describe(), "", std::nullopt};
+    });
+}
+
 void attach_record(RecordStore& store, RunnerConfig& runner) {
   runner.on_reconciled = [&store, zone = runner.time_zone](const ReconcileResult& r, const ReconcileOptions& options,
                                                           const nlohmann::json& spec) -> Status {

@@ -31,5 +31,7 @@ Result<nlohmann::json> proof_op(RecordStore& store, const nlohmann::json& req);
 // JobRunner is made from it; its time_zone is recorded as the station's).
 void attach_record(RecordStore& store, Dispatcher& dispatcher);
 void attach_record(RecordStore& store, RunnerConfig& runner);
+// When the store could not be opened: the ops answer `unavailable` with why.
+void attach_record_unavailable(const Error& why, Dispatcher& dispatcher);
 
 }  // namespace godwit
