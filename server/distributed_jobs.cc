@@ -128,7 +128,7 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   ro.locate.should_stop = should_stop;
   auto r = finish_reconcile(rec->job, std::move(plan), std::move(search), ro, std::move(evidence));
   if (!r) return r.error();
-  auto documents = runner_.reconcile_documents(r.value(), spec, ro, rec->title, report, should_stop, warn);
+  auto documents = runner_.reconcile_documents(r.value(), spec, ro, rec->title, report, should_stop, warn, job_id);
   if (!documents) return documents.error();
   nlohmann::json out = std::move(documents.value());
   out["tasks"] = tasks.size();

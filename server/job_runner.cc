@@ -287,7 +287,8 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spe
 
 Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
-                                      const std::function<void(std::string_view)>& warn, const ReportFiles* report) const {
+                                      const std::function<void(std::string_view)>& warn, const ReportFiles* report,
+                                      const std::string& job_id) const {
   FftCostTable costs = this->costs();
   struct KeepCosts {  // whatever the job measured, kept for the next ones
     const JobRunner& runner;
@@ -307,7 +308,7 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     ro.locate.should_stop = should_stop;
     auto r = run_reconcile(rec.value().job, ro);
     if (!r) return r.error();
-    return reconcile_documents(r.value(), spec, ro, rec.value().title, report, should_stop, warn);
+    return reconcile_documents(r.value(), spec, ro, rec.value().title, report, should_stop, warn, job_id);
   }
   LocateOptions lo = locate_options(spec, warn);
   lo.bank.costs = &costs;
@@ -338,7 +339,8 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
 Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& result, const nlohmann::json& spec,
                                                      const ReconcileOptions& options, const std::string& title,
                                                      const ReportFiles* report, const std::function<bool()>& should_stop,
-                                                     const std::function<void(std::string_view)>& warn) const {
+                                                     const std::function<void(std::string_view)>& warn,
+                                                     const std::string& job_id) const {
   std::optional<Listening> heard;
   if (report) {
     ReportFiles f = *report;
@@ -349,7 +351,7 @@ Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& res
     heard = std::move(w.value());
   }
   if (config_.on_reconciled)
-    if (auto st = config_.on_reconciled(result, options, spec); !st)
+    if (auto st = config_.on_reconciled(result, options, spec, job_id); !st)
       return Error{st.error().code, "the store of record was not written: " + st.error().message, st.error().path,
                    std::nullopt};
   return reconcile_to_json(result, options.loudness, heard ? &*heard : nullptr);
@@ -368,9 +370,9 @@ FftCostTable JobRunner::costs() const {
 }
 
 JobExecutor local_executor(const JobRunner& runner) {
-  return [&runner](const std::string&, const nlohmann::json& spec, const std::function<void(double)>& progress,
+  return [&runner](const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
                    const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
-                   const ReportFiles* report) { return runner.run(spec, progress, should_stop, warn, report); };
+                   const ReportFiles* report) { return runner.run(spec, progress, should_stop, warn, report, id); };
 }
 
 }  // namespace godwit

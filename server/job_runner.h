@@ -49,8 +49,11 @@ struct RunnerConfig {
   // "excerpts": false). Default: true.
   bool excerpts = true;
   // Called with each finished reconciliation, after its report files (the
-  // store of record, record_ops.h); an error fails the job. Empty: none.
-  std::function<Status(const ReconcileResult&, const ReconcileOptions&, const nlohmann::json& prepared)> on_reconciled;
+  // store of record, record_ops.h), with the daemon's job id (empty when
+  // unknown); an error fails the job. Empty: none.
+  std::function<Status(const ReconcileResult&, const ReconcileOptions&, const nlohmann::json& prepared,
+                       const std::string& job_id)>
+      on_reconciled;
 };
 
 class JobRunner {
@@ -68,13 +71,15 @@ class JobRunner {
   // names the excerpts; a job with "excerpts": false makes none.
   Result<nlohmann::json> run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
                              const std::function<bool()>& should_stop,
-                             const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr) const;
+                             const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr,
+                             const std::string& job_id = {}) const;
   // A finished reconcile job's documents: its report files written as
   // `report` says (when given), and the JSON. Errors: io, cancelled.
   Result<nlohmann::json> reconcile_documents(const ReconcileResult& result, const nlohmann::json& prepared,
                                              const ReconcileOptions& options, const std::string& title,
                                              const ReportFiles* report, const std::function<bool()>& should_stop,
-                                             const std::function<void(std::string_view)>& warn) const;
+                                             const std::function<void(std::string_view)>& warn,
+                                             const std::string& job_id = {}) const;
   const RunnerConfig& config() const { return config_; }
   // A library's masters (library_scan.h), each of which must resolve under
   // a root (a symlink in the library may lead anywhere), else forbidden.

@@ -305,6 +305,7 @@ class DaemonRecord(unittest.TestCase):
                                      "2026-03-14", "--page", "2").stdout)
                 want = placement_airings(doc)
                 self.assertEqual([(a["aired"], a["status"]) for a in got], [(a["aired"], a["status"]) for a in want])
+                self.assertTrue(all(a["job"].startswith(job["job"] + "@") for a in got), got[0]["job"])
                 out = os.path.join(t, "proof")
                 run("proof", "--connect", f"127.0.0.1:{port}", "--advertiser", "Marlow Bakery", "--from",
                     "2026-03-14", "--to", "2026-03-14", "--out", out)

@@ -116,9 +116,12 @@ void attach_record_unavailable(const Error& why, Dispatcher& dispatcher) {
 
 void attach_record(RecordStore& store, RunnerConfig& runner) {
   runner.on_reconciled = [&store, zone = runner.time_zone](const ReconcileResult& r, const ReconcileOptions& options,
-                                                          const nlohmann::json& spec) -> Status {
+                                                          const nlohmann::json& spec, const std::string& job_id) -> Status {
     RecordContext c;
     c.source = "daemon";
+    // The daemon's job id ("drop-day-2026-03-14" for the drop folder's
+    // day, run again as hours arrive), made unique per run.
+    if (!job_id.empty()) c.key = job_id + "@" + make_job_key("run");
     c.time_zone = spec.value("time_zone", zone);
     c.schedule = spec.value("schedule", "");
     return record_reconcile(store, r, options, c);
