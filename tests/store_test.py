@@ -319,6 +319,59 @@ class DaemonRecord(unittest.TestCase):
             finally:
                 proc.send_signal(signal.SIGTERM)
                 proc.wait(timeout=60)
+                proc.stdout.close()
+                log.close()
+
+
+class DropFolderRecord(unittest.TestCase):
+    """The drop folder's day report, rebuilt as hours arrive, is recorded once per day, not once per hour."""
+
+    def test_day_rebuilt_hour_by_hour_is_recorded_without_duplicates(self):
+        with tempfile.TemporaryDirectory() as t:
+            demo = os.path.join(t, "demo")
+            subprocess.run([ARGS.synth, "demo", "--out", demo], check=True, capture_output=True)
+            state, drop = os.path.join(t, "state"), os.path.join(t, "drop")
+            config = os.path.join(t, "godwitd.toml")
+            with open(config, "w") as f:
+                f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{state}"\nroots = ["{demo}", "{drop}"]\n'
+                        f'library = "{demo}/library"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
+                        'excerpts = false\n')
+            log = open(os.path.join(t, "godwitd.log"), "w")
+            proc = subprocess.Popen([ARGS.godwitd, "--config", config, "--drop", drop, "--schedules",
+                                     f"{demo}/schedules", "--drop-stable-s", "1", "--drop-poll-s", "0.2"],
+                                    stdout=subprocess.PIPE, stderr=log, text=True)
+            try:
+                port = json.loads(proc.stdout.readline())["port"]
+                recs = sorted(os.listdir(os.path.join(demo, "airchecks")))
+                result = os.path.join(drop, "results", "kestrel-fm-2026-03-14.reconcile.json")
+                for i, name in enumerate(recs):  # one hour file at a time, each reconciled before the next
+                    shutil.copy(os.path.join(demo, "airchecks", name), os.path.join(drop, "incoming", name))
+                    end = time.time() + 180
+                    while time.time() < end:
+                        if os.path.exists(result):
+                            with open(result) as f:
+                                doc = json.load(f)
+                            if len(doc["recordings"]) == i + 1:
+                                break
+                        time.sleep(0.3)
+                    if len(doc["recordings"]) != i + 1:
+                        with open(os.path.join(t, "godwitd.log")) as f:
+                            self.fail("the day was not rebuilt with hour %d: %s" % (i + 1, f.read()))
+                time.sleep(0.5)  # the store is written before the day's JSON; nothing else is pending
+                got = json.loads(run("airings", "--connect", f"127.0.0.1:{port}", "--from", "2026-03-14", "--to",
+                                     "2026-03-14").stdout)
+                want = placement_airings(doc)
+                self.assertEqual([(a["aired"], a["status"], a.get("slot")) for a in got],
+                                 [(a["aired"], a["status"], a["slot"]) for a in want])
+                self.assertTrue(all(a["job"].startswith("drop-day-2026-03-14@") for a in got), got[0]["job"])
+                with sqlite3.connect(os.path.join(state, "store.sqlite")) as c:
+                    self.assertEqual(c.execute("SELECT count(*) FROM jobs").fetchone()[0], len(recs))
+                    self.assertEqual(c.execute("SELECT count(*) FROM placements").fetchone()[0], len(doc["placements"]))
+                    self.assertEqual(c.execute("SELECT count(*) FROM detections").fetchone()[0], len(want))
+            finally:
+                proc.send_signal(signal.SIGTERM)
+                proc.wait(timeout=60)
+                proc.stdout.close()
                 log.close()
 
 
