@@ -162,6 +162,12 @@ TEST_CASE("store: re-running a station-day replaces its rows instead of adding t
   next.placements.front().planned = "2026-03-14T23:59:00";
   REQUIRE(store->write_job(next).ok());
   CHECK(store->counts().value().placements == 2 * first.placements - 5);
+  // A log of the same file name for another day ("today.csv" reused) leaves
+  // the earlier days' plans alone.
+  JobRecord reused = synthetic_day({.day = "2026-03-20", .airings = 100});
+  reused.schedule = next.schedule;
+  REQUIRE(store->write_job(reused).ok());
+  CHECK(store->counts().value().placements == 3 * first.placements - 5);
 }
 
 TEST_CASE("store: airings over several days and two stations, in time order and paged") {

@@ -307,11 +307,15 @@ Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(
       first = std::min(first, p.planned_local);
       last = std::max(last, p.planned_local);
     }
+    // The days the log touches, whole: where an earlier run of it may have
+    // left slots its edit moved or removed (a log of the same name for
+    // other days, "today.csv" reused, is left alone).
+    const LocalSeconds first_day = std::floor(first / 86400) * 86400, end_day = std::floor(last / 86400) * 86400 + 86400;
     auto clear = prep(
         "DELETE FROM placements WHERE station_id = ?1 AND ((planned_local >= ?2 AND planned_local <= ?3) OR "
-        "(plan = ?4 AND plan <> ''))");
+        "(plan = ?4 AND plan <> '' AND planned_local >= ?5 AND planned_local < ?6))");
     if (!clear) return clear.error();
-    clear.value().bind(1, station.value()).bind(2, first).bind(3, last).bind(4, plan);
+    clear.value().bind(1, station.value()).bind(2, first).bind(3, last).bind(4, plan).bind(5, first_day).bind(6, end_day);
     if (auto st = clear.value().run(); !st) return st;
   }
   auto place_st = prep(

@@ -19,9 +19,9 @@
 //               from one day's log to the next). A job's planned log
 //               is the whole plan of the time it spans, from its first
 //               planned placement to its last, and replaces what an
-//               earlier run of a log of the same file name wrote: the
-//               station's placements in that span, or from that log, are
-//               replaced by the job's. So a re-run of a day, or of its log
+//               earlier run of a log of the same file name wrote on the
+//               days it spans: the station's placements in that span, or
+//               from that log on those days, are replaced by the job's. So a re-run of a day, or of its log
 //               edited (slots removed, times moved), leaves no stale slot,
 //               and a neighbouring day's plan is left alone even when a log
 //               reaches just past midnight.
