@@ -10,7 +10,7 @@
 #include "proof_files.h"
 #include "proof_report.h"
 #include "record_client.h"
-#include "record_ops.h"
+#include "record_requests.h"
 #include "record_store.h"
 
 namespace godwit {

@@ -1,11 +1,7 @@
-// The record in the daemon: the ops `airings` and `proof` (PROTOCOL.md),
-// and the hook that writes each finished reconciliation (a reconcile job,
-// local or through the queue, and the drop folder's day report) into
-// STATE/store.sqlite.
-//
-//   airings {from, to, station?, spot? | advertiser?, limit?, cursor?}
-//           -> {"ok":true,"airings":[...],"next"?: cursor}
-//   proof   {from, to, advertiser | spot} -> {"ok":true,"proof":{...}}
+// The record in the daemon: the ops `airings` and `proof` (PROTOCOL.md,
+// record_requests.h), and the hook that writes each finished
+// reconciliation (a reconcile job, local or through the queue, and the
+// drop folder's day report) into STATE/store.sqlite.
 //
 // The queries run on the daemon's request handler threads (never its I/O
 // thread): an airings page is bounded (limit) and indexed; a proof reads
@@ -21,11 +17,6 @@
 #include "record_store.h"
 
 namespace godwit {
-
-// The request objects' fields as described above; errors as the wire's
-// bad_request (a field missing or mistyped, an unknown station) or io.
-Result<nlohmann::json> airings_op(RecordStore& store, const nlohmann::json& req);
-Result<nlohmann::json> proof_op(RecordStore& store, const nlohmann::json& req);
 
 // Registers the ops with `dispatcher`, and the hook in `runner` (before the
 // JobRunner is made from it; its time_zone is recorded as the station's).
