@@ -5,7 +5,7 @@
 #include <fstream>
 #include <random>
 
-#include "godwit/memory_source.h"
+#include "godwit/audio/memory_source.h"
 
 namespace godwit::test {
 

@@ -30,11 +30,11 @@
 #include <thread>
 
 #include "cache_dir.h"
-#include "fft_plans.h"
-#include "godwit/job.h"
-#include "godwit/memory_source.h"
-#include "godwit/analysis_stream.h"
-#include "godwit/resampler.h"
+#include "search/fft_plans.h"
+#include "godwit/search/job.h"
+#include "godwit/audio/memory_source.h"
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/audio/resampler.h"
 #include "programme_source.h"
 #include "synth.h"
 

@@ -1,0 +1,34 @@
+// godwit: the command line. Offline runs of the engine (locate, reconcile)
+// and a client of godwitd (submit, status, result, cancel, jobs, watch, health).
+#include <CLI/CLI.hpp>
+#include <cstdio>
+#include <exception>
+#include <iostream>
+
+#include "client_command.h"
+#include "godwit/core/version.h"
+#include "locate_command.h"
+#include "reconcile_command.h"
+
+int main(int argc, char** argv) {
+  CLI::App app{"godwit: find where known audio clips (spots) aired in broadcast recordings"};
+  app.require_subcommand(1);
+  app.set_version_flag("--version", std::string("godwit ") + godwit::godwit_version());
+  auto locate = godwit::add_locate_command(app);
+  auto reconcile = godwit::add_reconcile_command(app);
+  auto client = godwit::add_client_commands(app);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    return app.exit(e) == 0 ? 0 : 2;
+  }
+  try {
+    if (app.got_subcommand("locate")) return locate();
+    if (app.got_subcommand("reconcile")) return reconcile();
+    return client();
+  } catch (const std::exception& e) {
+    std::cerr << "godwit: internal error: " << e.what() << "\n";
+    return 70;
+  }
+  return 2;
+}
