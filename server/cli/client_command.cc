@@ -10,7 +10,7 @@
 
 #include "atomic_file.h"
 #include "base64.h"
-#include "daemon_config.h"
+#include "host_port.h"
 #include "json_text.h"
 
 namespace godwit {

@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "godwit/core/error.h"
+#include "host_port.h"  // split_host_port, for the listen address
 
 namespace godwit {
 
@@ -59,8 +60,5 @@ struct DaemonConfig {
 // Reads `path` over the defaults in `cfg`. Errors: not_found, usage (TOML
 // syntax or a key of the wrong type, with its line).
 Status load_daemon_config(const std::string& path, DaemonConfig& cfg);
-
-// "HOST:PORT" or "[V6]:PORT".
-bool split_host_port(const std::string& s, std::string& host, unsigned short& port);
 
 }  // namespace godwit
