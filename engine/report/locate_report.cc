@@ -109,7 +109,8 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
       m.version_undetermined = x.value("version_undetermined", false);
       if (x.contains("coverage")) m.coverage = x.at("coverage").get<double>();
       if (x.contains("missing_s"))
-        for (const auto& r : x.at("missing_s")) m.missing_s.emplace_back(r.at(0).get<double>(), r.at(1).get<double>());
+        for (const auto& range : x.at("missing_s"))
+          m.missing_s.emplace_back(range.at(0).get<double>(), range.at(1).get<double>());
       if (x.contains("alternatives"))
         for (const auto& a : x.at("alternatives"))
           m.alternatives.push_back({a.at("template").get<std::string>(), a.at("score").get<double>(),

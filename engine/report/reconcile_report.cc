@@ -197,7 +197,9 @@ std::string reconcile_to_csv(const ReconcileResult& r) {
     const AiringRecord& a = r.airings[i];
     // slot and planned empty; status "unscheduled"; no deviation.
     std::snprintf(num, sizeof num, ",,%.4f,%.3f,", a.score, a.coverage);
-    out += "," + detail::csv_field(a.spot) + ",,unscheduled," + format_iso8601_local(a.aired_s, 3) + num + detail::csv_field(a.spot) +
+    // Appended piece by piece: `"," + std::string&&` trips GCC 12's -Wrestrict false positive (PR 105329).
+    out += ',';
+    out += detail::csv_field(a.spot) + ",,unscheduled," + format_iso8601_local(a.aired_s, 3) + num + detail::csv_field(a.spot) +
            "," + detail::csv_field(a.recording);
     std::snprintf(num, sizeof num, ",%.6f", a.offset_s);
     out += num + lufs(a) + "\r\n";

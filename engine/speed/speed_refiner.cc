@@ -316,7 +316,8 @@ Samples fractional_delay(FftPlans& plans, const Samples& m, double frac) {
   const double w = -2.0 * M_PI * frac / static_cast<double>(L);
   for (size_t k = 0; k < L / 2; ++k) {
     const double ph = w * static_cast<double>(k);
-    fa[k] *= std::complex<float>(static_cast<float>(std::cos(ph) / L), static_cast<float>(std::sin(ph) / L));
+    fa[k] *= std::complex<float>(static_cast<float>(std::cos(ph) / static_cast<double>(L)),
+                                 static_cast<float>(std::sin(ph) / static_cast<double>(L)));
   }
   fa[L / 2] = 0;  // Nyquist: no real delayed value
   fftwf_execute_dft_c2r(p.inverse, as_fftw(fa.get()), a.get());

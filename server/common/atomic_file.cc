@@ -13,7 +13,12 @@ Status write_file_atomically(const std::string& path, const std::string& content
   namespace fs = std::filesystem;
   const fs::path target(path);
   const fs::path dir = target.has_parent_path() ? target.parent_path() : fs::path(".");
-  const std::string tmp = (dir / ("." + target.filename().string() + ".tmp." + std::to_string(getpid()))).string();
+  // Built by appending: `"." + std::string&&` trips GCC 12's -Wrestrict false positive (PR 105329).
+  std::string name = ".";
+  name += target.filename().string();
+  name += ".tmp.";
+  name += std::to_string(getpid());
+  const std::string tmp = (dir / name).string();
   auto fail = [&](const std::string& what) -> Status {
     const std::string reason = std::strerror(errno);
     ::unlink(tmp.c_str());

@@ -13,7 +13,7 @@ using namespace godwit;
 TEST_CASE("streaming resampling is time-aligned and equals the analytic signal") {
   const double in_rate = 44100, out_rate = 8000, f = 440;
   Samples in(static_cast<size_t>(in_rate * 2));
-  for (size_t i = 0; i < in.size(); ++i) in[i] = static_cast<float>(0.5 * std::sin(2 * std::numbers::pi * f * i / in_rate));
+  for (size_t i = 0; i < in.size(); ++i) in[i] = static_cast<float>(0.5 * std::sin(2 * std::numbers::pi * f * static_cast<double>(i) / in_rate));
   Resampler r(in_rate, out_rate);
   Samples out;
   for (size_t i = 0; i < in.size(); i += 1000) r.process(in.data() + i, std::min<size_t>(1000, in.size() - i), out);
@@ -21,7 +21,7 @@ TEST_CASE("streaming resampling is time-aligned and equals the analytic signal")
   CHECK(std::fabs(static_cast<double>(out.size()) - 2 * out_rate) <= 1);
   double err = 0;
   for (size_t j = 2000; j < 14000; ++j)
-    err = std::max(err, std::fabs(out[j] - 0.5 * std::sin(2 * std::numbers::pi * f * j / out_rate)));
+    err = std::max(err, std::fabs(out[j] - 0.5 * std::sin(2 * std::numbers::pi * f * static_cast<double>(j) / out_rate)));
   CHECK(err < 1e-3);
   // One-shot equals streamed.
   const Samples once = resample_all(in, in_rate, out_rate);

@@ -10,8 +10,8 @@ using namespace godwit;
 namespace {
 Placement at(const char* slot, const char* spot, double t, double window) {
   Placement p;
-  p.slot = slot;
-  p.spot = spot;
+  p.slot = std::string(slot);  // moved in: assigning the char* trips GCC 12's -Wrestrict (PR 105329)
+  p.spot = std::string(spot);
   p.planned_s = t;
   p.window_s = window;
   return p;

@@ -119,7 +119,11 @@ TEST_CASE("DC offset, clipping and an isolated spike do not create high scores")
 TEST_CASE("templates of different lengths get their own FFT sizes and all find their clips") {
   std::vector<Samples> ts{synth::spot(0.6, 8000, 20), synth::spot(3.0, 8000, 21)};
   std::vector<TemplateInput> in;
-  for (size_t i = 0; i < ts.size(); ++i) in.push_back({"t" + std::to_string(i), "", 8000, ts[i]});
+  for (size_t i = 0; i < ts.size(); ++i) {
+    std::string id = "t";  // appended: `"t" + std::string&&` trips GCC 12's -Wrestrict (PR 105329)
+    id += std::to_string(i);
+    in.push_back({id, "", 8000, ts[i]});
+  }
   BankOptions o;
   o.max_fft_size = 1 << 16;
   auto bank = TemplateBank::build(in, o);

@@ -100,7 +100,7 @@ TEST_CASE("a clip straddling a block boundary is found exactly once") {
     auto r = run_locate({{"m.wav"}, {"air.wav"}}, o);
     REQUIRE(r.ok());
     REQUIRE(r.value().matches.size() == 1);
-    CHECK(std::fabs(r.value().matches[0].offset_s - at / 8000.0) < 1e-4);
+    CHECK(std::fabs(r.value().matches[0].offset_s - static_cast<double>(at) / 8000.0) < 1e-4);
   }
 }
 
