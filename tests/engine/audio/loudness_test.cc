@@ -40,7 +40,7 @@ TEST_CASE("EBU Tech 3341 cases 1 and 2: 1 kHz stereo sine at -23 and -33 dBFS") 
   }
 }
 
-TEST_CASE("a span of a source reads all its channels; silence has no loudness") {
+TEST_CASE("a span of a source reads all its channels, silence has no loudness") {
   Samples x = stereo_sine(-23, 30, 48000);
   for (size_t i = 0; i < 10 * 48000 * 2; ++i) x[i] = 0.0f;  // first 10 s silent
   MemorySource src("mem", x, 2, 48000);

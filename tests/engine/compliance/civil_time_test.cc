@@ -23,7 +23,7 @@ TEST_CASE("extended and basic ISO 8601 forms parse to the same instant") {
   CHECK(*a == doctest::Approx(20526.0 * 86400 + 6 * 3600 + 15 * 60));
 }
 
-TEST_CASE("fractions with full stop or comma; milliseconds survive formatting") {
+TEST_CASE("fractions with full stop or comma, milliseconds survive formatting") {
   CHECK(*parse_iso8601_local("2026-03-14T06:15:42.318") - *parse_iso8601_local("2026-03-14T06:15:42") ==
         doctest::Approx(0.318));
   CHECK(*parse_iso8601_local("2026-03-14T06:15:42,5") - *parse_iso8601_local("2026-03-14T06:15:42") ==
@@ -63,7 +63,7 @@ double utc(const char* iso) { return at(iso); }
 
 }  // namespace
 
-TEST_CASE("planned-log date-times: T, t or a space; seconds optional; fractions; basic form") {
+TEST_CASE("planned-log date-times: T, t or a space, seconds optional, fractions, basic form") {
   struct Case {
     const char* text;
     const char* same_as;
@@ -152,7 +152,7 @@ TEST_CASE("planned-log date-times: what is wrong is told apart") {
   CHECK(read_written_date_time("2028-02-29 06:00").ok());  // leap year
 }
 
-TEST_CASE("time zones by their IANA names (tz database via ICU); unknown names are usage errors") {
+TEST_CASE("time zones by their IANA names (tz database via ICU), unknown names are usage errors") {
   auto berlin = TimeZone::find("Europe/Berlin");
   REQUIRE(berlin.ok());
   CHECK(berlin.value().name() == "Europe/Berlin");

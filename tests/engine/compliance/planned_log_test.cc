@@ -36,7 +36,7 @@ bool contains(const std::string& s, const std::string& part) { return s.find(par
 
 }  // namespace
 
-TEST_CASE("rows parse; bad rows are reported by line with the reason and the rest still count") {
+TEST_CASE("rows parse, bad rows are reported by line with the reason and the rest still count") {
   const char* csv =
       "slot,spot,planned,window_s\r\n"
       "A1,marlow-bakery,2026-03-14T06:15:00,30\r\n"
@@ -67,7 +67,7 @@ TEST_CASE("rows parse; bad rows are reported by line with the reason and the res
   CHECK(log.problems[4].line == 10);
 }
 
-TEST_CASE("columns in any order; a header without spot is refused") {
+TEST_CASE("columns in any order, a header without spot is refused") {
   auto r = parse_planned_log("planned,spot,slot\n2026-03-14T06:15:00,a,S\n", 60);
   REQUIRE(r.ok());
   CHECK(r.value().placements[0].slot == "S");
@@ -79,7 +79,7 @@ TEST_CASE("columns in any order; a header without spot is refused") {
   CHECK(contains(bad.error().message, "spot_id"));  // the names it would have taken
 }
 
-TEST_CASE("semicolon-separated log (RFC 4180 quoting kept; decimal comma in window_s)") {
+TEST_CASE("semicolon-separated log (RFC 4180 quoting kept, decimal comma in window_s)") {
   const char* csv =
       "slot;spot;planned;window_s\n"
       "B1;marlow-bakery;2026-03-14T06:15:00;30,5\n"
@@ -343,7 +343,7 @@ TEST_CASE("each rejected row says exactly why") {
   }
 }
 
-TEST_CASE("blank rows as spreadsheets export them are skipped; a byte order mark is read; UTF-16 is refused") {
+TEST_CASE("blank rows as spreadsheets export them are skipped, a byte order mark is read, UTF-16 is refused") {
   auto r = parse_planned_log("\xEF\xBB\xBFslot;spot;planned\n;;\nS1;a;2026-03-14 06:00\n ; ; \n", 60);
   REQUIRE(r.ok());
   CHECK(r.value().placements.size() == 1);
@@ -381,7 +381,7 @@ TEST_CASE("a log with no valid row is no_placements, exit code 8, with the first
   CHECK(require_placements(one.value()).ok());
 }
 
-TEST_CASE("reconcile inputs: an unknown zone stops the run before anything is read; no valid row is an error") {
+TEST_CASE("reconcile inputs: an unknown zone stops the run before anything is read, no valid row is an error") {
   test::TempDir dir;
   // An unknown zone is found before the library (which does not exist) is scanned.
   ReconcileInputs in;

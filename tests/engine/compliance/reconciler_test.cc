@@ -42,7 +42,7 @@ TEST_CASE("two airings for one placement: the closer serves it, the other is uns
   CHECK(r.unscheduled[0] == 0);
 }
 
-TEST_CASE("one airing near two placements serves the closer; the other is missing") {
+TEST_CASE("one airing near two placements serves the closer, the other is missing") {
   const std::vector<Placement> p{at("S1", "x", 1000, 60), at("S2", "x", 1100, 60)};
   const std::vector<AiringRef> a{{"x", 1070, 1.0, {}}};
   const auto r = reconcile(p, a, sib);
@@ -54,7 +54,7 @@ TEST_CASE("one airing near two placements serves the closer; the other is missin
   CHECK(tie.verdicts[1].status == VerdictStatus::missing);
 }
 
-TEST_CASE("in-window airing beats a closer-in-time one outside the window; exact spot beats sibling") {
+TEST_CASE("in-window airing beats a closer-in-time one outside the window, exact spot beats sibling") {
   const std::vector<Placement> p{at("S1", "tyres-a", 1000, 30)};
   const auto r = reconcile(p, {{"tyres-b", 1001, 1.0, {}}, {"tyres-a", 1020, 1.0, {}}}, sib);
   CHECK(r.verdicts[0].status == VerdictStatus::aired);
@@ -64,7 +64,7 @@ TEST_CASE("in-window airing beats a closer-in-time one outside the window; exact
   CHECK(w.verdicts[0].status == VerdictStatus::wrong_version);
 }
 
-TEST_CASE("partial below the coverage fraction; undetermined versions count as the planned spot") {
+TEST_CASE("partial below the coverage fraction, undetermined versions count as the planned spot") {
   const std::vector<Placement> p{at("S1", "tyres-a", 1000, 30), at("S2", "x", 2000, 30)};
   const auto r = reconcile(p, {{"tyres-b", 1000, 0.5, {"tyres-a", "tyres-b"}}, {"x", 2000, 0.89, {}}}, sib);
   CHECK(r.verdicts[0].status == VerdictStatus::partial);
@@ -79,7 +79,7 @@ VerdictOptions fixed_horizon(double s) {
   return o;
 }
 
-TEST_CASE("airings beyond the horizon are not a placement's; other spots never are") {
+TEST_CASE("airings beyond the horizon are not a placement's, other spots never are") {
   const std::vector<Placement> p{at("S1", "x", 0, 60)};
   const auto r = reconcile(p, {{"x", 4000, 1.0, {}}, {"y", 10, 1.0, {}}}, sib, fixed_horizon(3600));
   CHECK(r.verdicts[0].status == VerdictStatus::missing);

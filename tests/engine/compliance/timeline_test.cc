@@ -4,7 +4,7 @@
 
 using namespace godwit;
 
-TEST_CASE("contiguous files form one run; gaps split runs; overlaps are trimmed and reported") {
+TEST_CASE("contiguous files form one run, gaps split runs, overlaps are trimmed and reported") {
   std::vector<TimelineFile> files{
       {"h07.flac", 7 * 3600.0, 3600, 44100, 0},
       {"h06.flac", 6 * 3600.0, 3600.2, 44100, 0},    // 0.2 s jitter: contiguous

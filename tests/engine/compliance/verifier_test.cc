@@ -6,7 +6,7 @@
 
 using namespace godwit;
 
-TEST_CASE("a complete airing covers 1; a cut-off one reports what is missing") {
+TEST_CASE("a complete airing covers 1, a cut-off one reports what is missing") {
   const Samples m = synth::spot(10.0, 8000, 1);
   auto full = verify_airing(m, m, 8000, 1);
   CHECK(full.coverage == doctest::Approx(1.0));
@@ -24,7 +24,7 @@ TEST_CASE("a complete airing covers 1; a cut-off one reports what is missing") {
   CHECK(end.coverage == doctest::Approx(0.3));
 }
 
-TEST_CASE("inverted polarity verifies with polarity -1; noise at 0 dB still covers") {
+TEST_CASE("inverted polarity verifies with polarity -1, noise at 0 dB still covers") {
   const Samples m = synth::spot(8.0, 8000, 3);
   Samples inv(m.size());
   for (size_t i = 0; i < m.size(); ++i) inv[i] = -m[i];

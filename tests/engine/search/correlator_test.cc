@@ -37,7 +37,7 @@ TEST_CASE("a planted clip scores 1 at its offset, whatever its gain and polarity
   }
 }
 
-TEST_CASE("shift in, shift out; scores never leave [-1, 1] and are never NaN") {
+TEST_CASE("shift in, shift out, scores never leave [-1, 1] and are never NaN") {
   const Samples t = synth::spot(1.0, 8000, 3);
   auto bank = test::make_bank({t}, 16384);
   Samples x = synth::programme(8.0, 8000, 4);

@@ -43,7 +43,7 @@ TEST_CASE("sizes shrink until the spectra fit the memory budget") {
   CHECK(total <= budget);
 }
 
-TEST_CASE("cost tables round-trip through JSON; garbage gives an empty table") {
+TEST_CASE("cost tables round-trip through JSON, garbage gives an empty table") {
   FftCostTable t{{4096, {1e-5, 2e-5, 1e-6}}};
   auto back = cost_table_from_json(cost_table_to_json(t));
   REQUIRE(back.count(4096) == 1);

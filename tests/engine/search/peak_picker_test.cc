@@ -28,7 +28,7 @@ std::vector<float> noise_trace(size_t n, double sigma, uint64_t seed) {
 
 }  // namespace
 
-TEST_CASE("one candidate per template length; the strongest peak wins") {
+TEST_CASE("one candidate per template length, the strongest peak wins") {
   auto tr = noise_trace(200000, 0.01, 1);
   tr[50000] = 0.9f;
   tr[50000 + 3000] = 0.6f;   // within the suppression span of the first

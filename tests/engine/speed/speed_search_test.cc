@@ -72,7 +72,7 @@ TEST_CASE("airings resampled by 0.5 to 4.17 % either way are found with their sp
   CHECK(r.value().matches.size() == airings.size());
 }
 
-TEST_CASE("a polarity-inverted, sped-up airing reports both; unrelated programme gives nothing") {
+TEST_CASE("a polarity-inverted, sped-up airing reports both, unrelated programme gives nothing") {
   const double rate = 16000;
   test::MemoryFiles files;
   std::map<std::string, Samples> masters{{"dune-20", synth::spot(20.0, rate, 21)}};

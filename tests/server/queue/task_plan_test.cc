@@ -10,7 +10,7 @@
 
 using namespace godwit;
 
-TEST_CASE("queue URLs: host, port, stream; bad ones are usage errors") {
+TEST_CASE("queue URLs: host, port, stream, bad ones are usage errors") {
   auto q = parse_queue_url("redis://10.1.2.3:6380/kestrel-tasks");
   REQUIRE(q);
   CHECK(q.value().host == "10.1.2.3");
