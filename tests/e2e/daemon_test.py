@@ -927,9 +927,9 @@ class DaemonTests(unittest.TestCase):
             with open(f"/proc/{d.proc.pid}/task/{tid}/stat") as f:
                 fields = f.read().rsplit(")", 1)[1].split()
             nice[int(tid)] = int(fields[16])  # field 19 of proc(5), counted after the name
-        self.assertEqual(nice[d.proc.pid], 0, nice)  # the I/O thread
-        self.assertIn(7, nice.values(), nice)
-        self.assertEqual(set(nice.values()), {0, 7}, nice)
+        base = nice[d.proc.pid]  # the I/O thread: 0, or what the test itself runs at (`nice ctest`)
+        self.assertIn(base + 7, nice.values(), nice)
+        self.assertEqual(set(nice.values()), {base, base + 7}, nice)
         self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
 
     def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
