@@ -10,6 +10,7 @@
 
 #include "atomic_file.h"
 #include "base64.h"
+#include "exit_code.h"
 #include "host_port.h"
 #include "json_text.h"
 
@@ -77,24 +78,24 @@ class Connection {
 int report(const Result<nlohmann::json>& r, const std::string& out = "", bool result_only = false) {
   if (!r) {
     std::cerr << "godwit: " << r.error().describe() << "\n";
-    return exit_code(r.error().code);
+    return exit_status(exit_code_for(r.error().code));
   }
   const auto& j = r.value();
   if (!j.value("ok", false)) {
     std::cerr << "godwit: " << json_text(j) << "\n";
     const std::string code = j["error"].value("code", "");
-    return code == "busy" || code == "unavailable" ? 7 : 6;
+    return exit_status(code == "busy" || code == "unavailable" ? ExitCode::daemon_unavailable : ExitCode::refused);
   }
   const std::string text = json_text(result_only ? j["result"] : j, 2) + "\n";
   if (!out.empty()) {
     if (auto st = write_file_atomically(out, text); !st) {
       std::cerr << "godwit: " << st.error().describe() << "\n";
-      return 5;
+      return exit_status(ExitCode::io);
     }
   } else {
     std::cout << text;
   }
-  return 0;
+  return exit_status(ExitCode::done);
 }
 
 // A finished job's result and report files into `out`: reconcile.json (or
@@ -111,13 +112,13 @@ int fetch(Connection& c, nlohmann::json req, const std::string& out) {
   fs::create_directories(out, ec);
   if (ec) {
     std::cerr << "godwit: cannot create " << out << ": " << ec.message() << "\n";
-    return 5;
+    return exit_status(ExitCode::io);
   }
   const nlohmann::json& doc = result.value()["result"];
   const std::string doc_name = doc.contains("placements") ? "reconcile.json" : "result.json";
   if (auto st = write_file_atomically((fs::path(out) / doc_name).string(), json_text(doc, 2) + "\n"); !st) {
     std::cerr << "godwit: " << st.error().describe() << "\n";
-    return 5;
+    return exit_status(ExitCode::io);
   }
   req["op"] = "files";
   auto list = c.request(req);
@@ -140,18 +141,18 @@ int fetch(Connection& c, nlohmann::json req, const std::string& out) {
     auto bytes = base64_decode(got.value().value("base64", ""));
     if (!bytes) {
       std::cerr << "godwit: " << name << ": not valid base64\n";
-      return 6;
+      return exit_status(ExitCode::refused);
     }
     const fs::path path = fs::path(out) / rel;
     fs::create_directories(path.parent_path(), ec);
     if (auto st = write_file_atomically(path.string(), *bytes); !st) {
       std::cerr << "godwit: " << st.error().describe() << "\n";
-      return 5;
+      return exit_status(ExitCode::io);
     }
     ++written;
   }
   std::cerr << "godwit: " << written << " files written to " << out << "\n";
-  return 0;
+  return exit_status(ExitCode::done);
 }
 
 int run(const std::string& op, const ClientArgs& a) {
@@ -172,7 +173,7 @@ int run(const std::string& op, const ClientArgs& a) {
         job = nlohmann::json::parse(in);
       } catch (const std::exception& e) {
         std::cerr << "godwit: " << a.job_file << ": not JSON: " << e.what() << "\n";
-        return 2;
+        return exit_status(ExitCode::usage);
       }
     } else {
       auto abs = [](const std::string& p) { return std::filesystem::absolute(p).string(); };
@@ -215,7 +216,7 @@ int run(const std::string& op, const ClientArgs& a) {
       if (ev.value().value("event", "") == "heartbeat") continue;
       std::cout << json_text(ev.value()) << std::endl;
       const std::string state = ev.value().value("state", "");
-      if (!a.job.empty() && (state == "done" || state == "failed" || state == "cancelled")) return 0;
+      if (!a.job.empty() && (state == "done" || state == "failed" || state == "cancelled")) return exit_status(ExitCode::done);
     }
   }
   if (op == "jobs") {  // every page
@@ -279,7 +280,7 @@ std::function<int()> add_client_commands(CLI::App& app) {
   return [&app, a]() -> int {
     for (const char* op : {"submit", "status", "result", "cancel", "fetch", "jobs", "watch", "health", "cluster"})
       if (app.got_subcommand(op)) return run(op, *a);
-    return 2;
+    return exit_status(ExitCode::usage);
   };
 }
 

@@ -6,6 +6,7 @@
 #include <iostream>
 
 #include "client_command.h"
+#include "exit_code.h"
 #include "godwit/core/version.h"
 #include "locate_command.h"
 #include "reconcile_command.h"
@@ -20,7 +21,7 @@ int main(int argc, char** argv) {
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    return app.exit(e) == 0 ? 0 : 2;
+    return exit_status(app.exit(e) == 0 ? godwit::ExitCode::done : godwit::ExitCode::usage);
   }
   try {
     if (app.got_subcommand("locate")) return locate();
@@ -28,7 +29,7 @@ int main(int argc, char** argv) {
     return client();
   } catch (const std::exception& e) {
     std::cerr << "godwit: internal error: " << e.what() << "\n";
-    return 70;
+    return exit_status(godwit::ExitCode::internal);
   }
-  return 2;
+  return exit_status(godwit::ExitCode::usage);
 }

@@ -6,11 +6,12 @@
 
 #include "atomic_file.h"
 #include "engine_options.h"
-#include "godwit/search/job.h"
-#include "godwit/report/locate_report.h"
+#include "exit_code.h"
 #include "godwit/compliance/timeline_locate.h"
-#include "library_scan.h"
+#include "godwit/report/locate_report.h"
+#include "godwit/search/job.h"
 #include "json_text.h"
+#include "library_scan.h"
 
 namespace godwit {
 namespace {
@@ -31,7 +32,7 @@ struct LocateArgs {
 int run(const LocateArgs& a) {
   auto fail = [](const Error& e) {
     std::cerr << "godwit: " << e.describe() << "\n";
-    return exit_code(e.code);
+    return exit_status(exit_code_for(e.code));
   };
   LocateJob job;
   job.templates = a.templates;
@@ -55,7 +56,7 @@ int run(const LocateArgs& a) {
   if (!result) {
     if (result.error().code == ErrorCode::cancelled) {
       std::cerr << "godwit: interrupted; no output written\n";
-      return exit_code(ErrorCode::cancelled);
+      return exit_status(exit_code_for(ErrorCode::cancelled));
     }
     return fail(result.error());
   }
@@ -77,8 +78,8 @@ int run(const LocateArgs& a) {
   // was read up to its break, and its matches are in the output.
   bool any_audio = false;
   for (const auto& rec : r.recordings) any_audio = any_audio || rec.duration_s > 0;
-  if (failed == r.recordings.size() && !any_audio) return 3;
-  return failed ? 4 : 0;
+  if (failed == r.recordings.size() && !any_audio) return exit_status(ExitCode::unreadable_input);
+  return exit_status(failed ? ExitCode::partial : ExitCode::done);
 }
 
 }  // namespace

@@ -9,19 +9,16 @@
 
 #include "atomic_file.h"
 #include "engine_options.h"
+#include "exit_code.h"
 #include "godwit/compliance/reconcile_job.h"
 #include "godwit/report/html_report.h"
 #include "godwit/report/reconcile_report.h"
-#include "reconcile_inputs.h"
 #include "json_text.h"
+#include "reconcile_inputs.h"
 #include "report_files.h"
 
 namespace godwit {
 namespace {
-
-// More than half of the placements of known spots fall outside the
-// recorded time: the log and the recordings are likely of different days.
-constexpr int kExitMostlyNotRecorded = 9;
 
 struct ReconcileArgs {
   std::string library;
@@ -102,7 +99,7 @@ void print_table(const ReconcileResult& r) {
 int run(const ReconcileArgs& a) {
   auto fail = [](const Error& e) {
     std::cerr << "godwit: " << e.describe() << "\n";
-    return exit_code(e.code);
+    return exit_status(exit_code_for(e.code));
   };
   std::vector<std::string> warnings;
   auto job_r =
@@ -125,7 +122,7 @@ int run(const ReconcileArgs& a) {
   if (!result) {
     if (result.error().code == ErrorCode::cancelled) {
       std::cerr << "godwit: interrupted; no output written\n";
-      return exit_code(ErrorCode::cancelled);
+      return exit_status(exit_code_for(ErrorCode::cancelled));
     }
     return fail(result.error());
   }
@@ -142,7 +139,7 @@ int run(const ReconcileArgs& a) {
   auto listening = write_excerpts(r, o.locate.opener, files, o.locate.should_stop, [](std::string_view w) { warn(w); });
   if (!listening && listening.error().code == ErrorCode::cancelled) {
     std::cerr << "godwit: interrupted; no output written\n";
-    return exit_code(ErrorCode::cancelled);
+    return exit_status(exit_code_for(ErrorCode::cancelled));
   }
   if (!listening) return fail(listening.error());
   const Listening* heard = listening.value() ? &*listening.value() : nullptr;
@@ -188,9 +185,9 @@ int run(const ReconcileArgs& a) {
   }
   bool any_audio = false;  // a recording that broke part way was read up to its break
   for (const auto& s : r.recordings) any_audio = any_audio || s.duration_s > 0;
-  if (!r.recordings.empty() && failed == r.recordings.size() && !any_audio) return 3;
-  if (mostly_unrecorded) return kExitMostlyNotRecorded;
-  return failed ? 4 : 0;
+  if (!r.recordings.empty() && failed == r.recordings.size() && !any_audio) return exit_status(ExitCode::unreadable_input);
+  if (mostly_unrecorded) return exit_status(ExitCode::mostly_not_recorded);
+  return exit_status(failed ? ExitCode::partial : ExitCode::done);
 }
 
 }  // namespace

@@ -14,9 +14,11 @@
 #include "godwit/compliance/civil_time.h"
 #include "godwit/report/excerpt.h"
 #include "godwit/report/locate_report.h"
+#include "error_boundary.h"
 #include "job_priority.h"
 #include "library_scan.h"
 #include "json_text.h"
+#include "thread_entry.h"
 
 namespace godwit {
 namespace fs = std::filesystem;
@@ -58,7 +60,7 @@ Status DropFolder::start() {
   // Listed after the watch is in place, so nothing falls between the two.
   for (fs::directory_iterator it(fs::path(o_.dir) / "incoming", ec), end; !ec && it != end; it.increment(ec))
     preexisting_.insert(it->path().filename().string());
-  thread_ = std::thread([this] { loop(); });
+  thread_ = std::thread([this] { thread_entry("drop folder", [this] { loop(); }); });
   return ok_status();
 }
 
@@ -219,13 +221,14 @@ void DropFolder::reject(const fs::path& from, const std::string& why) {
 void DropFolder::process(const std::string& name) {
   try {
     process_file(name);
-  } catch (const std::exception& e) {  // a bug: this file fails, the daemon carries on
-    spdlog::error("drop folder: {} failed: internal error: {}", name, e.what());
+  } catch (...) {  // the file's error boundary (error_boundary.h): it fails, the daemon carries on
+    const std::string what = internal_error_message("");
+    spdlog::error("drop folder: {} failed: {}", name, what);
     const fs::path base(o_.dir);
     std::error_code ec;
     fs::rename(base / "work" / name, base / "failed" / name, ec);
     (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(),
-                                json_text({{"code", "internal"}, {"message", e.what()}, {"file", name}}, 2) + "\n");
+                                json_text({{"code", "internal"}, {"message", what}, {"file", name}}, 2) + "\n");
   }
 }
 

@@ -18,6 +18,7 @@
 #include "distributed_jobs.h"
 #include "godwit/compliance/civil_time.h"
 #include "drop_folder.h"
+#include "exit_code.h"
 #include "job_runner.h"
 #include "job_store.h"
 #include "path_guard.h"
@@ -139,7 +140,7 @@ int main(int argc, char** argv) {
   if (!config_path.empty()) {
     if (auto st = load_daemon_config(config_path, cfg); !st) {
       std::cerr << "godwitd: " << st.error().describe() << "\n";
-      return 2;
+      return exit_status(ExitCode::usage);
     }
   }
   apply_overrides(cfg);
@@ -150,30 +151,30 @@ int main(int argc, char** argv) {
   if (!cfg.time_zone.empty()) {
     if (auto tz = TimeZone::find(cfg.time_zone); !tz) {
       std::cerr << "godwitd: time_zone: " << tz.error().message << "\n";
-      return 2;
+      return exit_status(ExitCode::usage);
     }
   }
   std::string host;
   unsigned short port = 0;
   if (!split_host_port(cfg.listen, host, port)) {
     std::cerr << "godwitd: --listen must be HOST:PORT, got '" << cfg.listen << "'\n";
-    return 2;
+    return exit_status(ExitCode::usage);
   }
   boost::system::error_code ec;
   const auto address = boost::asio::ip::make_address(host, ec);
   if (ec) {
     std::cerr << "godwitd: not an IP address: " << host << "\n";
-    return 2;
+    return exit_status(ExitCode::usage);
   }
   std::string token_err;
   std::string token = read_token(cfg.token_file, token_err);
   if (!token_err.empty()) {
     std::cerr << "godwitd: " << token_err << "\n";
-    return 2;
+    return exit_status(ExitCode::usage);
   }
   if (!address.is_loopback() && token.empty()) {
     std::cerr << "godwitd: listening on " << host << " (beyond loopback) needs --token-file\n";
-    return 2;
+    return exit_status(ExitCode::usage);
   }
   // The configured library is read by jobs that name none, and by the drop
   // folder, so it is always a root (its files are checked like any other).
@@ -182,9 +183,10 @@ int main(int argc, char** argv) {
   auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued, cfg.max_finished_jobs);
   if (!store_r) {
     std::cerr << "godwitd: " << store_r.error().describe() << "\n";
-    return 5;
+    return exit_status(ExitCode::io);
   }
   JobStore& store = *store_r.value();
+  store.note_crashes();  // a crash notes the running jobs, so none is re-run forever
   FftCache cache(cfg.state_dir, [](std::string_view s) { spdlog::warn("{}", s); });
   PathGuard guard(cfg.roots);
   RunnerConfig rc;
@@ -212,7 +214,7 @@ int main(int argc, char** argv) {
     auto url = parse_queue_url(cfg.queue_url);
     if (!url) {
       std::cerr << "godwitd: " << url.error().describe() << "\n";
-      return 2;
+      return exit_status(ExitCode::usage);
     }
     QueueOptions qo;
     qo.claim_idle_s = cfg.queue_claim_idle_s;
@@ -220,7 +222,7 @@ int main(int argc, char** argv) {
     if (cfg.queue_task_span_s < 120) {
       std::cerr << "godwitd: queue.task_span_s must be at least 120 s (a segment reads a margin of the longest "
                    "airing on either side)\n";
-      return 2;
+      return exit_status(ExitCode::usage);
     }
     distributed = std::make_unique<DistributedJobs>(
         url.value(), qo, PlanOptions{cfg.queue_templates_per_task, cfg.queue_task_span_s}, runner);
@@ -244,7 +246,7 @@ int main(int argc, char** argv) {
                                                    cfg.max_reply_bytes, cfg.watch_heartbeat_s});
   } catch (const std::exception& e) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
-    return 5;
+    return exit_status(ExitCode::io);
   }
   WorkerPool pool(store, runner, cfg.workers, executor);
   std::unique_ptr<DropFolder> dropper;
@@ -253,7 +255,7 @@ int main(int argc, char** argv) {
                                            runner, executor);
     if (auto st = dropper->start(); !st) {
       std::cerr << "godwitd: " << st.error().describe() << "\n";
-      return 5;
+      return exit_status(ExitCode::io);
     }
   }
   // Machine-readable first line for supervisors and tests.

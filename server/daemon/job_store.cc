@@ -1,3 +1,5 @@
+// Over 400 lines: the journal is one format, its replay at open (compaction,
+// orphans, torn tails, crash notes) and its appends read best side by side.
 #include "job_store.h"
 
 #include <fcntl.h>
@@ -114,18 +116,30 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         s->jobs_.erase(id);
         pruned_lines = true;
       } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
+        if (ev == "crashed") ++it->second.crashes;
         if (auto st = job_state_from(ev)) it->second.state = *st;
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
       }
     }
   }
   std::vector<std::string> kept;
+  std::vector<std::string> crash_failed;  // failed at this open: their "failed" line is appended below
   for (const auto& id : order) {
     if (!s->jobs_.count(id)) continue;  // pruned
     kept.push_back(id);
     JobInfo& info = s->jobs_[id];
     const bool have_result = fs::exists(fs::path(dir) / "results" / (id + ".json"));
     if (info.state == JobState::done && !have_result) info.state = JobState::queued;
+    // Crashed the daemon each time it ran: failed, not run into a crash loop.
+    if ((info.state == JobState::queued || info.state == JobState::running) &&
+        info.crashes >= CrashRecord::kMaxCrashes) {
+      info.state = JobState::failed;
+      info.error = {{"code", std::string(wire_name(ErrorCode::internal))},
+                    {"message", "the daemon crashed " + std::to_string(info.crashes) +
+                                    " times while running this job; it is not run again (internal error, please "
+                                    "report it)"}};
+      crash_failed.push_back(id);
+    }
     if (info.state == JobState::queued || info.state == JobState::running) {
       info.state = JobState::queued;
       info.progress = 0;
@@ -152,13 +166,18 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
       if (gone.count(id)) continue;
       const JobInfo& info = s->jobs_[id];
       text += json_text({{"event", "submit"}, {"job", id}, {"spec", info.spec}, {"submitted", info.submitted}}) + "\n";
-      if (info.state == JobState::queued) continue;
+      if (info.state == JobState::queued) {
+        for (int k = 0; k < info.crashes; ++k) text += json_text({{"event", "crashed"}, {"job", id}}) + "\n";
+        continue;
+      }
       nlohmann::json end{{"event", job_state_name(info.state)}, {"job", id}};
       if (info.state == JobState::failed) end["error"] = info.error;
       text += json_text(end) + "\n";
     }
-    if (write_file_atomically(journal, text))
+    if (write_file_atomically(journal, text)) {
       for (const auto& id : gone) on_disk.erase(id);
+      crash_failed.clear();  // the rewrite holds their "failed" lines
+    }
   }
   // Results (and report folders) of jobs the journal no longer names
   // (pruned; a kill between a "pruned" line and the removal of its result)
@@ -189,10 +208,16 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
     if (keep < text.size() && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
       s->torn_ = true;  // then the next append starts with a newline
   }
+  for (const auto& id : crash_failed) {
+    std::lock_guard jl(s->journal_mu_);
+    (void)s->append({{"event", "failed"}, {"job", id}, {"error", s->jobs_[id].error}});  // lost: failed again next open
+  }
+  s->crash_.set_journal_fd(s->journal_fd_);
   return s;
 }
 
 JobStore::~JobStore() {
+  crash_.set_journal_fd(-1);
   if (journal_fd_ >= 0) ::close(journal_fd_);
 }
 
@@ -346,6 +371,7 @@ std::optional<JobInfo> JobStore::take() {
   JobInfo& j = jobs_[id];
   j.state = JobState::running;
   ++running_;
+  if (auto slot = crash_.arm(id)) crash_slots_[id] = *slot;
   JobInfo copy = j;
   lock.unlock();
   emit({{"event", "state"}, {"job", id}, {"state", "running"}});
@@ -385,6 +411,10 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
     std::lock_guard lock(mu_);
     JobInfo& j = jobs_[id];
     if (j.state == JobState::running && running_ > 0) --running_;
+    if (auto it = crash_slots_.find(id); it != crash_slots_.end()) {
+      crash_.disarm(it->second);
+      crash_slots_.erase(it);
+    }
     j.state = s;
     if (s == JobState::done) j.progress = 1;
     if (s == JobState::failed) j.error = extra.value("error", nlohmann::json());

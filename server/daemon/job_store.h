@@ -15,7 +15,9 @@
 // still read; a torn tail is cut off at open, and an append that fails
 // part way cuts off what it wrote. Temporary files left by a kill
 // (results, the compaction, the FFT cost cache beside the journal) are
-// removed at open.
+// removed at open. A job that crashed the daemon (crash_record.h) gets a
+// "crashed" line; one that did so CrashRecord::kMaxCrashes times is failed
+// at open with `internal` instead of being queued again.
 //
 // Thread contract: safe for concurrent use; no lock is held over an fsync
 // of a result or over a job.
@@ -33,6 +35,7 @@
 #include <string>
 #include <vector>
 
+#include "crash_record.h"
 #include "godwit/core/error.h"
 
 namespace godwit {
@@ -48,6 +51,7 @@ struct JobInfo {
   nlohmann::json spec;
   nlohmann::json error;  // null unless failed
   std::string submitted;  // ISO 8601 UTC
+  int crashes = 0;        // times the daemon crashed while running it ("crashed" lines)
 };
 
 class JobStore {
@@ -92,6 +96,9 @@ class JobStore {
   void mark_cancelled(const std::string& id);
   // Wakes take() callers with nothing; they return empty from then on.
   void stop();
+  // From now on a fatal signal notes the running jobs in the journal
+  // (crash_record.h). Once per process, by godwitd.
+  void note_crashes() { crash_.install_handler(); }
 
   size_t queued() const;
   size_t running() const;
@@ -129,6 +136,8 @@ class JobStore {
   mutable std::mutex listeners_mu_;
   std::map<size_t, Listener> listeners_;            // GUARDED_BY(listeners_mu_)
   size_t next_listener_ = 1;
+  CrashRecord crash_;
+  std::map<std::string, size_t> crash_slots_;       // GUARDED_BY(mu_): running job -> its CrashRecord slot
 };
 
 }  // namespace godwit

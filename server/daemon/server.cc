@@ -6,6 +6,7 @@
 #include <deque>
 #include <map>
 
+#include "error_boundary.h"
 #include "line_framer.h"
 #include "json_text.h"
 
@@ -113,7 +114,14 @@ class Session : public std::enable_shared_from_this<Session> {
     handling_ = true;
     auto self = shared_from_this();
     boost::asio::post(handlers_, [this, self, text = std::move(lines_.front().text)] {
-      auto reply = std::make_shared<Reply>(dispatcher_.handle(text));
+      // The request's error boundary (error_boundary.h): whatever handling
+      // it throws is answered `internal`, and the connection stays usable.
+      auto reply = std::make_shared<Reply>();
+      try {
+        *reply = dispatcher_.handle(text);
+      } catch (...) {
+        reply->response = Dispatcher::error_response(ErrorCode::internal, internal_error_message("request"));
+      }
       auto line = std::make_shared<std::string>(json_text(reply->response));
       if (line->size() > limits_.max_reply_bytes) {
         auto err = Dispatcher::error_response(ErrorCode::too_large,

@@ -1,6 +1,8 @@
 #include "queue_worker.h"
 
+#include "error_boundary.h"
 #include "job_priority.h"
+#include "thread_entry.h"
 
 #include <spdlog/spdlog.h>
 
@@ -15,8 +17,9 @@ QueueWorker::QueueWorker(QueueUrl url, QueueOptions options, const JobRunner& ru
 QueueWorker::~QueueWorker() { stop(); }
 
 void QueueWorker::start() {
-  for (size_t i = 0; i < threads_n_; ++i) threads_.emplace_back([this, i] { loop(i); });
-  threads_.emplace_back([this] { heartbeat_loop(); });
+  for (size_t i = 0; i < threads_n_; ++i)
+    threads_.emplace_back([this, i] { thread_entry("queue worker " + std::to_string(i), [this, i] { loop(i); }); });
+  threads_.emplace_back([this] { thread_entry("queue heartbeat", [this] { heartbeat_loop(); }); });
 }
 
 void QueueWorker::stop() {
@@ -119,6 +122,8 @@ void QueueWorker::loop(size_t slot) {
                            [&](std::string_view w) { spdlog::warn("task {}: {}", task.task, w); });
     } catch (const std::exception& e) {
       result = Error{ErrorCode::bad_request, std::string("malformed task: ") + e.what(), "", std::nullopt};
+    } catch (...) {  // the task's error boundary (error_boundary.h): it fails, the daemon carries on
+      result = Error{ErrorCode::internal, internal_error_message("task " + task.task), "", std::nullopt};
     }
     {
       std::lock_guard lock(mu_);

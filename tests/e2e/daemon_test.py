@@ -26,7 +26,7 @@ DEMO_RECS = None
 class Daemon:
     """A godwitd started for one test; ended by PID."""
 
-    def __init__(self, tmp, extra_config="", args=(), state=None):
+    def __init__(self, tmp, extra_config="", args=(), state=None, env=None):
         self.tmp = tmp
         self.state = state or os.path.join(tmp, "state")
         self.config = os.path.join(tmp, "godwitd.toml")
@@ -35,7 +35,8 @@ class Daemon:
                     f'library = "{DEMO}/library"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
                     + extra_config)
         self.proc = subprocess.Popen([ARGS.godwitd, "--config", self.config, *args], stdout=subprocess.PIPE,
-                                     stderr=open(os.path.join(tmp, "godwitd.log"), "a"), text=True)
+                                     stderr=open(os.path.join(tmp, "godwitd.log"), "a"), text=True,
+                                     env={**os.environ, **(env or {})})
         line = self.proc.stdout.readline()
         if not line:
             raise AssertionError("godwitd did not start: " + open(os.path.join(tmp, "godwitd.log")).read())

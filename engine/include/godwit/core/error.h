@@ -1,8 +1,8 @@
 // Errors as values at module edges.
 //
 // Callers branch on `Error::code` (a few stable codes); `message` is for
-// people. Each code has one wire name (protocol, JSON) and one process exit
-// code (command line), both from the single table in error.cc.
+// people. Each code has one wire name (protocol, JSON), from the single
+// table in error.cc. Exit codes are the programs' (server/common/exit_code.h).
 #pragma once
 
 #include <optional>
@@ -30,7 +30,7 @@ enum class ErrorCode {
   bad_request,       // malformed JSON, unknown op, missing or mistyped field
   too_large,         // a request line, inline spot or job over its limit
   no_placements,     // a planned log without a single valid row (empty, header only, or every row rejected)
-  internal,          // a bug: please report it
+  internal,          // a bug: please report it. Keep it last: the codes run from 0 to it (error_test.cc)
 };
 
 struct Error {
@@ -47,8 +47,6 @@ struct Error {
 std::string_view wire_name(ErrorCode code);
 // The code of a wire name; `internal` for a name this build does not know.
 ErrorCode code_from_wire_name(std::string_view name);
-// Exit code of the command line for a run that failed with this error.
-int exit_code(ErrorCode code);
 
 // Either a value or an Error. Deliberately small: `ok()`, `value()`,
 // `error()`; `value()` on an error (or `error()` on a value) is a bug and
