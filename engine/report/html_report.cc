@@ -1,3 +1,4 @@
+// Over 400 lines: one self-contained page (markup, styles, script, SVG) written top to bottom as it reads.
 #include "godwit/report/html_report.h"
 
 #include <algorithm>

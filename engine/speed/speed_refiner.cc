@@ -1,3 +1,4 @@
+// Over 400 lines: the sample-level fit is one pipeline (segments, consensus line, fractional delay, rescoring).
 #include "speed_refiner.h"
 
 #include <algorithm>

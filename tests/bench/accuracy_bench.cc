@@ -1,3 +1,4 @@
+// Over 400 lines: the day's generator, its ground truth and the scoring belong together.
 // accuracy_bench: broadcast days through a realistic air chain, with
 // ground truth, searched by `locate` and `reconcile` and scored.
 //

@@ -1,3 +1,4 @@
+// Over 400 lines: each named workload with the bound it is measured against, in one program as scripts/bench.sh runs it.
 // godwit_bench: named workloads that print the engine's numbers beside a
 // bound or a peer measured in the same run.
 //

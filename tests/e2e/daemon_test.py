@@ -1,4 +1,5 @@
 #!/usr/bin/python3
+# Over 400 lines: the daemon's harness (Daemon, Client) and every scenario against a real process; others import the harness.
 """godwitd end to end: a real daemon process on a loopback port, real TCP clients.
 
 Run by CTest: daemon_test.py --godwit PATH --godwitd PATH --synth PATH

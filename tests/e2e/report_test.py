@@ -1,4 +1,5 @@
 #!/usr/bin/python3
+# Over 400 lines: one headless Chromium session checks the whole page; its DevTools client is part of it.
 """The HTML report in headless Chromium (Debian's chromium package).
 
 Run by CTest: report_test.py --godwit PATH --synth PATH --artifacts DIR

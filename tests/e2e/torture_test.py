@@ -1,4 +1,5 @@
 #!/usr/bin/python3
+# Over 400 lines: the kill phases, the ledger of what each restart must keep, and the full-disk cases share one harness.
 """godwitd under SIGKILL and a full disk: a bounded torture test.
 
 Run by CTest: torture_test.py --godwit PATH --godwitd PATH --synth PATH [--kills 100] [--seed 1]

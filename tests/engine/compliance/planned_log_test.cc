@@ -1,3 +1,4 @@
+// Over 400 lines: one case per way traffic systems write a log; splitting them would scatter the references.
 // The planned log as traffic systems write it. Outside references: RFC 4180
 // (quoting, fields per record), ISO 8601-1:2019 and RFC 3339 (date-times,
 // UTC offsets), the IANA tz database via ICU (Europe/Berlin's 2026 changes,
