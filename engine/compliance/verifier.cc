@@ -16,9 +16,20 @@ constexpr double kQuietBelow = 0.0316;
 // Crossfades (segues) at a spot's edges last up to about two seconds
 // (common practice in playout; from memory). Inside one the spot's level
 // ramps down under the next item, so its frames still score above the
-// null level, if far under the airing's own.
+// null level, if far under the airing's own: a frame counts as faded when
+// it scores at least 1/16 of mu and at least 0.05, about 1.5 standard
+// deviations of a quarter-second frame's null score at 8 kHz (ours; a
+// spot aired 12 dB under the programme it fades into scores under mu/8
+// for the last third of the fade). In the last half second of a fade,
+// where the spot's weight ends near zero, its frames score about zero, as
+// they do after a cut: nothing there tells a fade from a cut, so an aired
+// part that ends within half a second of the master's edge (and the
+// recording holds the rest) is taken to reach the edge; godwit does not
+// claim a cut it cannot show.
+constexpr double kEdgeS = 0.5;
 constexpr double kCrossfadeS = 2.0;
-constexpr double kCrossfadeLevel = 1.0 / 8;  // of mu
+constexpr double kCrossfadeLevel = 1.0 / 16;  // of mu
+constexpr double kCrossfadeFloor = 0.05;
 
 double energy_per_sample(const float* x, size_t n) {
   double s = 0, e = 0;
@@ -122,9 +133,18 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   p.aired_level = mu;
   // Widen over quiet frames, and over a crossfade, at each edge.
   const size_t fade = static_cast<size_t>(std::ceil(kCrossfadeS / frame_s));
-  auto widen = [&](size_t k) { return held[k] && (!loud[k] || score[k] >= mu * kCrossfadeLevel); };
+  const double faded = std::max(kCrossfadeFloor, mu * kCrossfadeLevel);
+  auto widen = [&](size_t k) { return held[k] && (!loud[k] || score[k] >= faded); };
   for (size_t f = 0; iv.first > 0 && widen(iv.first - 1) && (!loud[iv.first - 1] || f < fade); ++f) --iv.first;
   for (size_t f = 0; iv.second < n && widen(iv.second) && (!loud[iv.second] || f < fade); ++f) ++iv.second;
+  const size_t edge = static_cast<size_t>(std::floor(kEdgeS / frame_s + 1e-9));
+  auto held_all = [&](size_t from, size_t to) {
+    for (size_t k = from; k < to; ++k)
+      if (!held[k]) return false;
+    return true;
+  };
+  if (iv.first <= edge && held_all(0, iv.first)) iv.first = 0;
+  if (n - iv.second <= edge && held_all(iv.second, n)) iv.second = n;
 
   // Support ranges of the edges: log-likelihood within 2 of the best, with
   // the spread of the aired frames' scores (robust, at least 0.02).

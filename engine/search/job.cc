@@ -162,8 +162,12 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       const double from_s = (c.offset - static_cast<double>(pad)) / fs - margin_s;
       const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
       const auto start = static_cast<int64_t>(std::floor(from_s * native));
-      const Samples span_native = read_native_span(src, start, static_cast<size_t>(std::ceil(len_s * native)));
+      const auto len = static_cast<size_t>(std::ceil(len_s * native));
+      Samples span_native = read_native_span(src, start, len);
       if (span_native.empty()) continue;
+      // Past the recording's end: silence, as in the plain search, so that
+      // an airing cut by the end is scored on the part that was recorded.
+      span_native.resize(len, 0.0f);
       spans[i] = resample_all(span_native, native, fs);
       span_start[i] = static_cast<double>(start) / native * fs;  // analysis samples
     }

@@ -24,10 +24,27 @@ WarpLayout warp_layout(double rate_hz) {
 SpeedPass::SpeedPass(std::vector<WarpTemplate> envelopes, double rate_hz, const SpeedOptions& o, int threads)
     : rate_hz_(rate_hz), options_(o) {
   const WarpLayout layout = warp_layout(rate_hz);
+  const double frame_s = static_cast<double>(layout.hop) / rate_hz;
+  const size_t masters = envelopes.size();
+  for (size_t t = 0; t < masters; ++t) master_.push_back(t);
+  if (o.head_fraction > 0 && o.head_fraction < 1) {
+    for (size_t t = 0; t < masters; ++t) {
+      const size_t frames = envelopes[t].frames;
+      if (static_cast<double>(frames) * frame_s < o.head_min_s) continue;
+      const size_t head = static_cast<size_t>(std::floor(o.head_fraction * static_cast<double>(frames)));
+      if (head < 8 || head >= frames) continue;
+      const size_t bands = envelopes[t].envelope.size() / std::max<size_t>(1, frames);
+      WarpTemplate h;
+      h.frames = head;
+      h.envelope.assign(envelopes[t].envelope.begin(),
+                        envelopes[t].envelope.begin() + static_cast<std::ptrdiff_t>(head * bands));
+      envelopes.push_back(std::move(h));
+      master_.push_back(t);
+    }
+  }
   const double drift_s = kDriftFrames * static_cast<double>(layout.hop) / rate_hz;
   size_t longest = 1;
   for (const auto& e : envelopes) longest = std::max(longest, e.frames);
-  const double frame_s = static_cast<double>(layout.hop) / rate_hz;
   const double step = 4 * drift_s / (static_cast<double>(longest) * frame_s);
   const double range = std::log1p(std::max(0.0, o.max_deviation));
   const int g_max = std::max(1, static_cast<int>(std::ceil(range / step)));
@@ -87,29 +104,34 @@ std::vector<SpeedCandidate> SpeedPass::candidates(const std::vector<std::pair<si
   const WarpLayout layout = warp_layout(rate_hz_);
   const size_t cap = static_cast<size_t>(std::ceil(std::max(1.0, options_.max_candidates_per_hour * duration_s / 3600)));
   std::vector<SpeedCandidate> out;
+  // A master's candidates from its whole envelope and its head together.
+  const size_t masters = master_.empty() ? 0 : *std::max_element(master_.begin(), master_.end()) + 1;
+  std::vector<std::vector<SpeedCandidate>> all(masters);
   for (size_t t = 0; t < pickers_.size(); ++t) {
-    std::vector<SpeedCandidate> all;
     for (size_t i = 0; i < pickers_[t].size(); ++i) {
       const size_t g = streams_[t][i];
       for (const auto& c : pickers_[t][i].take()) {
         if (c.score <= 0) continue;  // envelopes: only a positive match means anything
         SpeedCandidate sc;
-        sc.template_index = t;
+        sc.template_index = master_[t];
         sc.offset = correlator_->offset_of(g, c.offset);
         sc.score = c.score;
         sc.speed = speeds_[g];
-        sc.speed_step = step_[t];
-        all.push_back(sc);
+        sc.speed_step = step_[t];  // the grid of the envelope that found it
+        all[master_[t]].push_back(sc);
       }
     }
-    std::sort(all.begin(), all.end(), [](const auto& a, const auto& b) { return a.score > b.score; });
-    const double half = 0.5 * static_cast<double>(frames_[t] * layout.hop);
+  }
+  for (size_t m = 0; m < masters; ++m) {
+    auto& mine = all[m];
+    std::sort(mine.begin(), mine.end(), [](const auto& a, const auto& b) { return a.score > b.score; });
+    const double half = 0.5 * static_cast<double>(frames_[m] * layout.hop);
     std::vector<SpeedCandidate> kept;
-    for (const auto& c : all) {
+    for (const auto& c : mine) {
       if (kept.size() >= cap) break;
       bool near = false;
       for (const auto& [pt, off] : plain)
-        if (pt == t && std::fabs(off - c.offset) < half) near = true;
+        if (pt == m && std::fabs(off - c.offset) < half) near = true;
       for (const auto& k : kept)
         if (std::fabs(k.offset - c.offset) < half) near = true;
       if (!near) kept.push_back(c);

@@ -34,7 +34,11 @@ WarpLayout warp_layout(double rate_hz);
 class SpeedPass {
  public:
   // `envelopes[t].envelope/frames` from envelope_of(..., layout.window,
-  // layout.hop, layout.hop, ...); their `streams` are filled here.
+  // layout.hop, layout.hop, ...), one per master in bank order; their
+  // `streams` are filled here. Each master long enough also gets its head
+  // (speed_search.h: `head_fraction`) as an envelope of its own, whose
+  // peaks are the master's candidates: an airing cut short keeps its head
+  // whole, where the whole master's envelope matches it only in part.
   SpeedPass(std::vector<WarpTemplate> envelopes, double rate_hz, const SpeedOptions& options, int threads);
   ~SpeedPass();
 
@@ -51,10 +55,11 @@ class SpeedPass {
   double rate_hz_;
   SpeedOptions options_;
   std::vector<double> speeds_;
-  std::vector<double> step_;         // per master
-  std::vector<size_t> frames_;       // per master
-  std::vector<std::vector<size_t>> streams_;  // per master
-  std::vector<std::vector<PeakPicker>> pickers_;  // per master, per its stream
+  std::vector<size_t> master_;       // per envelope: the master it belongs to
+  std::vector<double> step_;         // per envelope
+  std::vector<size_t> frames_;       // per envelope
+  std::vector<std::vector<size_t>> streams_;  // per envelope
+  std::vector<std::vector<PeakPicker>> pickers_;  // per envelope, per its stream
   std::unique_ptr<WarpCorrelator> correlator_;
   WarpSink sink_;
   PickerOptions picker_options_;

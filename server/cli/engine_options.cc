@@ -19,7 +19,7 @@ extern "C" void on_interrupt(int) { g_interrupted.store(true); }
 void warn(std::string_view s) { std::cerr << "godwit: warning: " << s << "\n"; }
 
 void add_engine_options(CLI::App* cmd, EngineArgs& a) {
-  cmd->add_option("--threshold", a.threshold, "absolute score a match must reach, |r| in 0..1 (default 0.22; every match is then confirmed, see --unconfirmed)")
+  cmd->add_option("--threshold", a.threshold, "absolute score a match must reach, |r| in 0..1 (default 0.15; every match is then confirmed, see --unconfirmed)")
       ->check(CLI::Range(0.05, 1.0));
   cmd->add_option("--floor-k", a.floor_k,
                   "a match must also exceed the local noise floor: median + K x 1.4826 x MAD (default 10)")

@@ -6,6 +6,7 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
+#include <tuple>
 
 #include "godwit/audio/resampler.h"
 #include "synth.h"
@@ -107,4 +108,40 @@ TEST_CASE("with the speed search off, a resampled airing is not found and matche
   REQUIRE(r.value().matches.size() == 1);
   CHECK(std::fabs(r.value().matches[0].offset_s - 60.0) < 0.001);
   CHECK(r.value().matches[0].speed == 1.0);
+}
+
+// At 0 dB SNR (white noise as loud as the airing) the whole master's
+// envelope matches a cut airing too little for the coarse step; its head
+// (speed_search.h, head_fraction) matches it whole. Without the silence
+// read past the recording's end, the cut by the end is never refined.
+TEST_CASE("a sped-up airing cut short at 0 dB SNR is found with its speed: by the recording's end, or by other programme") {
+  const double rate = 8000;
+  test::MemoryFiles files;
+  std::map<std::string, Samples> masters{{"gull-30", synth::spot(30.0, rate, 41)}};
+  files.files["gull-30.wav"] = {masters["gull-30"], rate};
+  // Cut by the end: the recording stops 55 % into an airing at 1.025.
+  const double speed_end = 1.025, at_end_s = 70.0;
+  Samples x = air(200, rate, masters, {{"gull-30", at_end_s, speed_end}}, 0, 17);
+  x.resize(static_cast<size_t>((at_end_s + 0.55 * 30.0 / speed_end) * rate));
+  files.files["ends.wav"] = {x, rate};
+  // Cut by programme: 55 % of an airing at 0.98, then the programme again.
+  const double speed_cut = 0.98, at_cut_s = 50.0;
+  Samples y = air(160, rate, masters, {{"gull-30", at_cut_s, speed_cut}}, 0, 18);
+  const Samples rest = synth::programme(160, rate, 99);
+  for (auto i = static_cast<size_t>((at_cut_s + 0.55 * 30.0 / speed_cut) * rate); i < y.size(); ++i) y[i] = rest[i];
+  files.files["cut.wav"] = {y, rate};
+  LocateOptions o = test::fast_locate_options(files);
+  auto r = run_locate({{"gull-30.wav"}, {"ends.wav", "cut.wav"}}, o);
+  REQUIRE(r);
+  for (const auto& [recording, at_s, speed] :
+       {std::tuple{"ends.wav", at_end_s, speed_end}, std::tuple{"cut.wav", at_cut_s, speed_cut}}) {
+    CAPTURE(std::string(recording));
+    const Match* found = nullptr;
+    for (const auto& m : r.value().matches)
+      if (m.recording == recording && std::fabs(m.offset_s - at_s) < 1.0) found = &m;
+    REQUIRE(found != nullptr);
+    CHECK(std::fabs(found->speed - speed) <= 0.0005 * speed);
+    CHECK(std::fabs(found->offset_s - at_s) <= 0.001);
+  }
+  CHECK(r.value().matches.size() == 2);
 }

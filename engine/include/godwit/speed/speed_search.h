@@ -45,6 +45,15 @@ struct SpeedOptions {
   // strongest): a bound on the cost for audio that resembles a master
   // everywhere. Default: 60, one a minute.
   double max_candidates_per_hour = 60;
+  // The head of each master (this fraction of it, from its first sample)
+  // is searched as an envelope of its own, so that an airing cut short
+  // (at the end of a break, a recording or by a gap) is as visible to
+  // the coarse step as a whole one. Masters shorter than
+  // `head_min_s` have none. Defaults: 0.5, so that every airing with
+  // half of its master or more, from the start, holds the whole head; and
+  // 6 s (ours). 0 turns heads off.
+  double head_fraction = 0.5;
+  double head_min_s = 6.0;
   // A fitted speed closer than this to 1 is a plain airing. Default 2e-5
   // (0.6 ms over 30 s).
   double unit_tolerance = 2e-5;
