@@ -18,7 +18,6 @@ std::string trim(std::string_view s) {
 
 enum Field { kSlot, kSpot, kPlanned, kWindow, kFieldCount };
 
-const char* const kFieldNames[kFieldCount] = {"slot", "spot", "planned", "window_s"};
 const char* const kFieldWhat[kFieldCount] = {"the slot id", "the spot id", "the planned time", "the window"};
 
 // The alias table (planned_log.h), in normalized form.

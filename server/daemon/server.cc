@@ -230,7 +230,7 @@ class Session : public std::enable_shared_from_this<Session> {
 }  // namespace
 
 Server::Server(boost::asio::io_context& io, const tcp::endpoint& at, Dispatcher& d, JobStore& store, ServerLimits limits)
-    : io_(io), acceptor_(io), dispatcher_(d), store_(store), limits_(limits), counts_(std::make_shared<ConnectionCounts>()) {
+    : acceptor_(io), dispatcher_(d), store_(store), limits_(limits), counts_(std::make_shared<ConnectionCounts>()) {
   acceptor_.open(at.protocol());
   acceptor_.set_option(tcp::acceptor::reuse_address(true));
   if (at.address().is_v6()) acceptor_.set_option(boost::asio::ip::v6_only(false));

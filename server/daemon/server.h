@@ -56,7 +56,6 @@ class Server {
 
  private:
   void accept();
-  boost::asio::io_context& io_;
   boost::asio::ip::tcp::acceptor acceptor_;
   Dispatcher& dispatcher_;
   JobStore& store_;
