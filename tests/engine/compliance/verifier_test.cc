@@ -42,7 +42,7 @@ TEST_CASE("inverted polarity verifies with polarity -1, noise at 0 dB still cove
 // at a quiet spot's edges does: the faded edges aired (the benchmark's
 // truth counts them, and so does common practice); a cut at 60 % with the
 // same fade into the programme still reads 0.6.
-TEST_CASE("crossfaded edges into louder programme count as aired; a cut with a fade still reads as cut") {
+TEST_CASE("crossfaded edges into louder programme count as aired, a cut with a fade still reads as cut") {
   const double rate = 8000;
   const Samples m = synth::spot(10.0, rate, 5);
   const Samples programme = synth::programme(10.0, rate, 6);
