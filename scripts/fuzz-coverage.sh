@@ -12,10 +12,10 @@ cd "$(dirname "$0")/.."
 TARGETS=("$@")
 ((${#TARGETS[@]})) || TARGETS=(request_path_fuzz planned_log_fuzz name_time_fuzz audio_decode_fuzz)
 declare -A SOURCES=(
-  [request_path_fuzz]="server/line_framer.cc server/dispatcher.cc server/job_runner.cc server/job_store.cc server/path_guard.cc server/base64.cc server/json_text.cc server/library_scan.cc"
-  [planned_log_fuzz]="engine/src/planned_log.cc engine/src/civil_time.cc"
-  [name_time_fuzz]="engine/src/civil_time.cc"
-  [audio_decode_fuzz]="engine/src/audio_file_source.cc engine/src/analysis_stream.cc engine/src/resampler.cc"
+  [request_path_fuzz]="server/daemon/line_framer.cc server/daemon/dispatcher.cc server/daemon/job_runner.cc server/daemon/job_store.cc server/daemon/path_guard.cc server/common/base64.cc server/common/json_text.cc server/common/library_scan.cc"
+  [planned_log_fuzz]="engine/compliance/planned_log.cc engine/compliance/civil_time.cc"
+  [name_time_fuzz]="engine/compliance/civil_time.cc"
+  [audio_decode_fuzz]="engine/audio/audio_file_source.cc engine/audio/analysis_stream.cc engine/audio/resampler.cc"
 )
 B=build-fuzz-cov
 CC=clang CXX=clang++ cmake -S . -B "$B" -DGODWIT_FUZZ=ON -DGODWIT_FUZZ_COVERAGE=ON -DCMAKE_BUILD_TYPE=Debug >/dev/null

@@ -5,7 +5,7 @@
 #include <fstream>
 #include <random>
 
-#include "godwit/memory_source.h"
+#include "godwit/audio/memory_source.h"
 
 namespace godwit::test {
 
@@ -40,8 +40,12 @@ LocateOptions fast_locate_options(const MemoryFiles& files) {
 
 std::shared_ptr<const TemplateBank> make_bank(const std::vector<Samples>& templates, size_t fixed_fft_size) {
   std::vector<TemplateInput> in;
-  for (size_t i = 0; i < templates.size(); ++i)
-    in.push_back({"t" + std::to_string(i), "mem:t" + std::to_string(i), 8000, templates[i]});
+  for (size_t i = 0; i < templates.size(); ++i) {
+    // Appended, not `"t" + std::string&&`: GCC 12's -Wrestrict false positive (PR 105329).
+    std::string id = "t";
+    id += std::to_string(i);
+    in.push_back({id, "mem:" + id, 8000, templates[i]});
+  }
   BankOptions o;
   o.fixed_fft_size = fixed_fft_size;
   o.planner = Planner::estimate;

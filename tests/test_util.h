@@ -6,10 +6,10 @@
 #include <map>
 #include <string>
 
-#include "godwit/audio_source.h"
-#include "godwit/job.h"
-#include "godwit/template_bank.h"
-#include "godwit/types.h"
+#include "godwit/audio/audio_source.h"
+#include "godwit/search/job.h"
+#include "godwit/search/template_bank.h"
+#include "godwit/core/types.h"
 
 namespace godwit::test {
 

@@ -3,7 +3,7 @@
 #include <algorithm>
 #include <cmath>
 
-#include "godwit/resampler.h"
+#include "godwit/audio/resampler.h"
 
 namespace godwit::synth {
 namespace {

@@ -16,7 +16,7 @@
 #include <string>
 #include <vector>
 
-#include "godwit/types.h"
+#include "godwit/core/types.h"
 #include "synth.h"
 
 namespace godwit::synth {

@@ -6,7 +6,7 @@
 #include <fstream>
 #include <map>
 
-#include "godwit/resampler.h"
+#include "godwit/audio/resampler.h"
 
 namespace godwit::synth {
 namespace fs = std::filesystem;

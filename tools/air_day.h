@@ -25,7 +25,7 @@
 #include <vector>
 
 #include "air_chain.h"
-#include "godwit/civil_time.h"
+#include "godwit/compliance/civil_time.h"
 
 namespace godwit::synth {
 

@@ -8,8 +8,8 @@
 #include <memory>
 #include <vector>
 
-#include "godwit/audio_source.h"
-#include "godwit/types.h"
+#include "godwit/audio/audio_source.h"
+#include "godwit/core/types.h"
 
 namespace godwit::synth {
 

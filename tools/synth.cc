@@ -1,6 +1,6 @@
 #include "synth.h"
 
-#include "godwit/analysis_stream.h"
+#include "godwit/audio/analysis_stream.h"
 
 #include <sndfile.h>
 

@@ -11,7 +11,7 @@
 #include <cstdint>
 #include <string>
 
-#include "godwit/types.h"
+#include "godwit/core/types.h"
 
 namespace godwit::synth {
 

@@ -15,9 +15,9 @@
 #include <iostream>
 #include <map>
 
-#include "godwit/analysis_stream.h"
-#include "godwit/civil_time.h"
-#include "godwit/html_report.h"
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/compliance/civil_time.h"
+#include "godwit/report/html_report.h"
 #include "synth.h"
 
 namespace fs = std::filesystem;

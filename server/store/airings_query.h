@@ -20,7 +20,7 @@
 #include <string>
 #include <vector>
 
-#include "godwit/civil_time.h"
+#include "godwit/compliance/civil_time.h"
 #include "sqlite_db.h"
 
 namespace godwit {

@@ -8,7 +8,7 @@
 #include <string>
 #include <string_view>
 
-#include "godwit/error.h"
+#include "godwit/core/error.h"
 
 namespace godwit {
 

@@ -10,7 +10,7 @@
 #include <string>
 #include <vector>
 
-#include "godwit/error.h"
+#include "godwit/core/error.h"
 
 namespace godwit {
 

@@ -3,8 +3,8 @@
 #include <cstdio>
 #include <filesystem>
 
-#include "godwit/html_report.h"
-#include "godwit/reconciler.h"
+#include "godwit/report/html_report.h"
+#include "godwit/compliance/reconciler.h"
 
 namespace godwit {
 namespace {

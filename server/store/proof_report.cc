@@ -4,9 +4,9 @@
 #include <map>
 #include <set>
 
-#include "godwit/reconcile_report.h"
-#include "godwit/reconciler.h"
-#include "godwit/version.h"
+#include "godwit/report/reconcile_report.h"
+#include "godwit/compliance/reconciler.h"
+#include "godwit/core/version.h"
 
 namespace godwit {
 namespace {

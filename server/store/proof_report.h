@@ -29,7 +29,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "godwit/civil_time.h"
+#include "godwit/compliance/civil_time.h"
 #include "sqlite_db.h"
 
 namespace godwit {

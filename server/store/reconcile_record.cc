@@ -9,8 +9,8 @@
 #include <random>
 
 #include "file_digest.h"
-#include "godwit/reconcile_report.h"
-#include "godwit/version.h"
+#include "godwit/report/reconcile_report.h"
+#include "godwit/core/version.h"
 
 namespace godwit {
 namespace {

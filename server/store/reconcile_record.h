@@ -14,7 +14,7 @@
 #include <string>
 #include <vector>
 
-#include "godwit/reconcile_job.h"
+#include "godwit/compliance/reconcile_job.h"
 #include "record_store.h"
 
 namespace godwit {

@@ -4,7 +4,7 @@
 #include <boost/asio.hpp>
 #include <fstream>
 
-#include "daemon_config.h"
+#include "host_port.h"
 #include "json_text.h"
 
 namespace godwit {

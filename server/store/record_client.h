@@ -8,7 +8,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-#include "godwit/error.h"
+#include "godwit/core/error.h"
 
 namespace godwit {
 

@@ -6,6 +6,7 @@
 #include <optional>
 
 #include "airings_query.h"
+#include "exit_code.h"
 #include "json_text.h"
 #include "proof_files.h"
 #include "proof_report.h"
@@ -27,8 +28,9 @@ struct RecordArgs {
 
 int fail(const Error& e) {
   std::cerr << "godwit: " << e.describe() << "\n";
-  if (e.code == ErrorCode::bad_request) return 2;
-  return e.code == ErrorCode::unavailable ? 7 : exit_code(e.code);
+  if (e.code == ErrorCode::bad_request) return exit_status(ExitCode::usage);  // our own request, from the options
+  if (e.code == ErrorCode::unavailable) return exit_status(ExitCode::daemon_unavailable);
+  return exit_status(exit_code_for(e.code));
 }
 
 // The request both ways share: the daemon's op takes it as is; locally
@@ -143,7 +145,7 @@ int run_airings(const RecordArgs& a) {
   if (!csv) std::cout << (n ? "\n]\n" : "]\n");
   std::cout.flush();
   std::cerr << "godwit: " << n << " airing" << (n == 1 ? "" : "s") << "\n";
-  return 0;
+  return exit_status(ExitCode::done);
 }
 
 int run_proof(const RecordArgs& a) {
@@ -157,7 +159,7 @@ int run_proof(const RecordArgs& a) {
   auto written = write_proof_files(doc, a.out);
   if (!written) {
     std::cerr << "godwit: " << written.error().describe() << "\n";
-    return 5;
+    return exit_status(ExitCode::io);
   }
   const auto& t = doc.value("totals", nlohmann::json::object());
   std::cerr << "godwit: " << t.value("ordered", 0) << " placements (" << t.value("owed", 0) << " owed), "
@@ -165,7 +167,7 @@ int run_proof(const RecordArgs& a) {
             << " station(s); written to " << a.out << "/proof.json, proof.csv, proof.html\n";
   for (const auto& c : doc.value("cautions", nlohmann::json::array()))
     if (c.is_string()) std::cerr << c.get<std::string>() << "\n";
-  return 0;
+  return exit_status(ExitCode::done);
 }
 
 void common(CLI::App* cmd, RecordArgs& a) {

@@ -44,8 +44,8 @@
 #include <string_view>
 #include <vector>
 
-#include "godwit/civil_time.h"
-#include "godwit/error.h"
+#include "godwit/compliance/civil_time.h"
+#include "godwit/core/error.h"
 #include "sqlite_db.h"
 
 namespace godwit {

@@ -12,7 +12,7 @@
 #include <string>
 #include <string_view>
 
-#include "godwit/error.h"
+#include "godwit/core/error.h"
 
 struct sqlite3;
 struct sqlite3_stmt;

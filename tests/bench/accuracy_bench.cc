@@ -1,3 +1,4 @@
+// Over 400 lines: the day's generator, its ground truth and the scoring belong together.
 // accuracy_bench: broadcast days through a realistic air chain, with
 // ground truth, searched by `locate` and `reconcile` and scored.
 //
@@ -24,10 +25,10 @@
 #include <set>
 
 #include "air_day.h"
-#include "godwit/civil_time.h"
-#include "godwit/reconcile_job.h"
-#include "godwit/reconciler.h"
-#include "godwit/timeline_locate.h"
+#include "godwit/compliance/civil_time.h"
+#include "godwit/compliance/reconcile_job.h"
+#include "godwit/compliance/reconciler.h"
+#include "godwit/compliance/timeline_locate.h"
 
 using namespace godwit;
 using namespace godwit::synth;

@@ -1,3 +1,4 @@
+// Over 400 lines: each named workload with the bound it is measured against, in one program as scripts/bench.sh runs it.
 // godwit_bench: named workloads that print the engine's numbers beside a
 // bound or a peer measured in the same run.
 //
@@ -30,11 +31,11 @@
 #include <thread>
 
 #include "cache_dir.h"
-#include "fft_plans.h"
-#include "godwit/job.h"
-#include "godwit/memory_source.h"
-#include "godwit/analysis_stream.h"
-#include "godwit/resampler.h"
+#include "search/fft_plans.h"
+#include "godwit/search/job.h"
+#include "godwit/audio/memory_source.h"
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/audio/resampler.h"
 #include "programme_source.h"
 #include "synth.h"
 

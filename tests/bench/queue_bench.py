@@ -27,7 +27,7 @@ import sys
 import tempfile
 import time
 
-sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "e2e"))
 import daemon_test  # noqa: E402
 from daemon_test import Daemon, wait_state  # noqa: E402
 from queue_test import Redis  # noqa: E402

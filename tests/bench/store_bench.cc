@@ -3,7 +3,7 @@
 //
 //   store_bench [--state-dir DIR] [--stations 10] [--days 30] [--airings 500] [--queries 300]
 //     fills a store (in a fresh temporary folder unless --state-dir) with
-//     stations x days synthetic station-days (tests/store_fixture.h), one
+//     stations x days synthetic station-days (tests/server/store/store_fixture.h), one
 //     job each, then times `airings` pages (limit 1000, as the op and the
 //     command ask for them: query, rows, JSON) of named workloads and
 //     prints p50/p99 beside bounds measured in the same run: a full scan

@@ -27,8 +27,8 @@
 #include <string>
 
 #include "fuzz_fixture.h"
-#include "godwit/analysis_stream.h"
-#include "godwit/audio_source.h"
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/audio/audio_source.h"
 
 using namespace godwit;
 

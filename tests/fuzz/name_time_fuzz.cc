@@ -25,7 +25,7 @@
 #include <string>
 #include <vector>
 
-#include "godwit/civil_time.h"
+#include "godwit/compliance/civil_time.h"
 
 using namespace godwit;
 

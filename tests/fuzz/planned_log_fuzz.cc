@@ -20,7 +20,7 @@
 #include <set>
 #include <string>
 
-#include "godwit/planned_log.h"
+#include "godwit/compliance/planned_log.h"
 
 using namespace godwit;
 

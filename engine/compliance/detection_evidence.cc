@@ -1,0 +1,108 @@
+// Steps 4 and 6 of a reconcile job, for the detections of one run: what a
+// distributed job's tasks gather next to their search (reconcile_job.h).
+#include <cmath>
+#include <map>
+#include <tuple>
+
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/compliance/reconcile_job.h"
+#include "godwit/audio/resampler.h"
+#include "foreground_contrast.h"
+#include "search/pearson.h"
+
+namespace godwit {
+
+std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<TemplateReport>& templates,
+                                                              const std::vector<ConcatPart>& run,
+                                                              const std::vector<Match>& matches,
+                                                              const ReconcileOptions& o) {
+  std::vector<std::optional<DetectionEvidence>> out(matches.size());
+  if (matches.empty() || run.empty()) return out;
+  const SourceOpener& base = o.locate.opener;
+  auto opened = ConcatSource::open("run", run, base, o.locate.channel);
+  if (!opened) return out;
+  // Each detection is read at the rate of the file where it starts, so
+  // that it is verified and measured at that file's native rate; the next
+  // file of a run, if logged at another rate, is resampled to it.
+  std::map<double, std::unique_ptr<ConcatSource>> at_rate;
+  const double stream_rate = opened.value()->info().native_rate_hz;
+  at_rate[stream_rate] = std::move(opened.value());
+  detail::FftPlans plans(Planner::estimate);
+  std::map<std::string, const TemplateReport*> by_id;
+  for (const auto& t : templates) by_id[t.id] = &t;
+  // A master as it aired: at the recording's rate, and at the speed it
+  // aired at (decoded at rate / speed, it plays at `rate` as it aired).
+  std::map<std::tuple<std::string, double, double>, Samples> native_master;
+  for (size_t i = 0; i < matches.size(); ++i) {
+    const Match& m = matches[i];
+    auto t = by_id.find(m.template_id);
+    if (t == by_id.end()) continue;
+    const double rate = at_rate[stream_rate]->part_rate_at(m.offset_s * stream_rate);
+    if (!at_rate.count(rate)) {
+      auto c = ConcatSource::open("run", run, base, o.locate.channel, rate);
+      if (!c) continue;
+      at_rate[rate] = std::move(c.value());
+    }
+    ConcatSource& concat = *at_rate[rate];
+    const auto key = std::make_tuple(m.template_id, m.speed, rate);
+    if (!native_master.count(key)) {
+      auto ms = base(t->second->path, ChannelChoice{});
+      if (!ms) continue;
+      auto s = decode_all(*ms.value(), rate / m.speed);
+      if (!s) continue;
+      native_master[key] = std::move(s.value());
+    }
+    const Samples& master = native_master[key];
+    const Samples span = read_native_span(concat, std::llround(m.offset_s * rate), master.size());
+    DetectionEvidence e;
+    // Segments of segment_s of the master last segment_s / speed on air;
+    // the profile is then put back in master time.
+    VerifyOptions vo = o.verify;
+    vo.segment_s = o.verify.segment_s / m.speed;
+    e.profile = verify_airing(master, span, rate, m.polarity, vo);
+    e.profile.segment_s = o.verify.segment_s;
+    const double length_s = t->second->duration_s;
+    auto to_master_time = [&](double& at_s) {
+      at_s = std::min(at_s * m.speed, length_s);
+      if (at_s > length_s - 1e-3) at_s = length_s;  // a sample's rounding at the end
+    };
+    for (auto& [from, to] : e.profile.missing_s) to_master_time(from), to_master_time(to);
+    for (double* edge : {&e.profile.aired_from_s, &e.profile.aired_to_s, &e.profile.aired_from_range_s.first,
+                      &e.profile.aired_from_range_s.second, &e.profile.aired_to_range_s.first,
+                      &e.profile.aired_to_range_s.second})
+      to_master_time(*edge);
+    // Match quality of the part that aired: a cut-off airing of coverage c
+    // scores about q * sqrt(c) overall, q being how well its aired part
+    // matches.
+    if (auto fc = detail::foreground_contrast(plans, master, span, rate, e.profile.aired, vo.segment_s))
+      e.foreground_contrast = fc->contrast;
+    {  // the aired part's own match, at the native rate, in air time
+      const size_t from = std::min(master.size(), static_cast<size_t>(e.profile.aired_from_s / m.speed * rate));
+      const size_t to = std::min({master.size(), span.size(), static_cast<size_t>(e.profile.aired_to_s / m.speed * rate)});
+      if (to > from + 16)
+        e.aired_score = m.polarity * detail::pearson(master.data() + from, span.data() + from, to - from, 1e-12);
+    }
+    e.weak = e.profile.coverage < o.min_coverage || e.aired_score < o.min_airing_score ||
+             (e.foreground_contrast && *e.foreground_contrast < -o.max_foreground_deficit);
+    if (!e.weak && o.loudness.enabled) {
+      // The aired part: up to the first missing range that reaches the end.
+      double aired_s = length_s;
+      if (!e.profile.missing_s.empty() && e.profile.missing_s.back().second >= length_s - 1e-6)
+        aired_s = e.profile.missing_s.back().first;
+      aired_s /= m.speed;  // master time to air time
+      if (aired_s > 0.4) {
+        auto l = measure_span_lufs(concat, std::llround(m.offset_s * rate), std::llround(aired_s * rate));
+        if (l) e.spot_lufs = l.value();
+      }
+      const double from_s = std::max(0.0, m.offset_s - o.loudness.programme_s);
+      if (m.offset_s - from_s > 0.4) {
+        auto l = measure_span_lufs(concat, std::llround(from_s * rate), std::llround((m.offset_s - from_s) * rate));
+        if (l) e.programme_lufs = l.value();
+      }
+    }
+    out[i] = std::move(e);
+  }
+  return out;
+}
+
+}  // namespace godwit

@@ -1,0 +1,345 @@
+#include "godwit/compliance/reconcile_job.h"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <set>
+#include <tuple>
+
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/audio/concat_source.h"
+#include "godwit/audio/resampler.h"
+#include "godwit/compliance/version_choice.h"
+
+namespace godwit {
+namespace {
+
+constexpr const char* kRunPrefix = "run:";
+
+// Frames of a source, decoding it when the container does not say.
+Result<int64_t> count_frames(AudioSource& src) {
+  if (src.info().native_frames) return *src.info().native_frames;
+  Samples buf(1 << 16);
+  int64_t n = 0;
+  for (;;) {
+    auto got = src.read(buf.data(), buf.size());
+    if (!got) return got.error();
+    if (got.value() == 0) return n;
+    n += static_cast<int64_t>(got.value());
+  }
+}
+
+struct Detection {
+  size_t master = 0;
+  size_t run = 0;
+  double run_offset_s = 0;
+  Match match;
+  std::string file;
+  double file_offset_s = 0;
+  LocalSeconds aired_s = 0;
+  Profile profile;
+  std::optional<double> foreground_contrast;
+  std::optional<double> spot_lufs, programme_lufs;
+};
+
+}  // namespace
+
+std::string run_name(size_t run) { return kRunPrefix + std::to_string(run); }
+
+std::optional<size_t> run_index(const std::string& name) {
+  if (name.rfind(kRunPrefix, 0) != 0 || name.size() <= 4 || name.size() > 24) return std::nullopt;
+  size_t i = 0;
+  for (size_t k = 4; k < name.size(); ++k) {
+    if (name[k] < '0' || name[k] > '9') return std::nullopt;
+    i = i * 10 + static_cast<size_t>(name[k] - '0');
+  }
+  return i;
+}
+
+SourceOpener run_opener(const Timeline& timeline, SourceOpener base) {
+  return [&timeline, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
+    const auto i = run_index(path);
+    if (!i) return base(path, choice);
+    if (*i >= timeline.runs.size()) return Error{ErrorCode::internal, "no such run", path, std::nullopt};
+    auto c = ConcatSource::open(path, run_parts(timeline, *i), base, choice);
+    if (!c) return c.error();
+    return SourcePtr(std::move(c.value()));
+  };
+}
+
+std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
+  std::vector<ConcatPart> parts;
+  for (const auto& f : timeline.runs.at(run).files)
+    parts.push_back({f.path, std::llround(f.duration_s * f.native_rate_hz), std::llround(f.skip_s * f.native_rate_hz),
+                     f.native_rate_hz});
+  return parts;
+}
+
+std::vector<LocalSpan> recorded_spans(const Timeline& timeline, const std::vector<RecordingStatus>& recordings) {
+  std::map<std::string, const RecordingStatus*> status_of;
+  for (const auto& st : recordings) status_of[st.path] = &st;
+  std::vector<LocalSpan> spans;
+  for (const auto& run : timeline.runs)
+    for (const auto& f : run.files) {
+      LocalSeconds from = f.start_s + f.skip_s, to = f.start_s + f.duration_s;
+      if (auto it = status_of.find(f.path); it != status_of.end() && it->second->error) {
+        // Read up to where it broke; nothing of it when that is not known.
+        const auto& e = *it->second->error;
+        to = e.offset_s ? std::min(to, f.start_s + *e.offset_s) : from;
+      }
+      if (to <= from) continue;
+      if (!spans.empty() && from <= spans.back().second + 1e-6) spans.back().second = std::max(spans.back().second, to);
+      else spans.push_back({from, to});
+    }
+  std::sort(spans.begin(), spans.end());
+  std::vector<LocalSpan> merged;
+  for (const auto& s : spans) {
+    if (!merged.empty() && s.first <= merged.back().second + 1e-6) merged.back().second = std::max(merged.back().second, s.second);
+    else merged.push_back(s);
+  }
+  return merged;
+}
+
+ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+  ReconcilePlan plan;
+  const SourceOpener& base = o.locate.opener;
+  std::vector<TimelineFile> files;
+  for (const auto& r : job.recordings) {
+    RecordingStatus st;
+    st.path = r.path;
+    st.start_s = r.start_s ? r.start_s : time_from_name(std::filesystem::path(r.path).filename().string(), o.name_pattern);
+    auto src = base(r.path, o.locate.channel);
+    if (!src) {
+      st.error = src.error();
+    } else if (!st.start_s) {
+      st.error = Error{ErrorCode::usage, "no start time: the name does not match '" + o.name_pattern +
+                                             "' and none was given", r.path, std::nullopt};
+    } else {
+      auto frames = count_frames(*src.value());
+      st.native_rate_hz = src.value()->info().native_rate_hz;
+      st.format = src.value()->info().format;
+      st.channels = src.value()->info().channels;
+      if (!frames) {
+        st.error = frames.error();
+      } else if (frames.value() == 0) {
+        st.error = Error{ErrorCode::empty, "recording holds no audio", r.path, std::nullopt};
+      } else {
+        st.duration_s = static_cast<double>(frames.value()) / st.native_rate_hz;
+        files.push_back({r.path, *st.start_s, st.duration_s, st.native_rate_hz, 0});
+      }
+    }
+    if (st.error && o.locate.on_diagnostic) o.locate.on_diagnostic(st.error->describe());
+    plan.recordings.push_back(std::move(st));
+  }
+  plan.timeline = build_timeline(files, o.timeline_tolerance_s);
+  return plan;
+}
+
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+  ReconcilePlan plan = plan_reconcile(job, o);
+  const SourceOpener& base = o.locate.opener;
+  const Timeline& timeline = plan.timeline;
+  LocateOptions lo = o.locate;
+  lo.opener = run_opener(timeline, base);
+  LocateJob lj;
+  lj.templates = job.masters;
+  for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(run_name(i));
+  LocateResult search;
+  if (!lj.recordings.empty()) {
+    auto located = run_locate(lj, lo);
+    if (!located) return located.error();
+    search = std::move(located.value());
+  }
+  return finish_reconcile(job, std::move(plan), std::move(search), o);
+}
+
+Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
+                                         const ReconcileOptions& o,
+                                         std::vector<std::optional<DetectionEvidence>> evidence) {
+  ReconcileResult res;
+  res.placements = job.log.placements;
+  res.log_problems = job.log.problems;
+  res.recordings = std::move(plan.recordings);
+  const Timeline& timeline = plan.timeline;
+  res.timeline_issues = timeline.issues;
+  const SourceOpener& base = o.locate.opener;
+
+  // 2. The search of the runs.
+  std::vector<Match> matches = std::move(search.matches);
+  std::vector<TemplateReport> templates = std::move(search.templates);
+  for (size_t i = 0; i < search.recordings.size() && i < timeline.runs.size(); ++i) {
+    const auto& rr = search.recordings[i];
+    if (!rr.error) continue;
+    // Attach a run's failure to the file where it happened.
+    const auto& run = timeline.runs[i];
+    Error e = *rr.error;
+    std::string where = run.files.front().path;
+    if (e.offset_s) {  // run time to the file's own time
+      const auto [part, in_file_s] = run.locate_s(*e.offset_s);
+      where = run.files[part].path;
+      e.offset_s = in_file_s;
+    }
+    for (auto& st : res.recordings)
+      if (st.path == where && !st.error) st.error = e;
+  }
+  if (templates.empty())
+    for (const auto& m : job.masters) templates.push_back({template_id_for(m), m, 0, 0});
+  {  // in the job's order of masters, whatever order the search gave
+    std::map<std::string, TemplateReport> by_id;
+    for (auto& t : templates) by_id[t.id] = std::move(t);
+    templates.clear();
+    for (const auto& m : job.masters) {
+      auto it = by_id.find(template_id_for(m));
+      if (it == by_id.end())
+        return Error{ErrorCode::internal, "the search does not report master " + template_id_for(m), m, std::nullopt};
+      templates.push_back(it->second);
+    }
+  }
+
+  // 3. Masters at the analysis rate: families.
+  std::vector<std::string> ids;
+  std::vector<Samples> analysis;
+  std::map<size_t, std::string> declared;
+  for (size_t i = 0; i < job.masters.size(); ++i) {
+    ids.push_back(template_id_for(job.masters[i]));
+    auto src = base(job.masters[i], ChannelChoice{});
+    if (!src) return src.error();
+    auto s = decode_all(*src.value(), o.locate.analysis_rate_hz);
+    if (!s) return s.error();
+    analysis.push_back(std::move(s.value()));
+    if (auto it = job.meta.find(ids.back()); it != job.meta.end() && !it->second.family.empty())
+      declared[i] = it->second.family;
+  }
+  FamilyOptions fo = o.families;
+  fo.segment_s = o.verify.segment_s;
+  const Families fam = find_families(ids, analysis, o.locate.analysis_rate_hz, declared, fo);
+  analysis.clear();
+  {
+    std::map<size_t, std::vector<std::string>> groups;
+    for (size_t i = 0; i < ids.size(); ++i) groups[fam.family_of[i]].push_back(ids[i]);
+    for (auto& [f, g] : groups)
+      if (g.size() > 1) res.families.push_back(g);
+  }
+  std::map<std::string, size_t> index_of;
+  for (size_t i = 0; i < ids.size(); ++i) index_of[ids[i]] = i;
+
+  // 4. The evidence of each detection (gathered here unless given).
+  if (evidence.size() != matches.size()) {
+    evidence.assign(matches.size(), std::nullopt);
+    std::map<size_t, std::vector<size_t>> by_run;
+    for (size_t i = 0; i < matches.size(); ++i)
+      if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);
+    for (const auto& [run, which] : by_run) {
+      if (run >= timeline.runs.size()) continue;
+      std::vector<Match> ms;
+      for (size_t i : which) ms.push_back(matches[i]);
+      auto ev = gather_evidence(templates, run_parts(timeline, run), ms, o);
+      for (size_t k = 0; k < which.size(); ++k) evidence[which[k]] = std::move(ev[k]);
+    }
+  }
+  std::vector<Detection> dets;
+  for (size_t i = 0; i < matches.size(); ++i) {
+    const Match& m = matches[i];
+    Detection d;
+    d.master = index_of.at(m.template_id);
+    const auto run = run_index(m.recording);
+    if (!run) continue;
+    d.run = *run;
+    d.match = m;
+    if (d.run >= timeline.runs.size() || !evidence[i]) continue;
+    if (evidence[i]->weak) {
+      ++res.rejected_weak;
+      continue;
+    }
+    d.profile = std::move(evidence[i]->profile);
+    d.foreground_contrast = evidence[i]->foreground_contrast;
+    d.spot_lufs = evidence[i]->spot_lufs;
+    d.programme_lufs = evidence[i]->programme_lufs;
+    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
+    const auto& f = timeline.runs[d.run].files[part];
+    d.file = f.path;
+    d.file_offset_s = in_file_s;
+    d.aired_s = f.start_s + d.file_offset_s;
+    dets.push_back(std::move(d));
+  }
+  std::sort(dets.begin(), dets.end(), [](const Detection& a, const Detection& b) { return a.aired_s < b.aired_s; });
+
+  // 5. One airing per group of overlapping sibling detections.
+  std::vector<VersionInput> vin;
+  for (const auto& d : dets)
+    vin.push_back({d.master, d.aired_s, templates[d.master].duration_s, d.match.score, &d.profile});
+  VersionOptions vo;
+  vo.min_segment_score = o.verify.min_segment_score;
+  vo.margin = o.version_margin;
+  for (const VersionChoice& choice : choose_versions(vin, fam, vo)) {
+    AiringRecord a;
+    if (choice.members.size() > 1)
+      for (size_t k = 0; k < choice.members.size(); ++k)
+        a.versions.push_back({ids[dets[choice.members[k]].master], choice.distinguishing[k]});
+    for (size_t u : choice.undetermined) a.undetermined_among.push_back(ids[dets[u].master]);
+    const size_t win = choice.winner;
+    const Detection& d = dets[win];
+    a.spot = ids[d.master];
+    a.recording = d.file;
+    a.offset_s = d.file_offset_s;
+    a.aired_s = d.aired_s;
+    a.score = d.match.score;
+    a.polarity = d.match.polarity;
+    a.speed = d.match.speed;
+    a.coverage = d.profile.coverage;
+    a.missing_s = d.profile.missing_s;
+    a.foreground_contrast = d.foreground_contrast;
+    a.profile = d.profile;
+    a.run = d.run;
+    a.run_offset_s = d.match.offset_s;
+    a.length_s = templates[d.master].duration_s;
+    a.spot_lufs = d.spot_lufs;  // 6. loudness, in the evidence
+    a.programme_lufs = d.programme_lufs;
+    res.airings.push_back(std::move(a));
+  }
+
+  // 7. Verdicts.
+  const std::vector<LocalSpan> recorded = recorded_spans(timeline, res.recordings);
+  std::vector<AiringRef> refs;
+  for (auto& a : res.airings) {
+    double unrecorded_s = 0;
+    for (const auto& [from, to] : a.missing_s) {
+      const auto [out, in] = split_by_cover({a.aired_s + from / a.speed, a.aired_s + to / a.speed}, recorded);
+      double out_s = 0;
+      for (const auto& [f, t] : out) out_s += (t - f) * a.speed;
+      if (out_s <= 0) continue;
+      // A frame's slop at the recording's edge still counts as unrecorded.
+      if (to - from - out_s < 0.5) out_s = to - from;
+      a.unrecorded_s.push_back(out.front().first <= a.aired_s + from / a.speed + 1e-6
+                                   ? std::pair{from, from + out_s}
+                                   : std::pair{to - out_s, to});
+      unrecorded_s += out_s;
+    }
+    const double judged = a.length_s > 0 ? std::min(1.0, a.coverage + unrecorded_s / a.length_s) : a.coverage;
+    refs.push_back({a.spot, a.aired_s, judged, a.undetermined_among});
+  }
+  auto siblings = [&](const std::string& x, const std::string& y) {
+    auto ix = index_of.find(x), iy = index_of.find(y);
+    return ix != index_of.end() && iy != index_of.end() && fam.siblings(ix->second, iy->second);
+  };
+  VerdictContext ctx;
+  for (const auto& t : templates) ctx.library_length_s[t.id] = t.duration_s;
+  ctx.recorded = recorded;
+  Reconciliation rec = reconcile(res.placements, refs, siblings, o.verdicts, ctx);
+  res.verdicts = std::move(rec.verdicts);
+  res.unscheduled = std::move(rec.unscheduled);
+
+  // 8. What the reports need beside the verdicts: the masters with their
+  // sidecars, the runs as streams (excerpts), the recorded time.
+  for (const auto& t : templates) {
+    SpotInfo& s = res.spots[t.id];
+    s.path = t.path;
+    s.length_s = t.duration_s;
+    if (auto it = job.meta.find(t.id); it != job.meta.end()) s.meta = it->second;
+  }
+  for (size_t i = 0; i < timeline.runs.size(); ++i) res.runs.push_back(run_parts(timeline, i));
+  res.recorded = recorded;
+  return res;
+}
+
+}  // namespace godwit

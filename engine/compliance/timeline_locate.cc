@@ -1,0 +1,248 @@
+#include "godwit/compliance/timeline_locate.h"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <map>
+#include <set>
+
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/compliance/civil_time.h"
+#include "godwit/compliance/reconcile_job.h"
+
+namespace godwit {
+namespace {
+
+// Files without a time in their name are laid this far apart: never
+// consecutive, so each is its own run.
+constexpr double kApart_s = 1e9;
+
+// Every detection of the runs confirmed as reconcile confirms it
+// (gather_evidence: verification profile, foreground contrast), then
+// sibling versions detected at one airing resolved; in place (`matches`
+// hold run names and run offsets). Returns how many were not confirmed.
+size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<TemplateReport>& templates,
+                           const Timeline& timeline, const LocateOptions& o, const TimelineLocateOptions& t,
+                           std::vector<std::optional<DetectionEvidence>> given) {
+  std::map<std::string, size_t> tindex;
+  for (size_t i = 0; i < templates.size(); ++i) tindex[templates[i].id] = i;
+  ReconcileOptions ro;
+  ro.locate = o;
+  ro.verify = t.verify;
+  ro.loudness.enabled = false;
+  ro.min_airing_score = t.min_airing_score;
+  ro.max_foreground_deficit = t.max_foreground_deficit;
+  std::map<size_t, std::vector<size_t>> by_run;  // run -> indices into matches, by offset
+  for (size_t i = 0; i < matches.size(); ++i)
+    if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);
+  std::vector<bool> drop(matches.size(), false);
+  std::vector<std::optional<DetectionEvidence>> evidence(matches.size());
+  const bool have = given.size() == matches.size();
+  size_t rejected = 0;
+  for (auto& [run, which] : by_run) {
+    if (run >= timeline.runs.size()) continue;
+    std::sort(which.begin(), which.end(), [&](size_t a, size_t b) { return matches[a].offset_s < matches[b].offset_s; });
+    if (!t.confirm && !t.resolve_versions) continue;
+    std::vector<std::optional<DetectionEvidence>> ev;
+    if (have) {
+      for (size_t i : which) ev.push_back(std::move(given[i]));
+    } else {
+      std::vector<Match> ms;
+      for (size_t i : which) ms.push_back(matches[i]);
+      ev = gather_evidence(templates, run_parts(timeline, run), ms, ro);
+    }
+    for (size_t k = 0; k < which.size(); ++k) {
+      if (t.confirm && ev[k] && ev[k]->weak) {
+        drop[which[k]] = true;
+        ++rejected;
+        continue;
+      }
+      if (ev[k]) {
+        matches[which[k]].coverage = ev[k]->profile.coverage;
+        matches[which[k]].missing_s = ev[k]->profile.missing_s;
+      }
+      evidence[which[k]] = std::move(ev[k]);
+    }
+  }
+  // Masters detected beside another master's detection: the only ones
+  // whose kinship matters.
+  std::set<size_t> involved;
+  for (const auto& [run, which] : by_run)
+    for (size_t x = 0; x < which.size(); ++x) {
+      if (drop[which[x]] || !evidence[which[x]]) continue;
+      const Match& a = matches[which[x]];
+      for (size_t y = x + 1; y < which.size(); ++y) {
+        if (drop[which[y]] || !evidence[which[y]]) continue;
+        const Match& b = matches[which[y]];
+        const double len_a = templates[tindex[a.template_id]].duration_s;
+        if (b.offset_s - a.offset_s > 0.5 * len_a) break;  // by offset: none later is closer
+        if (b.offset_s - a.offset_s > 0.5 * templates[tindex[b.template_id]].duration_s) continue;
+        if (a.template_id == b.template_id) continue;
+        involved.insert(tindex[a.template_id]);
+        involved.insert(tindex[b.template_id]);
+      }
+    }
+  if (t.resolve_versions && !involved.empty()) {
+    std::vector<std::string> ids;
+    std::vector<Samples> audio;
+    bool decoded = true;
+    for (size_t ti : involved) {
+      auto src = o.opener(templates[ti].path, ChannelChoice{});
+      auto d = src ? decode_all(*src.value(), o.analysis_rate_hz) : Result<Samples>(src.error());
+      if (!d) {
+        decoded = false;
+        break;
+      }
+      ids.push_back(templates[ti].id);
+      audio.push_back(std::move(d.value()));
+    }
+    if (decoded) {
+      FamilyOptions fo = t.families;
+      fo.segment_s = t.verify.segment_s;
+      const Families fam = find_families(ids, audio, o.analysis_rate_hz, {}, fo);
+      audio.clear();
+      std::map<std::string, size_t> sub_index;
+      for (size_t i = 0; i < ids.size(); ++i) sub_index[ids[i]] = i;
+      for (const auto& [run, which] : by_run) {
+        std::vector<VersionInput> vin;
+        std::vector<size_t> back;  // vin index -> matches index
+        for (size_t i : which) {
+          if (drop[i] || !evidence[i] || !sub_index.count(matches[i].template_id)) continue;
+          const Match& m = matches[i];
+          vin.push_back({sub_index.at(m.template_id), m.offset_s, templates[tindex[m.template_id]].duration_s, m.score,
+                         &evidence[i]->profile});
+          back.push_back(i);
+        }
+        for (const VersionChoice& c : choose_versions(vin, fam, t.versions)) {
+          if (c.members.size() < 2) continue;
+          Match& win = matches[back[c.winner]];
+          for (size_t k = 0; k < c.members.size(); ++k) {
+            const size_t mi = back[c.members[k]];
+            if (c.members[k] == c.winner) {
+              win.distinguishing = c.distinguishing[k];
+              continue;
+            }
+            win.alternatives.push_back({matches[mi].template_id, matches[mi].score, c.distinguishing[k]});
+            drop[mi] = true;
+          }
+          win.version_undetermined = !c.undetermined.empty();
+        }
+      }
+    }
+  }
+  std::vector<Match> kept;
+  for (size_t i = 0; i < matches.size(); ++i)
+    if (!drop[i]) kept.push_back(std::move(matches[i]));
+  matches = std::move(kept);
+  return rejected;
+}
+
+}  // namespace
+
+LocatePlan plan_locate(const LocateJob& job, const LocateOptions& o, const TimelineLocateOptions& t) {
+  LocatePlan lp;
+  bool timed = !t.name_pattern.empty();  // an empty pattern: every file on its own
+  for (const auto& r : job.recordings)
+    timed = timed && time_from_name(std::filesystem::path(r).filename().string(), t.name_pattern).has_value();
+  ReconcileJob rj;
+  rj.masters = job.templates;
+  for (size_t i = 0; i < job.recordings.size(); ++i)
+    rj.recordings.push_back({job.recordings[i], timed ? std::nullopt : std::optional<LocalSeconds>(static_cast<double>(i) * kApart_s)});
+  ReconcileOptions ro;
+  ro.locate = o;
+  ro.name_pattern = t.name_pattern;
+  ro.timeline_tolerance_s = t.tolerance_s;
+  lp.plan = plan_reconcile(rj, ro);
+  // Files that could not be planned (unreadable, or broken part way) are
+  // searched alone, as far as they can be read: their error and the
+  // matches found before it are kept.
+  for (const auto& st : lp.plan.recordings)
+    if (st.error) lp.alone.push_back(st.path);
+  lp.streams = lp.alone;
+  for (size_t i = 0; i < lp.plan.timeline.runs.size(); ++i) lp.streams.push_back(run_name(i));
+  return lp;
+}
+
+Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const LocateOptions& o,
+                                   const TimelineLocateOptions& t, std::vector<std::optional<DetectionEvidence>> evidence) {
+  const Timeline& timeline = lp.plan.timeline;
+  const size_t rejected = confirm_and_resolve(s.matches, s.templates, timeline, o, t, std::move(evidence));
+  // The search reports its streams in order: the files alone, then the runs.
+  std::map<std::string, RecordingReport> alone_report;
+  std::vector<RecordingReport> run_reports;
+  for (auto& r : s.recordings) {
+    if (run_index(r.path)) run_reports.push_back(std::move(r));
+    else alone_report[r.path] = std::move(r);
+  }
+
+  LocateResult out;
+  out.analysis_rate_hz = s.analysis_rate_hz;
+  out.unconfirmed = rejected;
+  out.templates = std::move(s.templates);
+  // Recordings in job order, with what their run's search said about them.
+  std::map<std::string, size_t> report_of;
+  for (const auto& st : lp.plan.recordings) {
+    if (auto a = alone_report.find(st.path); a != alone_report.end()) {
+      report_of.emplace(st.path, out.recordings.size());
+      out.recordings.push_back(a->second);
+      continue;
+    }
+    RecordingReport r;
+    r.path = st.path;
+    r.format = st.format;
+    r.native_rate_hz = st.native_rate_hz;
+    r.channels = st.channels;
+    r.duration_s = st.duration_s;
+    r.error = st.error;
+    report_of.emplace(st.path, out.recordings.size());
+    out.recordings.push_back(std::move(r));
+  }
+  for (size_t i = 0; i < run_reports.size(); ++i) {
+    const auto& rr = run_reports[i];
+    const auto run_i = run_index(rr.path);
+    if (!rr.error || !run_i || *run_i >= timeline.runs.size()) continue;
+    const TimelineRun& run = timeline.runs[*run_i];
+    // The file where it broke; the files after it were read on (concat_source.h).
+    const auto [file, in_file_s] = run.locate_s(rr.error->offset_s.value_or(0));
+    auto it = report_of.find(run.files[file].path);
+    if (it == report_of.end()) continue;
+    RecordingReport& r = out.recordings[it->second];
+    r.error = *rr.error;
+    r.error->path = r.path;
+    r.error->offset_s = std::max(0.0, in_file_s);
+    r.duration_s = std::max(0.0, in_file_s);
+  }
+  for (auto& m : s.matches) {
+    const auto run = run_index(m.recording);
+    if (!run) {  // a file searched alone
+      out.matches.push_back(std::move(m));
+      continue;
+    }
+    if (*run >= timeline.runs.size()) continue;
+    const auto [file, in_file_s] = timeline.runs[*run].locate_s(m.offset_s);
+    m.recording = timeline.runs[*run].files[file].path;
+    m.offset_s = in_file_s;
+    out.matches.push_back(std::move(m));
+  }
+  std::stable_sort(out.matches.begin(), out.matches.end(), [&](const Match& a, const Match& b) {
+    const size_t ra = report_of[a.recording], rb = report_of[b.recording];
+    if (ra != rb) return ra < rb;
+    if (a.offset_s != b.offset_s) return a.offset_s < b.offset_s;
+    return a.template_id < b.template_id;
+  });
+  return out;
+}
+
+Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& o, const TimelineLocateOptions& t) {
+  if (job.recordings.empty()) return run_locate(job, o);  // its usage error
+  const LocatePlan lp = plan_locate(job, o, t);
+  if (lp.plan.timeline.runs.empty()) return run_locate(job, o);  // nothing readable: each recording's own error
+  LocateJob lj{job.templates, lp.streams};
+  LocateOptions lo = o;
+  lo.opener = run_opener(lp.plan.timeline, o.opener);
+  auto searched = run_locate(lj, lo);
+  if (!searched) return searched.error();
+  return finish_locate(lp, std::move(searched.value()), o, t);
+}
+
+}  // namespace godwit

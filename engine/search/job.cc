@@ -1,0 +1,351 @@
+#include "godwit/search/job.h"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <map>
+#include <set>
+
+#include "godwit/audio/analysis_stream.h"
+#include "godwit/search/native_refiner.h"
+#include "godwit/audio/resampler.h"
+#include "speed/speed_pass.h"
+#include "core/thread_pool.h"
+#include "speed/speed_refiner.h"
+
+namespace godwit {
+namespace {
+
+Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, const LocateOptions& o,
+                                                      std::vector<TemplateReport>& reports,
+                                                      std::vector<detail::WarpTemplate>* warp) {
+  detail::FftPlans env_plans(Planner::estimate);
+  if (job.templates.empty()) return Error{ErrorCode::usage, "no templates given", "", std::nullopt};
+  std::vector<TemplateInput> inputs;
+  std::map<std::string, std::string> seen;
+  for (const auto& path : job.templates) {
+    const std::string id = template_id_for(path);
+    if (auto it = seen.find(id); it != seen.end())
+      return Error{ErrorCode::usage, "two masters share the id '" + id + "': " + it->second + " and " + path,
+                   path, std::nullopt};
+    seen[id] = path;
+    auto src = o.opener(path, ChannelChoice{});
+    if (!src) return src.error();
+    auto samples = decode_all(*src.value(), o.analysis_rate_hz);
+    if (!samples) return samples.error();
+    const double dur_s = static_cast<double>(samples.value().size()) / o.analysis_rate_hz;
+    if (dur_s < kMinTemplateSeconds)
+      return Error{ErrorCode::invalid_template,
+                   "master is " + std::to_string(dur_s) + " s long; the shortest accepted is 0.5 s", path,
+                   std::nullopt};
+    TemplateInput in;
+    in.id = id;
+    in.path = path;
+    in.native_rate_hz = src.value()->info().native_rate_hz;
+    in.samples = std::move(samples.value());
+    if (warp) {
+      detail::WarpTemplate w;
+      const detail::WarpLayout l = detail::warp_layout(o.analysis_rate_hz);
+      w.envelope = detail::envelope_of(env_plans, in.samples, o.analysis_rate_hz, l.window, l.hop, l.hop,
+                                       detail::EnvelopeBands{}, w.frames);
+      warp->push_back(std::move(w));
+    }
+    inputs.push_back(std::move(in));
+  }
+  auto bank = TemplateBank::build(std::move(inputs), o.bank);
+  if (!bank) return bank.error();
+  for (const auto& t : bank.value()->templates())
+    reports.push_back({t.id, t.path, static_cast<double>(t.len_samples) / o.analysis_rate_hz, t.fft_size});
+  return bank;
+}
+
+// Native-rate refinement of the candidates of one recording, in place.
+void refine_matches(const std::string& path, const TemplateBank& bank, const LocateOptions& o,
+                    std::vector<std::pair<size_t, Match>>& found) {
+  if (found.empty()) return;
+  auto rec = o.opener(path, o.channel);
+  if (!rec) {
+    if (o.on_diagnostic) o.on_diagnostic(path + ": cannot reopen for refinement: " + rec.error().message);
+    return;
+  }
+  AudioSource& src = *rec.value();
+  const double native = src.info().native_rate_hz;
+  const double ratio = native / o.analysis_rate_hz;
+  const int64_t radius = static_cast<int64_t>(std::ceil(1.5 * ratio)) + 2;
+  // A master once per speed it aired at: decoded at native / speed, it
+  // plays at the native rate as it aired.
+  std::set<std::pair<size_t, double>> versions;
+  for (const auto& f : found) versions.insert({f.first, f.second.speed});
+  for (const auto& [t, speed] : versions) {
+    const auto& info = bank.at(t);
+    auto msrc = o.opener(info.path, ChannelChoice{});
+    if (!msrc) continue;
+    auto master = decode_all(*msrc.value(), native / speed);
+    if (!master) continue;
+    const Samples& tmpl = master.value();
+    for (auto& [ti, m] : found) {
+      if (ti != t || m.speed != speed) continue;
+      const double coarse = m.offset_s * native;
+      // An airing cut by the start or the end of the recording: silence
+      // stands for what was not recorded.
+      const int64_t start = static_cast<int64_t>(std::floor(coarse)) - radius;
+      const size_t want = tmpl.size() + static_cast<size_t>(2 * radius + 1);
+      Samples span = read_native_span(src, start, want);
+      span.resize(want, 0.0f);
+      auto refined = refine_offset(tmpl, span, m.polarity);
+      if (!refined) continue;
+      const double off_s = (static_cast<double>(start) + refined->offset_frames) / native;
+      // Accept only a refinement consistent with the coarse estimate.
+      if (std::fabs(off_s - m.offset_s) * o.analysis_rate_hz <= 1.5) {
+        m.offset_s = off_s;
+        m.refined = true;
+      }
+    }
+  }
+}
+
+// Step 2 and 3 of the speed search for the coarse peaks of one recording:
+// spans read in turn from the one source, refined on `threads` threads.
+// `pad` analysis samples of silence preceded the recording in the stream the
+// candidates were found in.
+std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string& path, const TemplateBank& bank,
+                                                              const LocateOptions& o,
+                                                              const std::vector<detail::SpeedCandidate>& cands,
+                                                              int64_t pad) {
+  std::vector<std::pair<size_t, Match>> out;
+  if (cands.empty()) return out;
+  auto rec = o.opener(path, o.channel);
+  if (!rec) {
+    if (o.on_diagnostic) o.on_diagnostic(path + ": cannot reopen for the speed search: " + rec.error().message);
+    return out;
+  }
+  AudioSource& src = *rec.value();
+  const double native = src.info().native_rate_hz;
+  const double fs = o.analysis_rate_hz;
+  // Candidates of one master together, so that a batch needs few masters;
+  // a batch's masters are decoded for it and dropped after (a day's job
+  // may have a hundred masters of 30 s: no need to hold them all).
+  std::vector<size_t> order(cands.size());
+  for (size_t i = 0; i < order.size(); ++i) order[i] = i;
+  std::stable_sort(order.begin(), order.end(),
+                   [&](size_t a, size_t b) { return cands[a].template_index < cands[b].template_index; });
+  std::map<size_t, Samples> masters;  // analysis rate
+  // Spans in batches, so memory stays a few spans per thread.
+  detail::ThreadPool pool(o.correlator.threads);
+  detail::FftPlans plans(Planner::estimate);
+  const double margin_s = 0.5;
+  const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
+  std::vector<std::optional<Match>> fitted(cands.size());
+  const size_t batch = 4 * pool.workers();
+  std::vector<size_t> master_len(bank.size(), 0);
+  for (size_t first = 0; first < cands.size(); first += batch) {
+    if (o.should_stop && o.should_stop()) break;
+    const size_t n = std::min(batch, cands.size() - first);
+    std::set<size_t> needed;
+    for (size_t i = 0; i < n; ++i) needed.insert(cands[order[first + i]].template_index);
+    for (auto it = masters.begin(); it != masters.end();) it = needed.count(it->first) ? std::next(it) : masters.erase(it);
+    for (size_t t : needed) {
+      if (masters.count(t)) continue;
+      Samples m;
+      if (auto ms = o.opener(bank.at(t).path, ChannelChoice{})) {
+        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
+      }
+      master_len[t] = m.size();
+      masters.emplace(t, std::move(m));
+    }
+    std::vector<Samples> spans(n);
+    std::vector<double> span_start(n);
+    for (size_t i = 0; i < n; ++i) {
+      const auto& c = cands[order[first + i]];
+      const Samples& master = masters.at(c.template_index);
+      if (master.empty()) continue;
+      const double from_s = (c.offset - static_cast<double>(pad)) / fs - margin_s;
+      const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
+      const auto start = static_cast<int64_t>(std::floor(from_s * native));
+      const auto len = static_cast<size_t>(std::ceil(len_s * native));
+      Samples span_native = read_native_span(src, start, len);
+      if (span_native.empty()) continue;
+      // Past the recording's end: silence, as in the plain search, so that
+      // an airing cut by the end is scored on the part that was recorded.
+      span_native.resize(len, 0.0f);
+      spans[i] = resample_all(span_native, native, fs);
+      span_start[i] = static_cast<double>(start) / native * fs;  // analysis samples
+    }
+    pool.run(n, [&](size_t i, size_t) {
+      const auto& c = cands[order[first + i]];
+      if (spans[i].empty()) return;
+      const detail::SpeedSeed seed{c.speed, c.offset - static_cast<double>(pad) - span_start[i], c.speed_step};
+      const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
+      if (!fit || std::fabs(fit->score) < o.picker.threshold) return;
+      if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
+      Match m;
+      m.template_id = bank.at(c.template_index).id;
+      m.recording = path;
+      m.offset_s = (span_start[i] + fit->offset) / fs;
+      m.score = fit->score;
+      m.polarity = fit->polarity;
+      m.speed = fit->speed;
+      fitted[order[first + i]] = std::move(m);
+    });
+  }
+  for (size_t i = 0; i < cands.size(); ++i) {
+    if (!fitted[i]) continue;
+    Match& m = *fitted[i];
+    const size_t t = cands[i].template_index;
+    // Two coarse peaks may settle on one airing: keep the better.
+    const double half_s = 0.25 * static_cast<double>(master_len[t]) / fs;
+    auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
+      return f.first == t && std::fabs(f.second.offset_s - m.offset_s) < half_s;
+    });
+    if (same == out.end()) out.emplace_back(t, std::move(m));
+    else if (std::fabs(m.score) > std::fabs(same->second.score)) same->second = std::move(m);
+  }
+  return out;
+}
+
+}  // namespace
+
+std::string template_id_for(const std::string& path) {
+  return std::filesystem::path(path).stem().string();
+}
+
+Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
+  if (!(o.analysis_rate_hz >= 1000 && o.analysis_rate_hz <= 192000))
+    return Error{ErrorCode::usage, "analysis rate must lie in 1000..192000 Hz", "", std::nullopt};
+  if (job.recordings.empty()) return Error{ErrorCode::usage, "no recordings given", "", std::nullopt};
+  LocateResult result;
+  result.analysis_rate_hz = o.analysis_rate_hz;
+  CorrelatorOptions copt = o.correlator;
+  BankOptions bopt = o.bank;
+  bopt.planner = copt.planner;
+  LocateOptions lo = o;
+  lo.bank = bopt;
+  const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
+  std::vector<detail::WarpTemplate> envelopes;
+  auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
+  if (!bank_r) return bank_r.error();
+  std::shared_ptr<const TemplateBank> bank = bank_r.value();
+  Correlator correlator(bank, copt);
+  std::unique_ptr<detail::SpeedPass> speed_pass;
+  if (speed_search) speed_pass = std::make_unique<detail::SpeedPass>(std::move(envelopes), o.analysis_rate_hz, o.speed, copt.threads);
+  const size_t nrec = job.recordings.size();
+
+  for (size_t ri = 0; ri < nrec; ++ri) {
+    const std::string& path = job.recordings[ri];
+    RecordingReport report;
+    report.path = path;
+    auto src_r = o.opener(path, o.channel);
+    if (!src_r) {
+      report.error = src_r.error();
+      if (o.on_diagnostic) o.on_diagnostic(src_r.error().describe());
+      result.recordings.push_back(std::move(report));
+      continue;
+    }
+    AudioSource& src = *src_r.value();
+    report.format = src.info().format;
+    report.native_rate_hz = src.info().native_rate_hz;
+    report.channels = src.info().channels;
+    correlator.reset();
+    if (speed_pass) speed_pass->reset();
+    std::vector<PeakPicker> pickers;
+    for (const auto& t : bank->templates()) pickers.emplace_back(t.len_samples, o.picker);
+    ScoreSink sink = [&](size_t t, int64_t first, const float* s, size_t n) { pickers[t].feed(first, s, n); };
+
+    AnalysisStream stream(src, o.analysis_rate_hz);
+    Samples block;
+    // Silence of the longest master's length before and after the
+    // recording, so that an airing cut by its start or end is scored on
+    // the part that was recorded, however small (whether it then clears
+    // the threshold does not depend on which other masters share the
+    // search); offsets are counted from the recording's first sample
+    // (negative for an airing that began before it).
+    size_t longest = 0;
+    for (const auto& t : bank->templates()) longest = std::max(longest, t.len_samples);
+    const Samples edge(longest, 0.0f);
+    const auto pad = static_cast<int64_t>(edge.size());
+    correlator.push(edge.data(), edge.size(), sink);
+    if (speed_pass) speed_pass->push(edge.data(), edge.size());
+    Progress prog;
+    prog.recording_index = ri;
+    prog.recordings = nrec;
+    prog.recording_total_s = src.info().duration_s();
+    int64_t last_report = 0;
+    for (;;) {
+      if (o.should_stop && o.should_stop())
+        return Error{ErrorCode::cancelled, "cancelled", path,
+                     static_cast<double>(std::max<int64_t>(0, correlator.samples_pushed() - pad)) / o.analysis_rate_hz};
+      auto more = stream.next(block);
+      if (!block.empty()) {
+        correlator.push(block.data(), block.size(), sink);
+        if (speed_pass) speed_pass->push(block.data(), block.size());
+      }
+      if (!more) {
+        report.error = more.error();
+        if (o.on_diagnostic)
+          o.on_diagnostic(more.error().describe() + "; keeping the matches found before this point");
+        break;
+      }
+      if (!more.value()) break;
+      if (o.on_progress && correlator.samples_pushed() - last_report >= static_cast<int64_t>(o.analysis_rate_hz * 10)) {
+        last_report = correlator.samples_pushed();
+        prog.recording_done_s = static_cast<double>(last_report - pad) / o.analysis_rate_hz;
+        double within = 0;
+        if (prog.recording_total_s && *prog.recording_total_s > 0)
+          within = std::min(1.0, prog.recording_done_s / *prog.recording_total_s);
+        prog.fraction = (static_cast<double>(ri) + within) / static_cast<double>(nrec);
+        o.on_progress(prog);
+      }
+    }
+    if (stream.native_frames_read() > 0) {
+      correlator.push(edge.data(), edge.size(), sink);
+      if (speed_pass) speed_pass->push(edge.data(), edge.size());
+    }
+    correlator.finish(sink);
+    if (speed_pass) speed_pass->finish();
+    if (auto e = src.deferred_error(); e && !report.error) {
+      report.error = e;
+      if (o.on_diagnostic) o.on_diagnostic(e->describe() + "; the rest of that file read as silence");
+    }
+    report.duration_s = static_cast<double>(stream.native_frames_read()) / src.info().native_rate_hz;
+    if (stream.native_frames_read() == 0 && !report.error)
+      report.error = Error{ErrorCode::empty, "recording holds no audio", path, std::nullopt};
+
+    std::vector<std::pair<size_t, Match>> found;
+    for (size_t t = 0; t < pickers.size(); ++t) {
+      pickers[t].finish();
+      for (const auto& c : pickers[t].take()) {
+        Match m;
+        m.template_id = bank->at(t).id;
+        m.recording = path;
+        m.offset_s = (c.offset - static_cast<double>(pad)) / o.analysis_rate_hz;
+        m.score = c.score;
+        m.polarity = c.polarity;
+        found.emplace_back(t, std::move(m));
+      }
+    }
+    src_r.value().reset();  // close before reopening for refinement
+    if (speed_pass) {
+      std::vector<std::pair<size_t, double>> plain;
+      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
+      const auto cands = speed_pass->candidates(plain, report.duration_s);
+      for (auto& f : refine_speed_candidates(path, *bank, o, cands, pad)) found.push_back(std::move(f));
+    }
+    if (o.refine) refine_matches(path, *bank, o, found);
+    std::vector<Match> matches;
+    for (auto& f : found) matches.push_back(std::move(f.second));
+    std::sort(matches.begin(), matches.end(), [](const Match& a, const Match& b) {
+      if (a.offset_s != b.offset_s) return a.offset_s < b.offset_s;
+      return a.template_id < b.template_id;
+    });
+    result.matches.insert(result.matches.end(), matches.begin(), matches.end());
+    result.recordings.push_back(std::move(report));
+    if (o.on_progress) {
+      prog.recording_done_s = result.recordings.back().duration_s;
+      prog.fraction = static_cast<double>(ri + 1) / static_cast<double>(nrec);
+      o.on_progress(prog);
+    }
+  }
+  return result;
+}
+
+}  // namespace godwit

@@ -1,0 +1,378 @@
+#include "job_runner.h"
+
+#include "godwit/compliance/timeline_locate.h"
+
+#include <filesystem>
+#include <random>
+
+#include "atomic_file.h"
+#include "json_text.h"
+#include "base64.h"
+#include "godwit/report/html_report.h"
+#include "godwit/search/job.h"
+#include "godwit/report/locate_report.h"
+#include "godwit/compliance/reconcile_job.h"
+#include "godwit/report/reconcile_report.h"
+#include "library_scan.h"
+#include "repair_report.h"
+#include "reconcile_inputs.h"
+#include "segment_task.h"
+
+namespace godwit {
+namespace {
+
+Error bad(const std::string& msg) { return Error{ErrorCode::bad_request, msg, "", std::nullopt}; }
+
+Result<std::string> guarded(const PathGuard& g, const nlohmann::json& v, const char* field) {
+  if (!v.is_string()) return bad(std::string("'") + field + "' must be a string path");
+  auto r = g.resolve(v.get<std::string>());
+  if (!r) return Error{ErrorCode::forbidden, "path outside the allowed roots: " + v.get<std::string>(), "", std::nullopt};
+  return *r;
+}
+
+// Over `max_count` paths the list is refused before any is resolved: each
+// costs system calls (and a recording an open), and a 24 MiB request line
+// holds hundreds of thousands.
+Result<std::vector<std::string>> guarded_list(const PathGuard& g, const nlohmann::json& job, const char* field,
+                                              bool required, size_t max_count) {
+  std::vector<std::string> out;
+  if (!job.contains(field)) {
+    if (required) return bad(std::string("'") + field + "' is required");
+    return out;
+  }
+  const auto& a = job[field];
+  if (!a.is_array()) return bad(std::string("'") + field + "' must be an array of paths");
+  if (a.size() > max_count)
+    return Error{ErrorCode::too_large,
+                 std::to_string(a.size()) + " " + field + ", over the limit of " + std::to_string(max_count) + " per job",
+                 "", std::nullopt};
+  for (const auto& v : a) {
+    auto p = guarded(g, v, field);
+    if (!p) return p.error();
+    out.push_back(p.value());
+  }
+  if (required && out.empty()) return bad(std::string("'") + field + "' is empty");
+  return out;
+}
+
+std::string random_name() {
+  std::random_device rd;
+  char buf[24];
+  std::snprintf(buf, sizeof buf, "%08x%08x", rd(), rd());
+  return buf;
+}
+
+// Every file must resolve under a root, as the paths a request names do:
+// a symlink in a permitted library may lead anywhere.
+Status all_under_roots(const PathGuard& g, const std::vector<std::string>& files) {
+  for (const auto& f : files)
+    if (!g.resolve(f))
+      return Error{ErrorCode::forbidden, "library file leads outside the allowed roots: " + f, "", std::nullopt};
+  return ok_status();
+}
+
+Result<double> number_in(const nlohmann::json& job, const char* field, double lo, double hi, double dflt) {
+  if (!job.contains(field)) return dflt;
+  if (!job[field].is_number()) return bad(std::string("'") + field + "' must be a number");
+  const double v = job[field].get<double>();
+  if (!(v >= lo && v <= hi))
+    return bad(std::string("'") + field + "' must lie in " + std::to_string(lo) + ".." + std::to_string(hi));
+  return v;
+}
+
+}  // namespace
+
+Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
+  std::string inline_dir;
+  auto r = [&]() -> Result<nlohmann::json> {
+    try {
+      return prepare_job(job, inline_dir);
+    } catch (const std::exception& e) {  // a field of the wrong JSON type
+      return bad(std::string("bad request: ") + e.what());
+    }
+  }();
+  if (!r && !inline_dir.empty()) {  // refused: its inline spots are not kept
+    std::error_code ec;
+    std::filesystem::remove_all(inline_dir, ec);
+  }
+  return r;
+}
+
+void JobRunner::discard(const nlohmann::json& prepared) const {
+  if (config_.inline_dir.empty()) return;
+  const std::string prefix = config_.inline_dir + "/";
+  for (const auto& t : prepared.value("templates", nlohmann::json::array())) {
+    if (!t.is_string() || t.get_ref<const std::string&>().compare(0, prefix.size(), prefix) != 0) continue;
+    std::error_code ec;
+    std::filesystem::remove_all(std::filesystem::path(t.get<std::string>()).parent_path(), ec);
+  }
+}
+
+Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::string& inline_dir) const {
+  if (!job.is_object()) return bad("'job' must be an object");
+  const std::string kind = job.value("kind", "");
+  nlohmann::json out{{"kind", kind}};
+  auto recs = guarded_list(guard_, job, "recordings", true, config_.max_recordings);
+  if (!recs) return recs.error();
+  double total_s = 0;
+  for (const auto& r : recs.value()) {
+    auto src = open_audio_file(r);
+    if (!src) return src.error();
+    if (auto d = src.value()->info().duration_s()) total_s += *d;
+  }
+  if (total_s > config_.max_recording_s)
+    return Error{ErrorCode::too_large,
+                 "recordings total " + std::to_string(total_s) + " s, over the limit of " +
+                     std::to_string(config_.max_recording_s) + " s per job",
+                 "", std::nullopt};
+  out["recordings"] = recs.value();
+  // 0 turns the speed search off.
+  auto speed = number_in(job, "max_speed_change_pct", 0, 10, 4.5);
+  if (!speed) return speed.error();
+  out["max_speed_change_pct"] = speed.value();
+
+  if (kind == "reconcile") {
+    if (!job.contains("library") || !job.contains("schedule")) return bad("a reconcile job needs 'library' and 'schedule'");
+    auto lib = guarded(guard_, job["library"], "library");
+    if (!lib) return lib.error();
+    auto sched = guarded(guard_, job["schedule"], "schedule");
+    if (!sched) return sched.error();
+    auto w = number_in(job, "window_s", 0, 86400, 60);
+    if (!w) return w.error();
+    auto files = library_files(lib.value());
+    if (!files) return files.error();
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(sched.value(), ec))  // a FIFO would hold a worker forever
+      return Error{ErrorCode::unreadable, "the planned log is not a regular file", sched.value(), std::nullopt};
+    // The station's time zone: the job's, else the daemon's; a name the tz
+    // database lacks refuses the job before it is queued.
+    std::string zone = config_.time_zone;
+    if (job.contains("time_zone")) {
+      if (!job["time_zone"].is_string()) return bad("'time_zone' must be a string (an IANA zone name)");
+      zone = job["time_zone"].get<std::string>();
+    }
+    if (!zone.empty()) {
+      auto tz = TimeZone::find(zone);
+      if (!tz) return bad(tz.error().message);
+    }
+    out["library"] = lib.value();
+    out["schedule"] = sched.value();
+    out["window_s"] = w.value();
+    if (!zone.empty()) out["time_zone"] = zone;
+    if (job.contains("excerpts")) {
+      if (!job["excerpts"].is_boolean()) return bad("'excerpts' must be true or false");
+      out["excerpts"] = job["excerpts"];
+    }
+    return out;
+  }
+  if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
+
+  auto tmpl = guarded_list(guard_, job, "templates", false, config_.max_templates);
+  if (!tmpl) return tmpl.error();
+  std::vector<std::string> templates = tmpl.value();
+  std::string library;
+  if (job.contains("library")) {
+    auto lib = guarded(guard_, job["library"], "library");
+    if (!lib) return lib.error();
+    library = lib.value();
+  }
+  if (job.contains("inline")) {
+    if (!job["inline"].is_array()) return bad("'inline' must be an array");
+    if (job["inline"].size() > config_.max_templates)  // before any is decoded and written
+      return Error{ErrorCode::too_large,
+                   std::to_string(job["inline"].size()) + " inline spots, over the limit of " +
+                       std::to_string(config_.max_templates) + " templates per job",
+                   "", std::nullopt};
+    const std::string dir = config_.inline_dir + "/" + random_name();
+    std::error_code ec;
+    inline_dir = dir;
+    std::filesystem::create_directories(dir, ec);
+    if (ec) return Error{ErrorCode::io, "cannot store inline spots: " + ec.message(), dir, std::nullopt};
+    for (const auto& s : job["inline"]) {
+      if (!s.is_object() || !s.contains("id") || !s["id"].is_string() || !s.contains("audio_base64") ||
+          !s["audio_base64"].is_string())
+        return bad("each inline spot needs 'id' and 'audio_base64' strings");
+      const std::string id = s["id"].get<std::string>();
+      if (id.empty() || id.find_first_of("/\\.") != std::string::npos || id.size() > 128)
+        return bad("inline spot id must be a plain name (no '/', '\\\\' or '.')");
+      const std::string fmt = s.value("format", "wav");
+      if (!has_audio_extension("x." + fmt)) return bad("inline spot format must be wav, flac, ogg, opus or mp3");
+      const auto& b64 = s["audio_base64"].get_ref<const std::string&>();
+      if (b64.size() / 4 * 3 > config_.max_inline_bytes)
+        return Error{ErrorCode::too_large, "inline spot '" + id + "' is over " +
+                                               std::to_string(config_.max_inline_bytes >> 20) + " MiB", "", std::nullopt};
+      auto bytes = base64_decode(b64);
+      if (!bytes) return bad("inline spot '" + id + "' is not valid base64");
+      const std::string path = dir + "/" + id + "." + fmt;
+      if (auto st = write_file_atomically(path, *bytes); !st) return st.error();
+      auto probe = open_audio_file(path);
+      if (!probe) return probe.error();
+      templates.push_back(path);
+    }
+  }
+  if (templates.empty() && library.empty()) library = config_.default_library;
+  if (!library.empty()) {
+    auto files = library_files(library);
+    if (!files) return files.error();
+    templates.insert(templates.end(), files.value().begin(), files.value().end());
+  }
+  if (templates.empty()) return bad("no templates: give 'templates', 'library' or 'inline'");
+  if (templates.size() > config_.max_templates)
+    return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
+                                           std::to_string(config_.max_templates) + " per job", "", std::nullopt};
+  // The journal and the queue carry paths as JSON text, which holds only
+  // UTF-8: such a file could not be found again after a restart.
+  for (const auto& t : templates)
+    if (!is_valid_utf8(t))
+      return Error{ErrorCode::unsupported,
+                   "file name is not valid UTF-8 (rename the file): " + escape_invalid_utf8(t), "", std::nullopt};
+  out["templates"] = templates;
+  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, PickerOptions{}.threshold}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
+    auto v = number_in(job, field, lo, hi, dflt);
+    if (!v) return v.error();
+    out[field] = v.value();
+  }
+  auto fft = number_in(job, "fft_size", 0, double(1 << 24), 0);
+  if (!fft) return fft.error();
+  const auto fs = static_cast<size_t>(fft.value());
+  if (fs & (fs - 1)) return bad("'fft_size' must be a power of two");
+  out["fft_size"] = fs;
+  return out;
+}
+
+namespace {
+
+// The search options a job or task states (the rest are the daemon's).
+void apply_search_fields(const nlohmann::json& spec, LocateOptions& lo) {
+  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
+  lo.speed.enabled = speed_pct > 0;
+  lo.speed.max_deviation = speed_pct / 100;
+  lo.picker.threshold = spec.value("threshold", lo.picker.threshold);
+  lo.picker.floor_k = spec.value("floor_k", lo.picker.floor_k);
+  lo.bank.fixed_fft_size = spec.value("fft_size", size_t{0});
+}
+
+}  // namespace
+
+LocateOptions JobRunner::locate_options(const nlohmann::json& spec, const std::function<void(std::string_view)>& warn) const {
+  LocateOptions lo;
+  lo.correlator.threads = config_.threads_per_job;
+  lo.correlator.planner = config_.planner;
+  lo.on_diagnostic = warn;
+  lo.opener = reporting_opener(lo.opener, warn);
+  apply_search_fields(spec, lo);
+  return lo;
+}
+
+Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spec,
+                                                       const std::function<void(std::string_view)>& warn) const {
+  std::vector<std::string> warnings;
+  auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"),
+                                 spec.at("recordings").get<std::vector<std::string>>(), spec.value("window_s", 60.0), "",
+                                 spec.value("time_zone", ""), "the job's time_zone (or the daemon's time_zone setting)"},
+                                warnings);
+  for (const auto& w : warnings) warn(w);
+  if (!job) return job.error();
+  if (auto st = all_under_roots(guard_, job.value().masters); !st) return st.error();
+  Reconcile r;
+  r.job = std::move(job.value());
+  r.options.locate.correlator.threads = config_.threads_per_job;
+  r.options.locate.correlator.planner = config_.planner;
+  r.options.locate.on_diagnostic = warn;
+  r.options.locate.opener = reporting_opener(r.options.locate.opener, warn);
+  apply_search_fields(spec, r.options.locate);
+  r.title = std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string();
+  return r;
+}
+
+Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
+                                      const std::function<bool()>& should_stop,
+                                      const std::function<void(std::string_view)>& warn, const ReportFiles* report,
+                                      const std::string& job_id) const {
+  FftCostTable costs = this->costs();
+  struct KeepCosts {  // whatever the job measured, kept for the next ones
+    const JobRunner& runner;
+    FftCostTable& costs;
+    ~KeepCosts() {
+      std::lock_guard lock(runner.costs_mu_);
+      runner.costs_.insert(costs.begin(), costs.end());
+    }
+  } keep{*this, costs};
+  const std::string kind = spec.value("kind", "");
+  if (kind == "reconcile") {
+    auto rec = load_reconcile(spec, warn);
+    if (!rec) return rec.error();
+    ReconcileOptions& ro = rec.value().options;
+    ro.locate.bank.costs = &costs;
+    ro.locate.on_progress = [&](const Progress& p) { progress(p.fraction); };
+    ro.locate.should_stop = should_stop;
+    auto r = run_reconcile(rec.value().job, ro);
+    if (!r) return r.error();
+    return reconcile_documents(r.value(), spec, ro, rec.value().title, report, should_stop, warn, job_id);
+  }
+  LocateOptions lo = locate_options(spec, warn);
+  lo.bank.costs = &costs;
+  lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
+  lo.should_stop = should_stop;
+  const auto templates = spec.at("templates").get<std::vector<std::string>>();
+  if (kind == "segment") {
+    auto seg = segment_from_json(spec.at("segment"));
+    if (!seg) return seg.error();
+    auto r = search_segment(seg.value(), templates, lo);
+    if (!r) return r.error();
+    nlohmann::json out = locate_to_json(r.value(), true);
+    if (spec.value("evidence", false)) {  // a reconcile job's: steps 4 and 6 here, beside the audio
+      ReconcileOptions ro;
+      ro.locate = lo;
+      const auto ev = gather_evidence(r.value().templates, seg.value().stream.parts, r.value().matches, ro);
+      out["evidence"] = nlohmann::json::array();
+      for (const auto& e : ev) out["evidence"].push_back(evidence_to_json(e));
+    }
+    return out;
+  }
+  LocateJob job{templates, spec.at("recordings").get<std::vector<std::string>>()};
+  auto r = run_locate_job(job, lo);
+  if (!r) return r.error();
+  return locate_to_json(r.value());
+}
+
+Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& result, const nlohmann::json& spec,
+                                                     const ReconcileOptions& options, const std::string& title,
+                                                     const ReportFiles* report, const std::function<bool()>& should_stop,
+                                                     const std::function<void(std::string_view)>& warn,
+                                                     const std::string& job_id) const {
+  std::optional<Listening> heard;
+  if (report) {
+    ReportFiles f = *report;
+    f.log_name = title;
+    f.excerpts = f.excerpts && spec.value("excerpts", true);
+    auto w = write_report_files(result, options, f, should_stop, warn);
+    if (!w) return w.error();
+    heard = std::move(w.value());
+  }
+  if (config_.on_reconciled)
+    if (auto st = config_.on_reconciled(result, options, spec, job_id); !st)
+      return Error{st.error().code, "the store of record was not written: " + st.error().message, st.error().path,
+                   std::nullopt};
+  return reconcile_to_json(result, options.loudness, heard ? &*heard : nullptr);
+}
+
+Result<std::vector<std::string>> JobRunner::library_files(const std::string& dir) const {
+  auto files = scan_library(dir);
+  if (!files) return files;
+  if (auto st = all_under_roots(guard_, files.value()); !st) return st.error();
+  return files;
+}
+
+FftCostTable JobRunner::costs() const {
+  std::lock_guard lock(costs_mu_);
+  return costs_;
+}
+
+JobExecutor local_executor(const JobRunner& runner) {
+  return [&runner](const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
+                   const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
+                   const ReportFiles* report) { return runner.run(spec, progress, should_stop, warn, report, id); };
+}
+
+}  // namespace godwit

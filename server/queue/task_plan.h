@@ -1,0 +1,63 @@
+// Task plan: how a job splits into tasks for the queue, and how the tasks'
+// results merge back into the job's search.
+//
+// Every task searches one segment (segment_task.h) of one stream for a
+// batch of masters: a locate job's streams are its recordings, a reconcile
+// job's are the runs of its timeline (plan_reconcile), so both split the
+// same way, into (hour x batch of masters) tasks. The engine scores each
+// (master, stream) pair on its own and a segment reads past what it owns,
+// so the merged matches are those of one process; a detection seen by two
+// segments near their boundary is kept once. A reconcile job's
+// verification, versions and verdicts then run on the merged search
+// (finish_reconcile).
+//
+// A task's id is a hash of its job id, its place in the plan and its spec
+// (FNV-1a, 64 bits, hex): planning the same job twice gives the same ids,
+// so enqueuing or storing a task twice is harmless.
+//
+// Thread contract: plain functions.
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "godwit/core/error.h"
+#include "godwit/search/job.h"
+#include "segment_task.h"
+
+namespace godwit {
+
+struct PlannedTask {
+  std::string id;
+  nlohmann::json spec;  // {"kind": "segment", ...}, which JobRunner::run accepts
+  size_t stream = 0;    // index into the plan's streams
+};
+
+struct PlanOptions {
+  size_t templates_per_task = 25;
+  double span_s = 3600;  // a stream over 1.5 spans is split into spans. Default: an hour
+};
+
+// `base`: the search options every task carries (threshold, floor_k,
+// fft_size, max_speed_change_pct). `margin_s`: as split_stream's.
+std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::json& base,
+                                    const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+                                    double margin_s, const PlanOptions& options);
+
+struct MergedSearch {
+  LocateResult search;
+  // One per match of `search`: the evidence its task gathered (reconcile
+  // tasks, evidence_to_json), null where its task gave none.
+  std::vector<nlohmann::json> evidence;
+};
+
+// The job's search from its tasks' results (in plan order): templates in
+// `templates` order; one recording report per stream, keeping the
+// earliest error and the furthest point decoded; matches by stream, then
+// offset, then template. Errors: a result that is not a locate document,
+// or a count that differs from the plan's.
+Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
+                                   const std::vector<PlannedTask>& tasks, const std::vector<nlohmann::json>& results);
+
+}  // namespace godwit

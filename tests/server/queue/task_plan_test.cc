@@ -1,0 +1,131 @@
+// Queue mode's pure parts: the queue URL, the task plan and the merge.
+#include "task_plan.h"
+
+#include <doctest/doctest.h>
+
+#include <set>
+
+#include "redis_connection.h"
+#include "segment_task.h"
+
+using namespace godwit;
+
+TEST_CASE("queue URLs: host, port, stream, bad ones are usage errors") {
+  auto q = parse_queue_url("redis://10.1.2.3:6380/kestrel-tasks");
+  REQUIRE(q);
+  CHECK(q.value().host == "10.1.2.3");
+  CHECK(q.value().port == 6380);
+  CHECK(q.value().stream == "kestrel-tasks");
+  auto d = parse_queue_url("redis://queue-host");
+  REQUIRE(d);
+  CHECK(d.value().port == 6379);
+  CHECK(d.value().stream == "godwit");
+  auto v6 = parse_queue_url("redis://[::1]:7000/s");
+  REQUIRE(v6);
+  CHECK(v6.value().host == "::1");
+  CHECK(v6.value().port == 7000);
+  for (const char* bad : {"http://x:1/s", "redis://:6379/s", "redis://h:99999/s", "redis://h:12ab/s", "redis://[::1/s"}) {
+    CAPTURE(bad);
+    auto r = parse_queue_url(bad);
+    REQUIRE(!r);
+    CHECK(r.error().code == ErrorCode::usage);
+  }
+}
+
+namespace {
+
+Stream whole(const std::string& path) { return Stream{path, {}, 0, 0}; }
+
+nlohmann::json doc(const std::string& rec, const std::string& tmpl, std::vector<std::pair<double, double>> offsets_scores,
+                   bool error = false, double error_at_s = 0, double decoded_s = 60) {
+  nlohmann::json r{{"path", rec}, {"format", "flac"}, {"duration_s", decoded_s}, {"native_rate_hz", 44100}, {"channels", 2}};
+  if (error) r["error"] = {{"code", "corrupt"}, {"message", "broke"}, {"offset_s", error_at_s}};
+  nlohmann::json ms = nlohmann::json::array();
+  for (auto [off, score] : offsets_scores)
+    ms.push_back({{"template", tmpl}, {"recording", rec}, {"offset_s", off}, {"score", score}});
+  return nlohmann::json{{"analysis_rate_hz", 8000.0},
+                        {"templates", {{{"id", tmpl}, {"path", "/lib/" + tmpl + ".wav"}, {"duration_s", 10.0}, {"fft_size", 0}}}},
+                        {"recordings", {r}},
+                        {"matches", ms}};
+}
+
+}  // namespace
+
+TEST_CASE("a job splits into stream x master-batch tasks with stable, distinct ids") {
+  const std::vector<std::string> templates{"/lib/t1.wav", "/lib/t2.wav", "/lib/t3.wav"};
+  const std::vector<Stream> streams{whole("/air/a.flac"), whole("/air/b.flac"), whole("/air/a.flac")};
+  const nlohmann::json base{{"threshold", 0.4}};
+  const PlanOptions po{2, 3600};
+  const auto tasks = plan_tasks("j1", base, streams, templates, 45, po);
+  REQUIRE(tasks.size() == 6);  // 3 recordings x (2 + 1 masters)
+  CHECK(tasks[0].spec["kind"] == "segment");
+  CHECK(tasks[0].spec["segment"]["name"] == "/air/a.flac");
+  CHECK(tasks[0].spec["templates"] == nlohmann::json::array({"/lib/t1.wav", "/lib/t2.wav"}));
+  CHECK(tasks[1].spec["templates"] == nlohmann::json::array({"/lib/t3.wav"}));
+  CHECK(tasks[0].spec["threshold"] == 0.4);
+  CHECK(tasks[5].stream == 2);
+  std::set<std::string> ids;
+  for (const auto& t : tasks) ids.insert(t.id);
+  CHECK(ids.size() == 6);  // a file listed twice is searched twice
+  const auto again = plan_tasks("j1", base, streams, templates, 45, po);
+  for (size_t i = 0; i < tasks.size(); ++i) CHECK(again[i].id == tasks[i].id);
+  CHECK(plan_tasks("j2", base, streams, templates, 45, po)[0].id != tasks[0].id);
+  // A day of 24 hour files as one run: 24 spans x 2 batches.
+  Stream day{"run:0", {}, 8000, 86400};
+  for (int h = 0; h < 24; ++h) day.parts.push_back({"/air/h" + std::to_string(h) + ".flac", 3600 * 8000, 0});
+  CHECK(plan_tasks("j3", base, {day}, templates, 45, po).size() == 48);
+}
+
+TEST_CASE("merging orders matches as one process does and keeps a recording's earliest error") {
+  const std::vector<std::string> templates{"/lib/t1.wav", "/lib/t2.wav"};
+  const std::vector<Stream> streams{whole("a.flac"), whole("b.flac")};
+  const auto tasks = plan_tasks("j", nlohmann::json::object(), streams, templates, 45, PlanOptions{1, 3600});
+  REQUIRE(tasks.size() == 4);  // a x t1, a x t2, b x t1, b x t2
+  const std::vector<nlohmann::json> results{doc("a.flac", "t1", {{9.0, 0.9}}), doc("a.flac", "t2", {{3.0, 0.8}}),
+                                            doc("b.flac", "t1", {{1.0, 0.7}}, true, 30, 30),
+                                            doc("b.flac", "t2", {{2.0, 0.7}}, true, 20, 20)};
+  auto m = merge_results(streams, templates, tasks, results);
+  REQUIRE(m);
+  const auto& r = m.value().search;
+  REQUIRE(r.matches.size() == 4);
+  CHECK(r.matches[0].offset_s == 3.0);  // a.flac first, by offset
+  CHECK(r.matches[1].offset_s == 9.0);
+  CHECK(r.matches[2].recording == "b.flac");
+  REQUIRE(r.templates.size() == 2);
+  CHECK(r.templates[0].id == "t1");
+  REQUIRE(r.recordings.size() == 2);
+  CHECK(!r.recordings[0].error);
+  REQUIRE(r.recordings[1].error);
+  CHECK(*r.recordings[1].error->offset_s == 20);  // the earlier break
+  CHECK(r.recordings[1].error->code == ErrorCode::corrupt);
+  CHECK(!r.complete());
+  CHECK(!merge_results(streams, templates, tasks, {results[0]}));
+  CHECK(!merge_results(streams, templates, tasks, {results[0], results[1], results[2], nlohmann::json{{"x", 1}}}));
+}
+
+TEST_CASE("a detection reported by two neighbouring segments is kept once, with the better score") {
+  const std::vector<std::string> templates{"/lib/t1.wav"};
+  Stream s{"long.flac", {{"long.flac", 7500 * 8000, 0}}, 8000, 7500};
+  const auto tasks = plan_tasks("j", nlohmann::json::object(), {s}, templates, 45, PlanOptions{1, 3600});
+  REQUIRE(tasks.size() == 2);  // 3600 + 3900 (the last 300 s join the second span)
+  // Both saw the airing at 3599.99 / 3600.01 (a peak either side of the boundary).
+  std::vector<nlohmann::json> results{doc("long.flac", "t1", {{100.0, 0.9}, {3599.99, 0.81}}, false, 0, 3645),
+                                      doc("long.flac", "t1", {{3600.01, 0.83}, {3610.5, 0.9}}, false, 0, 7500)};
+  // Reconcile tasks' evidence travels with its match.
+  results[0]["evidence"] = {{{"coverage", 1.0}}, {{"coverage", 0.81}}};
+  results[1]["evidence"] = {{{"coverage", 0.83}}, {{"coverage", 0.9}}};
+  auto m = merge_results({s}, templates, tasks, results);
+  REQUIRE(m);
+  const auto& ms = m.value().search.matches;
+  REQUIRE(ms.size() == 3);  // 3610.5 is 10.49 s after 3600.01: a new airing of a 10 s master
+  CHECK(ms[0].offset_s == 100.0);
+  CHECK(ms[1].offset_s == 3600.01);
+  CHECK(ms[1].score == 0.83);
+  CHECK(ms[2].offset_s == 3610.5);
+  REQUIRE(m.value().evidence.size() == 3);
+  CHECK(m.value().evidence[1]["coverage"] == 0.83);
+  CHECK(m.value().evidence[2]["coverage"] == 0.9);
+  results[1]["evidence"].erase(1);  // evidence for other matches than the task's: refused
+  CHECK(!merge_results({s}, templates, tasks, results));
+  CHECK(m.value().search.recordings[0].duration_s == 7500);  // the furthest decoded
+}
