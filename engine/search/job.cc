@@ -12,6 +12,7 @@
 #include "speed/speed_pass.h"
 #include "core/thread_pool.h"
 #include "speed/speed_refiner.h"
+#include "speed/tempo_refiner.h"
 
 namespace godwit {
 namespace {
@@ -75,7 +76,10 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
   // A master once per speed it aired at: decoded at native / speed, it
   // plays at the native rate as it aired.
   std::set<std::pair<size_t, double>> versions;
-  for (const auto& f : found) versions.insert({f.first, f.second.speed});
+  // A tempo change (pitch kept) matches the master only frame by frame:
+  // its offset stays the tempo fit's.
+  for (const auto& f : found)
+    if (f.second.tempo == 1) versions.insert({f.first, f.second.speed});
   for (const auto& [t, speed] : versions) {
     const auto& info = bank.at(t);
     auto msrc = o.opener(info.path, ChannelChoice{});
@@ -84,7 +88,7 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
     if (!master) continue;
     const Samples& tmpl = master.value();
     for (auto& [ti, m] : found) {
-      if (ti != t || m.speed != speed) continue;
+      if (ti != t || m.speed != speed || m.tempo != 1) continue;
       const double coarse = m.offset_s * native;
       // An airing cut by the start or the end of the recording: silence
       // stands for what was not recorded.
@@ -135,6 +139,8 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
   detail::FftPlans plans(Planner::estimate);
   const double margin_s = 0.5;
   const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
+  const double tempo_low = 1.0 / (1.0 + o.speed.max_tempo_deviation) - 1e-3,
+               tempo_high = 1.0 + o.speed.max_tempo_deviation + 1e-3;
   std::vector<std::optional<Match>> fitted(cands.size());
   const size_t batch = 4 * pool.workers();
   std::vector<size_t> master_len(bank.size(), 0);
@@ -175,16 +181,29 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       const auto& c = cands[order[first + i]];
       if (spans[i].empty()) return;
       const detail::SpeedSeed seed{c.speed, c.offset - static_cast<double>(pad) - span_start[i], c.speed_step};
-      const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
-      if (!fit || std::fabs(fit->score) < o.picker.threshold) return;
-      if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
+      const Samples& master = masters.at(c.template_index);
       Match m;
       m.template_id = bank.at(c.template_index).id;
       m.recording = path;
-      m.offset_s = (span_start[i] + fit->offset) / fs;
-      m.score = fit->score;
-      m.polarity = fit->polarity;
-      m.speed = fit->speed;
+      if (const auto fit = detail::refine_speed(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
+          fit && std::fabs(fit->score) >= o.picker.threshold) {
+        if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
+        m.offset_s = (span_start[i] + fit->offset) / fs;
+        m.score = fit->score;
+        m.polarity = fit->polarity;
+        m.speed = fit->speed;
+        fitted[order[first + i]] = std::move(m);
+        return;
+      }
+      // No speed fits: a tempo change with the pitch kept?
+      if (!(o.speed.max_tempo_deviation > 0)) return;
+      const auto tf = detail::refine_tempo(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
+      if (!tf || std::fabs(tf->score) < o.picker.threshold) return;
+      if (std::fabs(tf->tempo - 1) < o.speed.unit_tolerance || tf->tempo < tempo_low || tf->tempo > tempo_high) return;
+      m.offset_s = (span_start[i] + tf->offset) / fs;
+      m.score = tf->score;
+      m.polarity = tf->polarity;
+      m.tempo = tf->tempo;
       fitted[order[first + i]] = std::move(m);
     });
   }

@@ -46,7 +46,7 @@ SpeedPass::SpeedPass(std::vector<WarpTemplate> envelopes, double rate_hz, const 
   size_t longest = 1;
   for (const auto& e : envelopes) longest = std::max(longest, e.frames);
   const double step = 4 * drift_s / (static_cast<double>(longest) * frame_s);
-  const double range = std::log1p(std::max(0.0, o.max_deviation));
+  const double range = std::log1p(std::max({0.0, o.max_deviation, o.max_tempo_deviation}));
   const int g_max = std::max(1, static_cast<int>(std::ceil(range / step)));
   for (int g = -g_max; g <= g_max; ++g) speeds_.push_back(std::exp(range * g / g_max));
   const double grid = range / g_max;
