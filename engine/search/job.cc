@@ -166,7 +166,10 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       const Samples& master = masters.at(c.template_index);
       if (master.empty()) continue;
       const double from_s = (c.offset - static_cast<double>(pad)) / fs - margin_s;
-      const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
+      // A tempo change's coarse speed leans towards 1 (tempo_refiner.h):
+      // room for the 2 % it may lean.
+      const double lean = o.speed.max_tempo_deviation > 0 ? 0.02 : 0.0;
+      const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step + lean) + 2 * margin_s;
       const auto start = static_cast<int64_t>(std::floor(from_s * native));
       const auto len = static_cast<size_t>(std::ceil(len_s * native));
       Samples span_native = read_native_span(src, start, len);
@@ -185,25 +188,31 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       Match m;
       m.template_id = bank.at(c.template_index).id;
       m.recording = path;
-      if (const auto fit = detail::refine_speed(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
-          fit && std::fabs(fit->score) >= o.picker.threshold) {
-        if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
+      auto fit = detail::refine_speed(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
+      if (fit && std::fabs(fit->score) < o.picker.threshold) fit.reset();
+      // A tempo change, or a speed change whose waveform the tempo model
+      // explains better (a phase vocoder's output can pass a speed fit at
+      // a low score): the model that matches the airing better wins.
+      std::optional<detail::TempoFit> tf;
+      if (o.speed.max_tempo_deviation > 0) {
+        tf = detail::refine_tempo(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
+        if (tf && (std::fabs(tf->score) < o.picker.threshold || tf->tempo < tempo_low || tf->tempo > tempo_high ||
+                   (fit && std::fabs(fit->score) >= std::fabs(tf->score))))
+          tf.reset();
+      }
+      if (tf) {
+        if (std::fabs(tf->tempo - 1) < o.speed.unit_tolerance) return;
+        m.offset_s = (span_start[i] + tf->offset) / fs;
+        m.score = tf->score;
+        m.polarity = tf->polarity;
+        m.tempo = tf->tempo;
+      } else {
+        if (!fit || std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
         m.offset_s = (span_start[i] + fit->offset) / fs;
         m.score = fit->score;
         m.polarity = fit->polarity;
         m.speed = fit->speed;
-        fitted[order[first + i]] = std::move(m);
-        return;
       }
-      // No speed fits: a tempo change with the pitch kept?
-      if (!(o.speed.max_tempo_deviation > 0)) return;
-      const auto tf = detail::refine_tempo(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
-      if (!tf || std::fabs(tf->score) < o.picker.threshold) return;
-      if (std::fabs(tf->tempo - 1) < o.speed.unit_tolerance || tf->tempo < tempo_low || tf->tempo > tempo_high) return;
-      m.offset_s = (span_start[i] + tf->offset) / fs;
-      m.score = tf->score;
-      m.polarity = tf->polarity;
-      m.tempo = tf->tempo;
       fitted[order[first + i]] = std::move(m);
     });
   }

@@ -265,6 +265,7 @@ int main(int argc, char** argv) {
   bool no_locate = false, verbose = false, reuse = false;
   double threshold = -1, floor_k = -1, min_airing = -1, deficit = -1;
   bool no_tempo_fit = false;
+  double tempo_odds = -1;
   app.add_option("--hours", hours, "length of the day in hours (default 6)");
   app.add_option("--file-min", file_min, "length of each recording in minutes (default 20)");
   app.add_option("--seed", seed, "scenario seed (default 1)");
@@ -276,6 +277,10 @@ int main(int argc, char** argv) {
   app.add_option("--floor-k", floor_k, "engine --floor-k (default: the engine's)");
   app.add_option("--min-airing-score", min_airing, "reconcile's min_airing_score (default: the engine's)");
   app.add_option("--max-foreground-deficit", deficit, "reconcile's max_foreground_deficit (default: the engine's)");
+  app.add_option("--tempo-odds", tempo_odds,
+                 "share of airings at their master's speed that a stretcher changes the tempo of (default 0.15; more for "
+                 "a closer look at them)")
+      ->check(CLI::Range(0.0, 1.0));
   app.add_flag("--no-tempo-fit", no_tempo_fit, "engine without the tempo fit (speed search only), for a before/after on one seed");
   CLI11_PARSE(app, argc, argv);
   const fs::path dir = keep.empty() ? fs::temp_directory_path() / ("godwit-accuracy-" + std::to_string(seed)) : fs::path(keep);
@@ -284,6 +289,7 @@ int main(int argc, char** argv) {
   ao.hours = hours;
   ao.file_s = file_min * 60;
   ao.seed = seed;
+  if (tempo_odds >= 0) ao.odds.tempo = tempo_odds;
   ao.reuse = reuse && !keep.empty();
   ao.dir = dir.string();
   ao.log = [](const std::string& s) { std::fprintf(stderr, "accuracy_bench: %s\n", s.c_str()); };
