@@ -61,7 +61,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     const size_t air_len = static_cast<size_t>(static_cast<double>(stored.size()) / m.tempo);
     const Samples span = read_native_span(concat, std::llround(m.offset_s * rate), air_len);
     const Samples master = m.tempo == 1 ? Samples{}
-                                        : detail::aligned_master(plans, stored, span, rate, m.tempo, detail::kTempoJitterS);
+                                        : detail::aligned_master(plans, stored, span, rate, m.tempo, detail::kTempoJitterS,
+                                                                                 m.polarity);
     const Samples& as_aired = m.tempo == 1 ? stored : master;
     DetectionEvidence e;
     // Segments of segment_s of the master last segment_s / k on air; the

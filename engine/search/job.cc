@@ -17,6 +17,12 @@
 namespace godwit {
 namespace {
 
+// A plain detection scoring at least this keeps the speed search away from
+// its airing (ours: 0.5 lies above what a stretched airing scores plain on
+// the speed and accuracy benchmarks, 0.18-0.3, and below what nearly
+// every unchanged airing scores).
+constexpr double kClearPlainScore = 0.5;
+
 Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, const LocateOptions& o,
                                                       std::vector<TemplateReport>& reports,
                                                       std::vector<detail::WarpTemplate>* warp) {
@@ -195,7 +201,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       // a low score): the model that matches the airing better wins.
       std::optional<detail::TempoFit> tf;
       if (o.speed.max_tempo_deviation > 0) {
-        tf = detail::refine_tempo(plans, master, spans[i], fs, seed, detail::EnvelopeBands{});
+        tf = detail::refine_tempo(plans, master, spans[i], fs, seed, detail::EnvelopeBands{}, o.speed.max_tempo_deviation);
         if (tf && (std::fabs(tf->score) < o.picker.threshold || tf->tempo < tempo_low || tf->tempo > tempo_high ||
                    (fit && std::fabs(fit->score) >= std::fabs(tf->score))))
           tf.reset();
@@ -353,10 +359,32 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     }
     src_r.value().reset();  // close before reopening for refinement
     if (speed_pass) {
+      // A plain detection keeps the speed search away from its airing only
+      // when it is clear: a stretcher's copies make a tempo-changed airing
+      // match the plain correlation in part (0.18 for sox at 2 %), and
+      // such a detection would hide the airing's tempo fit.
       std::vector<std::pair<size_t, double>> plain;
-      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
+      for (const auto& [t, m] : found)
+        if (!(o.speed.max_tempo_deviation > 0) || std::fabs(m.score) >= kClearPlainScore)
+          plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
       const auto cands = speed_pass->candidates(plain, report.duration_s);
-      for (auto& f : refine_speed_candidates(path, *bank, o, cands, pad)) found.push_back(std::move(f));
+      for (auto& f : refine_speed_candidates(path, *bank, o, cands, pad)) {
+        // One airing, one match: a fit and a weak plain detection of the
+        // same master there keep the better scoring (a fit within 0.2 % of
+        // tempo 1 never displaces a plain detection).
+        const double half_s = 0.5 * static_cast<double>(bank->at(f.first).len_samples) / o.analysis_rate_hz;
+        auto overlaps = [&](const std::pair<size_t, Match>& p) {
+          return p.first == f.first && p.second.speed == 1 && p.second.tempo == 1 &&
+                 std::fabs(p.second.offset_s - f.second.offset_s) < half_s;
+        };
+        bool better = std::fabs(f.second.tempo - 1) >= 0.002 || f.second.speed != 1;
+        for (const auto& p : found)
+          if (overlaps(p) && std::fabs(p.second.score) >= std::fabs(f.second.score)) better = false;
+        const bool any = std::any_of(found.begin(), found.end(), overlaps);
+        if (any && !better) continue;
+        found.erase(std::remove_if(found.begin(), found.end(), overlaps), found.end());
+        found.push_back(std::move(f));
+      }
     }
     if (o.refine) refine_matches(path, *bank, o, found);
     std::vector<Match> matches;

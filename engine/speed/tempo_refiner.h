@@ -45,18 +45,21 @@ struct TempoFit {
   size_t segments = 0;    // segments that agreed with the final line fit
 };
 
+// Tempos searched: 1 / (1 + max_deviation) .. 1 + max_deviation.
 std::optional<TempoFit> refine_tempo(FftPlans& plans, const Samples& master, const Samples& span, double rate_hz,
-                                     const SpeedSeed& seed, const EnvelopeBands& bands);
+                                     const SpeedSeed& seed, const EnvelopeBands& bands, double max_deviation);
 
 // The master as it aired at `tempo` with its pitch kept, aligned to
 // `airing` (whose first sample is the master's first sample on air): for
 // each 32 ms frame of air time (hop 16 ms, periodic Hann, overlap-added),
 // the master's frame around where the line puts it, moved by up to
 // `tolerance_s` to where its 64 ms context matches `airing` best (staying
-// where the previous frame was when that matches nearly as well). Length:
-// that of `airing`, zero where the master has ended. Any rate.
+// where the previous frame was unless moving clearly helps), each frame's
+// best match signed by `polarity` (-1: the airing is inverted; the result
+// is not). Length: that of `airing`, zero where the master has ended. Any
+// rate (the track is found at 8 kHz).
 Samples aligned_master(FftPlans& plans, const Samples& master, const Samples& airing, double rate_hz, double tempo,
-                       double tolerance_s);
+                       double tolerance_s, int polarity);
 
 // The jitter tolerance the tempo fit and the confirmation use. Default
 // 12 ms: sox's `tempo` searches 14.68 ms around each overlap (its
