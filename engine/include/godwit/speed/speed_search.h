@@ -24,14 +24,16 @@
 //
 // Tempo changes with the pitch kept (a time-stretcher) share step 1: their
 // envelopes are the master's, time-scaled, at nearly the same band edges.
-// Each coarse peak that no speed fits is then tried as a tempo change
-// (tempo_refiner.h: envelopes with the band edges in place, 32 ms segments
-// with a consensus line, a confirmation against the master aligned frame by
-// frame, calibrated by a null alignment); it becomes a Match with `tempo`
-// != 1 and `speed` 1. A fit is a tempo change only when the envelopes match
-// better with the band edges in place than shifted by the tempo (the
-// spectrum did not move), a speed change only when the resampled master's
-// waveform matches: the two kinds are told apart.
+// Each coarse peak is also tried as a tempo change (tempo_refiner.h:
+// envelopes with the band edges in place, 32 ms segments with a consensus
+// line, a confirmation against the master aligned frame by frame,
+// calibrated by a null alignment); it becomes a Match with `tempo` != 1
+// and `speed` 1 when no speed fits, or when it beats the speed fit's score
+// by 0.2 (search/speed_refinement.cc). A fit is a tempo change only when
+// the envelopes match at least as well with the band edges in place as
+// shifted by the tempo (the spectrum did not move), a speed change only
+// when the resampled master's waveform matches: the two kinds are told
+// apart.
 //
 // Detections that the plain search already made (same master, overlapping
 // in time) are left to it; so are those whose fitted speed is within
