@@ -247,22 +247,26 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     d.run = *run;
     d.match = m;
     if (d.run >= timeline.runs.size() || !evidence[i]) continue;
+    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
+    const auto& f = timeline.runs[d.run].files[part];
     if (evidence[i]->weak) {
       ++res.rejected_weak;
+      res.rejected.push_back({m.template_id, f.start_s + in_file_s, m.score, m.speed, evidence[i]->profile.coverage,
+                              evidence[i]->aired_score, evidence[i]->foreground_contrast});
       continue;
     }
     d.profile = std::move(evidence[i]->profile);
     d.foreground_contrast = evidence[i]->foreground_contrast;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
-    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
-    const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;
     d.file_offset_s = in_file_s;
     d.aired_s = f.start_s + d.file_offset_s;
     dets.push_back(std::move(d));
   }
   std::sort(dets.begin(), dets.end(), [](const Detection& a, const Detection& b) { return a.aired_s < b.aired_s; });
+  std::sort(res.rejected.begin(), res.rejected.end(),
+            [](const RejectedDetection& a, const RejectedDetection& b) { return a.aired_s < b.aired_s; });
 
   // 5. One airing per group of overlapping sibling detections.
   std::vector<VersionInput> vin;

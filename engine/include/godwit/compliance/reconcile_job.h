@@ -143,6 +143,17 @@ struct SpotInfo {
   SpotMeta meta;  // from its sidecar; empty fields when there was none
 };
 
+// A detection the confirmation turned down (DetectionEvidence::weak), with
+// the figures it was judged by: kept so that a reader (and the benchmark)
+// can see what was considered and why it was not called an airing.
+struct RejectedDetection {
+  std::string spot;
+  LocalSeconds aired_s = 0;
+  double score = 0, speed = 1;
+  double coverage = 0, aired_score = 0;
+  std::optional<double> foreground_contrast;
+};
+
 struct ReconcileResult {
   std::vector<Placement> placements;
   std::vector<Verdict> verdicts;        // one per placement
@@ -152,7 +163,8 @@ struct ReconcileResult {
   std::vector<TimelineIssue> timeline_issues;
   std::vector<RecordingStatus> recordings;
   std::vector<std::vector<std::string>> families;  // sibling groups of 2 or more
-  size_t rejected_weak = 0;  // detections under min_airing_score
+  size_t rejected_weak = 0;  // detections the confirmation turned down (rejected.size())
+  std::vector<RejectedDetection> rejected;  // by time
   std::map<std::string, SpotInfo> spots;      // the job's masters, by spot id
   // Each run of the timeline as one stream (AiringRecord::run indexes it;
   // AiringRecord::run_offset_s is in its time): for excerpts.
