@@ -74,8 +74,15 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
     // matches.
-    if (auto fc = detail::foreground_contrast(plans, master, span, rate, e.profile.aired, vo.segment_s))
-      e.foreground_contrast = fc->contrast;
+    {  // over the aired part, in air time
+      const size_t from = static_cast<size_t>(e.profile.aired_from_s / m.speed * rate);
+      const size_t to = static_cast<size_t>(e.profile.aired_to_s / m.speed * rate);
+      if (auto fc = detail::foreground_contrast(plans, master, span, rate, e.profile.aired, vo.segment_s, from, to,
+                                                o.foreground_edge_s)) {
+        e.foreground_contrast = fc->contrast;
+        e.shape_match = fc->shape_match;
+      }
+    }
     {  // the aired part's own match, at the native rate, in air time
       const size_t from = std::min(master.size(), static_cast<size_t>(e.profile.aired_from_s / m.speed * rate));
       const size_t to = std::min({master.size(), span.size(), static_cast<size_t>(e.profile.aired_to_s / m.speed * rate)});
@@ -83,7 +90,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
         e.aired_score = m.polarity * detail::pearson(master.data() + from, span.data() + from, to - from, 1e-12);
     }
     e.weak = e.profile.coverage < o.min_coverage || e.aired_score < o.min_airing_score ||
-             (e.foreground_contrast && *e.foreground_contrast < -o.max_foreground_deficit);
+             (e.foreground_contrast && (*e.foreground_contrast < -o.max_foreground_deficit ||
+                                        *e.foreground_contrast + *e.shape_match < o.min_foreground_evidence));
     if (!e.weak && o.loudness.enabled) {
       // The aired part: up to the first missing range that reaches the end.
       double aired_s = length_s;

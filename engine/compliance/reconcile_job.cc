@@ -38,7 +38,7 @@ struct Detection {
   double file_offset_s = 0;
   LocalSeconds aired_s = 0;
   Profile profile;
-  std::optional<double> foreground_contrast;
+  std::optional<double> foreground_contrast, shape_match;
   std::optional<double> spot_lufs, programme_lufs;
 };
 
@@ -252,11 +252,12 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     if (evidence[i]->weak) {
       ++res.rejected_weak;
       res.rejected.push_back({m.template_id, f.start_s + in_file_s, m.score, m.speed, evidence[i]->profile.coverage,
-                              evidence[i]->aired_score, evidence[i]->foreground_contrast});
+                              evidence[i]->aired_score, evidence[i]->foreground_contrast, evidence[i]->shape_match});
       continue;
     }
     d.profile = std::move(evidence[i]->profile);
     d.foreground_contrast = evidence[i]->foreground_contrast;
+    d.shape_match = evidence[i]->shape_match;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
     d.file = f.path;
@@ -293,6 +294,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
     a.foreground_contrast = d.foreground_contrast;
+    a.shape_match = d.shape_match;
     a.profile = d.profile;
     a.run = d.run;
     a.run_offset_s = d.match.offset_s;

@@ -32,6 +32,7 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
   ro.loudness.enabled = false;
   ro.min_airing_score = t.min_airing_score;
   ro.max_foreground_deficit = t.max_foreground_deficit;
+  ro.min_foreground_evidence = t.min_foreground_evidence;
   std::map<size_t, std::vector<size_t>> by_run;  // run -> indices into matches, by offset
   for (size_t i = 0; i < matches.size(); ++i)
     if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);

@@ -355,14 +355,16 @@ int main(int argc, char** argv) {
       const double tol = p.kind == PlantKind::airing ? 0.5 : 0.5 * m.duration_s + 1;
       for (const auto& a : r.airings)
         if (std::fabs(a.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f dt %+.3f ms", a.spot.c_str(),
-                        a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), (a.aired_s - start - p.chain_delay_s) * 1e3);
+          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f shape %.3f dt %+.3f ms",
+                        a.spot.c_str(), a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
+                        (a.aired_s - start - p.chain_delay_s) * 1e3);
           line += buf;
         }
       for (const auto& x : r.rejected)
         if (std::fabs(x.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     r %s score %.3f cov %.2f aired %.3f contrast %+.3f (turned down)", x.spot.c_str(),
-                        x.score, x.coverage, x.aired_score, x.foreground_contrast.value_or(99));
+          std::snprintf(buf, sizeof buf, "\n     r %s score %.3f cov %.2f aired %.3f contrast %+.3f shape %.3f (turned down)",
+                        x.spot.c_str(), x.score, x.coverage, x.aired_score, x.foreground_contrast.value_or(99),
+                        x.shape_match.value_or(99));
           line += buf;
         }
       if (loc) {

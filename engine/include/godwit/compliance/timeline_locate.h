@@ -35,6 +35,7 @@ struct TimelineLocateOptions {
   bool resolve_versions = true;
   double min_airing_score = ReconcileOptions{}.min_airing_score;
   double max_foreground_deficit = ReconcileOptions{}.max_foreground_deficit;
+  double min_foreground_evidence = ReconcileOptions{}.min_foreground_evidence;
   FamilyOptions families;
   VerifyOptions verify;
   VersionOptions versions;
