@@ -27,7 +27,7 @@
 // aired alone, or with another voice over it, tracks the master's bed but
 // not its voice (0.25-0.58 on the benchmark's study days, seeds 71 and 81
 // with a hard negative in every programme stretch), where airings track it
-// at 0.44-0.99; at low SNR an airing's shape match falls, but its foreground
+// at 0.4-0.99; at low SNR an airing's shape match falls, but its foreground
 // contrast then rises (its loud moments stand above the noise), so the
 // confirmation judges their sum (reconcile_job.h, min_foreground_evidence).
 //
