@@ -28,10 +28,8 @@
 //     heavy     2 threads at heavy_nice below it (`gw-heavy`), for longer
 //               lines (inline spots, or a client's megabytes to parse):
 //               their parse waits while short requests want a core, and
-//               never holds a thread short requests need. They also read
-//               the rest of any line past heavy_read_bytes (or over the
-//               limit, skipped), so the I/O thread spends next to nothing
-//               on a client's megabytes.
+//               never holds a thread short requests need.
+//   A line past heavy_read_bytes is read 256 KiB at a time (else 8 KiB).
 //
 //   read loop --bytes--> framer --line--> post(requests|heavy): dispatcher --json--> post(io) --> write queue --> write loop
 //   worker threads --event--> post(io) --> write queue
@@ -56,7 +54,7 @@ struct ServerLimits {
   size_t max_reply_bytes = 32u << 20;
   double watch_heartbeat_s = 30;
   size_t heavy_line_bytes = 1u << 20;  // longer request lines are handled on the heavy threads
-  size_t heavy_read_bytes = 64u << 10;  // a line longer is read on the heavy threads
+  size_t heavy_read_bytes = 256u << 10;  // a line longer is read 256 KiB at a time
   int heavy_nice = 5;                  // added to the heavy threads' nice value: below requests, above jobs (job_nice 10)
 };
 

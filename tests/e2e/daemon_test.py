@@ -930,7 +930,7 @@ class DaemonTests(unittest.TestCase):
                 head, tail = f.read().rsplit(")", 1)
             fields = tail.split()
             # field 19 of proc(5), counted after the name; the threads for long request lines apart
-            (heavy if head.split("(", 1)[1] == "gw-heavy" else nice)[int(tid)] = int(fields[16])
+            (heavy if head.split("(", 1)[1].startswith("gw-heavy") else nice)[int(tid)] = int(fields[16])
         base = nice[d.proc.pid]  # the I/O thread: 0, or what the test itself runs at (`nice ctest`)
         self.assertIn(base + 7, nice.values(), nice)
         self.assertEqual(set(nice.values()), {base, base + 7}, nice)

@@ -172,8 +172,8 @@ TEST_CASE("server: a long line and the short lines after it on one connection ar
 
 TEST_CASE("server: a line over the limit is answered too_large and the line after it is answered") {
   // Past heavy_read_bytes, the rest of a line (and the skipped rest of one
-  // over max_line_bytes) is read by the heavy threads: the framing must
-  // come out the same (line_framer.h).
+  // over max_line_bytes) is read in larger pieces: the framing must come
+  // out the same (line_framer.h).
   ServerLimits limits;
   limits.heavy_read_bytes = 16u << 10;
   limits.max_line_bytes = 1u << 20;
