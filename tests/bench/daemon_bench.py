@@ -20,7 +20,10 @@ Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--c
    addresses: latency side by side (target: p99 of status <= 10 ms), and
    per hostile kind the requests answered or closed within their deadline
    (target: all). Well-behaved and hostile clients run in two processes
-   of their own (asyncio; threads), apart from this one.
+   of their own (asyncio; threads), apart from this one; the hostile one,
+   standing for other hosts, in a session of its own at nice +19
+   (--hostile-nice; hostile_clients.py says why). The daemon's cores are
+   also given by thread: io, requests, heavy (long lines), jobs.
 """
 import argparse
 import asyncio
