@@ -25,9 +25,9 @@
 // constant per band; what moves them is what is said and played: the
 // master's voice moves its formants from syllable to syllable. A music bed
 // aired alone, or with another voice over it, tracks the master's bed but
-// not its voice (0.25-0.58 on the benchmark's study days, seeds 71 and 81
+// not its voice (0.20-0.58 on the benchmark's study days, seeds 71 and 81
 // with a hard negative in every programme stretch), where airings track it
-// at 0.4-0.99; at low SNR an airing's shape match falls, but its foreground
+// at 0.39-0.99; at low SNR an airing's shape match falls, but its foreground
 // contrast then rises (its loud moments stand above the noise), so the
 // confirmation judges their sum (reconcile_job.h, min_foreground_evidence).
 //
