@@ -135,7 +135,9 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o)
   return plan;
 }
 
-Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options) {
+  ReconcileOptions o = options;
+  if (!o.locate.masters) o.locate.masters = std::make_shared<MasterLibrary>(o.locate.opener, o.locate.analysis_rate_hz);
   ReconcilePlan plan = plan_reconcile(job, o);
   const SourceOpener& base = o.locate.opener;
   const Timeline& timeline = plan.timeline;
@@ -154,15 +156,16 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 }
 
 Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
-                                         const ReconcileOptions& o,
+                                         const ReconcileOptions& options,
                                          std::vector<std::optional<DetectionEvidence>> evidence) {
+  ReconcileOptions o = options;
+  if (!o.locate.masters) o.locate.masters = std::make_shared<MasterLibrary>(o.locate.opener, o.locate.analysis_rate_hz);
   ReconcileResult res;
   res.placements = job.log.placements;
   res.log_problems = job.log.problems;
   res.recordings = std::move(plan.recordings);
   const Timeline& timeline = plan.timeline;
   res.timeline_issues = timeline.issues;
-  const SourceOpener& base = o.locate.opener;
 
   // 2. The search of the runs.
   std::vector<Match> matches = std::move(search.matches);
@@ -202,11 +205,9 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   std::map<size_t, std::string> declared;
   for (size_t i = 0; i < job.masters.size(); ++i) {
     ids.push_back(template_id_for(job.masters[i]));
-    auto src = base(job.masters[i], ChannelChoice{});
-    if (!src) return src.error();
-    auto s = decode_all(*src.value(), o.locate.analysis_rate_hz);
+    auto s = o.locate.masters->samples(job.masters[i], o.locate.analysis_rate_hz);
     if (!s) return s.error();
-    analysis.push_back(std::move(s.value()));
+    analysis.push_back(*s.value());
     if (auto it = job.meta.find(ids.back()); it != job.meta.end() && !it->second.family.empty())
       declared[i] = it->second.family;
   }

@@ -28,6 +28,7 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
   for (size_t i = 0; i < templates.size(); ++i) tindex[templates[i].id] = i;
   ReconcileOptions ro;
   ro.locate = o;
+  if (!ro.locate.masters) ro.locate.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz);
   ro.verify = t.verify;
   ro.loudness.enabled = false;
   ro.min_airing_score = t.min_airing_score;
@@ -87,14 +88,13 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
     std::vector<Samples> audio;
     bool decoded = true;
     for (size_t ti : involved) {
-      auto src = o.opener(templates[ti].path, ChannelChoice{});
-      auto d = src ? decode_all(*src.value(), o.analysis_rate_hz) : Result<Samples>(src.error());
+      auto d = ro.locate.masters->samples(templates[ti].path, o.analysis_rate_hz);
       if (!d) {
         decoded = false;
         break;
       }
       ids.push_back(templates[ti].id);
-      audio.push_back(std::move(d.value()));
+      audio.push_back(*d.value());
     }
     if (decoded) {
       FamilyOptions fo = t.families;
@@ -238,11 +238,13 @@ Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& o
   const LocatePlan lp = plan_locate(job, o, t);
   if (lp.plan.timeline.runs.empty()) return run_locate(job, o);  // nothing readable: each recording's own error
   LocateJob lj{job.templates, lp.streams};
-  LocateOptions lo = o;
+  LocateOptions with_masters = o;
+  if (!with_masters.masters) with_masters.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz);
+  LocateOptions lo = with_masters;
   lo.opener = run_opener(lp.plan.timeline, o.opener);
   auto searched = run_locate(lj, lo);
   if (!searched) return searched.error();
-  return finish_locate(lp, std::move(searched.value()), o, t);
+  return finish_locate(lp, std::move(searched.value()), with_masters, t);
 }
 
 }  // namespace godwit
