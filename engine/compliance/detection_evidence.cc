@@ -19,6 +19,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
   std::vector<std::optional<DetectionEvidence>> out(matches.size());
   if (matches.empty() || run.empty()) return out;
   const SourceOpener& base = o.locate.opener;
+  const std::shared_ptr<MasterLibrary> library =
+      o.locate.masters ? o.locate.masters : std::make_shared<MasterLibrary>(base, o.locate.analysis_rate_hz, 0);
   auto opened = ConcatSource::open("run", run, base, o.locate.channel);
   if (!opened) return out;
   // Each detection is read at the rate of the file where it starts, so
@@ -46,11 +48,9 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     ConcatSource& concat = *at_rate[rate];
     const auto key = std::make_tuple(m.template_id, m.speed, rate);
     if (!native_master.count(key)) {
-      auto ms = base(t->second->path, ChannelChoice{});
-      if (!ms) continue;
-      auto s = decode_all(*ms.value(), rate / m.speed);
+      auto s = library->samples(t->second->path, rate / m.speed);
       if (!s) continue;
-      native_master[key] = std::move(s.value());
+      native_master[key] = *s.value();
     }
     const Samples& master = native_master[key];
     const Samples span = read_native_span(concat, std::llround(m.offset_s * rate), master.size());

@@ -29,11 +29,9 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
       return Error{ErrorCode::usage, "two masters share the id '" + id + "': " + it->second + " and " + path,
                    path, std::nullopt};
     seen[id] = path;
-    auto src = o.opener(path, ChannelChoice{});
-    if (!src) return src.error();
-    auto samples = decode_all(*src.value(), o.analysis_rate_hz);
+    auto samples = o.masters->samples(path, o.analysis_rate_hz);
     if (!samples) return samples.error();
-    const double dur_s = static_cast<double>(samples.value().size()) / o.analysis_rate_hz;
+    const double dur_s = static_cast<double>(samples.value()->size()) / o.analysis_rate_hz;
     if (dur_s < kMinTemplateSeconds)
       return Error{ErrorCode::invalid_template,
                    "master is " + std::to_string(dur_s) + " s long; the shortest accepted is 0.5 s", path,
@@ -41,8 +39,8 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
     TemplateInput in;
     in.id = id;
     in.path = path;
-    in.native_rate_hz = src.value()->info().native_rate_hz;
-    in.samples = std::move(samples.value());
+    in.native_rate_hz = o.masters->native_rate_hz(path).value();  // known: decoded above
+    in.samples = *samples.value();
     if (warp) {
       detail::WarpTemplate w;
       const detail::WarpLayout l = detail::warp_layout(o.analysis_rate_hz);
@@ -78,11 +76,9 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
   for (const auto& f : found) versions.insert({f.first, f.second.speed});
   for (const auto& [t, speed] : versions) {
     const auto& info = bank.at(t);
-    auto msrc = o.opener(info.path, ChannelChoice{});
-    if (!msrc) continue;
-    auto master = decode_all(*msrc.value(), native / speed);
+    auto master = o.masters->samples(info.path, native / speed);
     if (!master) continue;
-    const Samples& tmpl = master.value();
+    const Samples& tmpl = *master.value();
     for (auto& [ti, m] : found) {
       if (ti != t || m.speed != speed) continue;
       const double coarse = m.offset_s * native;
@@ -147,9 +143,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
     for (size_t t : needed) {
       if (masters.count(t)) continue;
       Samples m;
-      if (auto ms = o.opener(bank.at(t).path, ChannelChoice{})) {
-        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
-      }
+      if (auto d = o.masters->samples(bank.at(t).path, fs)) m = *d.value();
       master_len[t] = m.size();
       masters.emplace(t, std::move(m));
     }
@@ -220,6 +214,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
   bopt.planner = copt.planner;
   LocateOptions lo = o;
   lo.bank = bopt;
+  if (!lo.masters) lo.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz, 0);
   const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
   std::vector<detail::WarpTemplate> envelopes;
   auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
@@ -328,9 +323,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       std::vector<std::pair<size_t, double>> plain;
       for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
       const auto cands = speed_pass->candidates(plain, report.duration_s);
-      for (auto& f : refine_speed_candidates(path, *bank, o, cands, pad)) found.push_back(std::move(f));
+      for (auto& f : refine_speed_candidates(path, *bank, lo, cands, pad)) found.push_back(std::move(f));
     }
-    if (o.refine) refine_matches(path, *bank, o, found);
+    if (o.refine) refine_matches(path, *bank, lo, found);
     std::vector<Match> matches;
     for (auto& f : found) matches.push_back(std::move(f.second));
     std::sort(matches.begin(), matches.end(), [](const Match& a, const Match& b) {

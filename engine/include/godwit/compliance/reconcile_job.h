@@ -10,7 +10,7 @@
 //
 // The job runs in three steps, which a distributed run takes apart: the
 // plan (step 1: recordings read and laid on the timeline), the search of
-// each run (run_locate over run_name(i), ConcatSource of run_parts(i)),
+// each run (run_locate over the plan's SearchStreams, ConcatSource of run_parts(i)),
 // and the finish (verification, versions, loudness, verdicts).
 // run_reconcile does all three here.
 //
@@ -28,6 +28,7 @@
 #include "godwit/search/job.h"
 #include "godwit/compliance/planned_log.h"
 #include "godwit/compliance/reconciler.h"
+#include "godwit/compliance/search_streams.h"
 #include "godwit/compliance/timeline.h"
 #include "godwit/compliance/verifier.h"
 
@@ -193,6 +194,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 struct ReconcilePlan {
   std::vector<RecordingStatus> recordings;  // in job order, errors included
   Timeline timeline;
+  SearchStreams streams;  // every run of the timeline, as the search names it
 };
 
 // Step 1: every recording opened, its start and length found (decoding
@@ -202,14 +204,8 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& op
 // that broke part way up to where it broke (none of one whose failure has
 // no position). Sorted, disjoint.
 std::vector<LocalSpan> recorded_spans(const Timeline& timeline, const std::vector<RecordingStatus>& recordings);
-// The name under which run i is searched ("run:0") and its files as one stream.
-std::string run_name(size_t run);
+// The files of run `run` as one stream.
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run);
-// An opener that reads run names as their runs' streams (ConcatSource) and
-// anything else through `base`. `timeline` must outlive it.
-SourceOpener run_opener(const Timeline& timeline, SourceOpener base);
-// The run index a run name stands for; empty for any other name.
-std::optional<size_t> run_index(const std::string& name);
 
 // The evidence of one detection, taken from its run's stream (steps 4 and
 // 6, which need the audio): how much of the master aired (verify_airing at
@@ -239,7 +235,7 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
                                                               const ReconcileOptions& options);
 
 // Steps 3 to 7, from the search of the plan's runs: `search` as run_locate
-// returns it for the recordings run_name(0..runs-1) (matches with offsets
+// returns it for the recordings plan.streams.names() (matches with offsets
 // in run time; a failed run's error, with its offset in the run).
 // `evidence`, one per match of `search` when given (gathered where the
 // search ran); else it is gathered here.
