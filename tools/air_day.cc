@@ -175,7 +175,7 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
   while (t < day_end) {
     // Programme of 2-5 minutes, perhaps with a hard negative in it.
     double stretch = rng.uniform(120, 300);
-    if (rng.uniform() < 0.4) {
+    if (rng.uniform() < o.negative_odds) {
       const double u = rng.uniform();
       const PlantKind kind = u < 0.4 ? PlantKind::bed_only : u < 0.7 ? PlantKind::tag_only : PlantKind::dj_over_bed;
       size_t m = draw_master();

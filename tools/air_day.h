@@ -37,6 +37,7 @@ struct AirDayOptions {
   bool gap = true;       // a gap of 60-150 s in the timeline, mid-day
   bool reuse = false;    // keep audio files already in dir (made by the same seed and options)
   ChainOdds odds;
+  double negative_odds = 0.4;  // share of programme stretches holding a hard negative
   std::function<void(const std::string&)> log;  // progress lines (optional)
 };
 

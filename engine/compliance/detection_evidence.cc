@@ -20,6 +20,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
   std::vector<std::optional<DetectionEvidence>> out(matches.size());
   if (matches.empty() || run.empty()) return out;
   const SourceOpener& base = o.locate.opener;
+  const std::shared_ptr<MasterLibrary> library =
+      o.locate.masters ? o.locate.masters : std::make_shared<MasterLibrary>(base, o.locate.analysis_rate_hz, 0);
   auto opened = ConcatSource::open("run", run, base, o.locate.channel);
   if (!opened) return out;
   // Each detection is read at the rate of the file where it starts, so
@@ -47,11 +49,9 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     ConcatSource& concat = *at_rate[rate];
     const auto key = std::make_tuple(m.template_id, m.speed, rate);
     if (!native_master.count(key)) {
-      auto ms = base(t->second->path, ChannelChoice{});
-      if (!ms) continue;
-      auto s = decode_all(*ms.value(), rate / m.speed);
+      auto s = library->samples(t->second->path, rate / m.speed);
       if (!s) continue;
-      native_master[key] = std::move(s.value());
+      native_master[key] = *s.value();
     }
     // An airing at another tempo, pitch kept: the master as it aired is
     // the master aligned to it frame by frame (tempo_refiner.h), and
@@ -84,8 +84,15 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
     // Match quality of the part that aired: a cut-off airing of coverage c
     // scores about q * sqrt(c) overall, q being how well its aired part
     // matches.
-    if (auto fc = detail::foreground_contrast(plans, as_aired, span, rate, e.profile.aired, vo.segment_s))
-      e.foreground_contrast = fc->contrast;
+    {  // over the aired part, in air time
+      const size_t from = static_cast<size_t>(e.profile.aired_from_s / k * rate);
+      const size_t to = static_cast<size_t>(e.profile.aired_to_s / k * rate);
+      if (auto fc = detail::foreground_contrast(plans, as_aired, span, rate, e.profile.aired, vo.segment_s, from, to,
+                                                o.foreground_edge_s)) {
+        e.foreground_contrast = fc->contrast;
+        e.shape_match = fc->shape_match;
+      }
+    }
     {  // the aired part's own match, at the native rate, in air time
       const size_t from = std::min(as_aired.size(), static_cast<size_t>(e.profile.aired_from_s / k * rate));
       const size_t to = std::min({as_aired.size(), span.size(), static_cast<size_t>(e.profile.aired_to_s / k * rate)});
@@ -93,7 +100,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
         e.aired_score = m.polarity * detail::pearson(as_aired.data() + from, span.data() + from, to - from, 1e-12);
     }
     e.weak = e.profile.coverage < o.min_coverage || e.aired_score < o.min_airing_score ||
-             (e.foreground_contrast && *e.foreground_contrast < -o.max_foreground_deficit);
+             (e.foreground_contrast && (*e.foreground_contrast < -o.max_foreground_deficit ||
+                                        *e.foreground_contrast + *e.shape_match < o.min_foreground_evidence));
     if (!e.weak && o.loudness.enabled) {
       // The aired part: up to the first missing range that reaches the end.
       double aired_s = length_s;

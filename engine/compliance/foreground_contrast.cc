@@ -5,6 +5,7 @@
 #include <complex>
 #include <numbers>
 
+#include "search/pearson.h"
 #include "speed/spectral_frames.h"
 
 namespace godwit::detail {
@@ -14,16 +15,47 @@ constexpr double kForegroundRatio = 4.0;  // 6 dB above the band's median frame 
 constexpr size_t kMinForeground = 6, kMinBackground = 12;  // frames per band
 constexpr size_t kMinBands = 4;
 
+// Mean over bands of the Pearson correlation, over frames, of the log
+// share of the band in its frame's energy, master against airing.
+double shape_match(const std::vector<std::vector<double>>& master_e, const std::vector<std::vector<double>>& airing_e) {
+  constexpr double kShareFloor = 1e-6;  // -60 dB: a band silent in a frame
+  const size_t n_frames = master_e.size(), n_bands = n_frames ? master_e[0].size() : 0;
+  std::vector<double> total_m(n_frames, 0), total_a(n_frames, 0);
+  for (size_t f = 0; f < n_frames; ++f)
+    for (size_t b = 0; b < n_bands; ++b) total_m[f] += master_e[f][b], total_a[f] += airing_e[f][b];
+  double sum = 0;
+  size_t used = 0;
+  std::vector<float> x, y;
+  for (size_t b = 0; b < n_bands; ++b) {
+    x.clear(), y.clear();
+    for (size_t f = 0; f < n_frames; ++f) {
+      if (!(total_m[f] > 0) || !(total_a[f] > 0)) continue;
+      x.push_back(static_cast<float>(std::log(master_e[f][b] / total_m[f] + kShareFloor)));
+      y.push_back(static_cast<float>(std::log(airing_e[f][b] / total_a[f] + kShareFloor)));
+    }
+    if (x.size() < kMinForeground + kMinBackground) continue;
+    const double r = pearson(x.data(), y.data(), x.size(), 1e-12);
+    if (r == 0.0) continue;  // a band without variance: no evidence
+    sum += r;
+    ++used;
+  }
+  return used ? sum / static_cast<double>(used) : 0.0;
+}
+
 }  // namespace
 
 std::optional<ForegroundContrast> foreground_contrast(FftPlans& plans, const Samples& master, const Samples& airing,
-                                                      double rate_hz, const std::vector<bool>& aired, double segment_s) {
+                                                      double rate_hz, const std::vector<bool>& aired, double segment_s,
+                                                      size_t use_from, size_t use_to, double edge_s) {
   // About 32 ms frames, half overlapping.
   size_t window = 256;
   while (static_cast<double>(window) < 0.032 * rate_hz) window *= 2;
   const size_t hop = window / 2, bins = window / 2 + 1;
   const size_t len = std::min(master.size(), airing.size());
   if (len < window * 8) return std::nullopt;
+  use_to = std::min(use_to, len);
+  const size_t edge = static_cast<size_t>(edge_s * rate_hz);
+  if (use_to > use_from && use_to - use_from >= 3 * edge) use_from += edge, use_to -= edge;
   const FftPlan& plan = plans.get(window);
   RealBuffer frame = alloc_real(window);
   ComplexBuffer xs = alloc_complex(bins), ys = alloc_complex(bins);
@@ -41,11 +73,11 @@ std::optional<ForegroundContrast> foreground_contrast(FftPlans& plans, const Sam
   }
   // Per frame: master band energy; per bin and frame: the cross-spectrum
   // and the airing's power (kept for the two passes).
-  std::vector<std::vector<double>> band_e;  // [frame][band]
+  std::vector<std::vector<double>> band_e, band_ey;  // [frame][band]: master's and airing's band energy
   std::vector<std::vector<std::complex<float>>> cross;  // [frame][bin], bins up to hi.back()
   std::vector<std::vector<float>> xx, yy;
   const size_t top = hi.back();
-  for (size_t start = 0; start + window <= len; start += hop) {
+  for (size_t start = use_from; start + window <= use_to; start += hop) {
     if (!aired.empty()) {
       const size_t seg = static_cast<size_t>(static_cast<double>(start + window / 2) / (segment_s * rate_hz));
       if (seg >= aired.size() || !aired[seg]) continue;
@@ -61,10 +93,11 @@ std::optional<ForegroundContrast> foreground_contrast(FftPlans& plans, const Sam
       px[k] = std::norm(xs[k]);
       py[k] = std::norm(ys[k]);
     }
-    std::vector<double> e(n_bands, 0.0);
+    std::vector<double> e(n_bands, 0.0), ey(n_bands, 0.0);
     for (size_t b = 0; b < n_bands; ++b)
-      for (size_t k = lo[b]; k < hi[b]; ++k) e[b] += px[k];
+      for (size_t k = lo[b]; k < hi[b]; ++k) e[b] += px[k], ey[b] += py[k];
     band_e.push_back(std::move(e));
+    band_ey.push_back(std::move(ey));
     cross.push_back(std::move(c));
     xx.push_back(std::move(px));
     yy.push_back(std::move(py));
@@ -79,6 +112,7 @@ std::optional<ForegroundContrast> foreground_contrast(FftPlans& plans, const Sam
     phase[k] = std::abs(s) > 0 ? std::conj(s) / std::abs(s) : 1.0;
   }
   ForegroundContrast out;
+  out.shape_match = shape_match(band_e, band_ey);
   double sum_fg = 0, sum_bg = 0;
   for (size_t b = 0; b < n_bands; ++b) {
     std::vector<double> e;

@@ -14,8 +14,6 @@
 namespace godwit {
 namespace {
 
-constexpr const char* kRunPrefix = "run:";
-
 // Frames of a source, decoding it when the container does not say.
 Result<int64_t> count_frames(AudioSource& src) {
   if (src.info().native_frames) return *src.info().native_frames;
@@ -38,34 +36,11 @@ struct Detection {
   double file_offset_s = 0;
   LocalSeconds aired_s = 0;
   Profile profile;
-  std::optional<double> foreground_contrast;
+  std::optional<double> foreground_contrast, shape_match;
   std::optional<double> spot_lufs, programme_lufs;
 };
 
 }  // namespace
-
-std::string run_name(size_t run) { return kRunPrefix + std::to_string(run); }
-
-std::optional<size_t> run_index(const std::string& name) {
-  if (name.rfind(kRunPrefix, 0) != 0 || name.size() <= 4 || name.size() > 24) return std::nullopt;
-  size_t i = 0;
-  for (size_t k = 4; k < name.size(); ++k) {
-    if (name[k] < '0' || name[k] > '9') return std::nullopt;
-    i = i * 10 + static_cast<size_t>(name[k] - '0');
-  }
-  return i;
-}
-
-SourceOpener run_opener(const Timeline& timeline, SourceOpener base) {
-  return [&timeline, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {
-    const auto i = run_index(path);
-    if (!i) return base(path, choice);
-    if (*i >= timeline.runs.size()) return Error{ErrorCode::internal, "no such run", path, std::nullopt};
-    auto c = ConcatSource::open(path, run_parts(timeline, *i), base, choice);
-    if (!c) return c.error();
-    return SourcePtr(std::move(c.value()));
-  };
-}
 
 std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
   std::vector<ConcatPart> parts;
@@ -132,18 +107,21 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o)
     plan.recordings.push_back(std::move(st));
   }
   plan.timeline = build_timeline(files, o.timeline_tolerance_s);
+  plan.streams = SearchStreams(plan.timeline, {});
   return plan;
 }
 
-Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& o) {
+Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOptions& options) {
+  ReconcileOptions o = options;
+  if (!o.locate.masters) o.locate.masters = std::make_shared<MasterLibrary>(o.locate.opener, o.locate.analysis_rate_hz);
   ReconcilePlan plan = plan_reconcile(job, o);
   const SourceOpener& base = o.locate.opener;
   const Timeline& timeline = plan.timeline;
   LocateOptions lo = o.locate;
-  lo.opener = run_opener(timeline, base);
+  lo.opener = plan.streams.opener(timeline, base);
   LocateJob lj;
   lj.templates = job.masters;
-  for (size_t i = 0; i < timeline.runs.size(); ++i) lj.recordings.push_back(run_name(i));
+  lj.recordings = plan.streams.names();
   LocateResult search;
   if (!lj.recordings.empty()) {
     auto located = run_locate(lj, lo);
@@ -154,15 +132,16 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 }
 
 Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,
-                                         const ReconcileOptions& o,
+                                         const ReconcileOptions& options,
                                          std::vector<std::optional<DetectionEvidence>> evidence) {
+  ReconcileOptions o = options;
+  if (!o.locate.masters) o.locate.masters = std::make_shared<MasterLibrary>(o.locate.opener, o.locate.analysis_rate_hz);
   ReconcileResult res;
   res.placements = job.log.placements;
   res.log_problems = job.log.problems;
   res.recordings = std::move(plan.recordings);
   const Timeline& timeline = plan.timeline;
   res.timeline_issues = timeline.issues;
-  const SourceOpener& base = o.locate.opener;
 
   // 2. The search of the runs.
   std::vector<Match> matches = std::move(search.matches);
@@ -202,11 +181,9 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   std::map<size_t, std::string> declared;
   for (size_t i = 0; i < job.masters.size(); ++i) {
     ids.push_back(template_id_for(job.masters[i]));
-    auto src = base(job.masters[i], ChannelChoice{});
-    if (!src) return src.error();
-    auto s = decode_all(*src.value(), o.locate.analysis_rate_hz);
+    auto s = o.locate.masters->samples(job.masters[i], o.locate.analysis_rate_hz);
     if (!s) return s.error();
-    analysis.push_back(std::move(s.value()));
+    analysis.push_back(*s.value());
     if (auto it = job.meta.find(ids.back()); it != job.meta.end() && !it->second.family.empty())
       declared[i] = it->second.family;
   }
@@ -228,7 +205,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     evidence.assign(matches.size(), std::nullopt);
     std::map<size_t, std::vector<size_t>> by_run;
     for (size_t i = 0; i < matches.size(); ++i)
-      if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);
+      if (auto r = plan.streams.run_of(matches[i].recording)) by_run[r->index].push_back(i);
     for (const auto& [run, which] : by_run) {
       if (run >= timeline.runs.size()) continue;
       std::vector<Match> ms;
@@ -242,27 +219,32 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     const Match& m = matches[i];
     Detection d;
     d.master = index_of.at(m.template_id);
-    const auto run = run_index(m.recording);
+    const auto run = plan.streams.run_of(m.recording);
     if (!run) continue;
-    d.run = *run;
+    d.run = run->index;
     d.match = m;
     if (d.run >= timeline.runs.size() || !evidence[i]) continue;
+    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
+    const auto& f = timeline.runs[d.run].files[part];
     if (evidence[i]->weak) {
       ++res.rejected_weak;
+      res.rejected.push_back({m.template_id, f.start_s + in_file_s, m.score, m.speed, evidence[i]->profile.coverage,
+                              evidence[i]->aired_score, evidence[i]->foreground_contrast, evidence[i]->shape_match});
       continue;
     }
     d.profile = std::move(evidence[i]->profile);
     d.foreground_contrast = evidence[i]->foreground_contrast;
+    d.shape_match = evidence[i]->shape_match;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
-    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
-    const auto& f = timeline.runs[d.run].files[part];
     d.file = f.path;
     d.file_offset_s = in_file_s;
     d.aired_s = f.start_s + d.file_offset_s;
     dets.push_back(std::move(d));
   }
   std::sort(dets.begin(), dets.end(), [](const Detection& a, const Detection& b) { return a.aired_s < b.aired_s; });
+  std::sort(res.rejected.begin(), res.rejected.end(),
+            [](const RejectedDetection& a, const RejectedDetection& b) { return a.aired_s < b.aired_s; });
 
   // 5. One airing per group of overlapping sibling detections.
   std::vector<VersionInput> vin;
@@ -290,6 +272,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
     a.foreground_contrast = d.foreground_contrast;
+    a.shape_match = d.shape_match;
     a.profile = d.profile;
     a.run = d.run;
     a.run_offset_s = d.match.offset_s;

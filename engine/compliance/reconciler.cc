@@ -11,10 +11,18 @@
 namespace godwit {
 namespace {
 
-// Pair costs as exact integers: (class << 24 | deviation in 10 ms) << 20 |
-// tie-break ranks, class = 2 × outside the window + sibling. A placement
-// left without an airing costs more than the pairs of a whole group
-// together, so the matching serves as many placements as it can first.
+// Pair costs as exact integers: (outside the window << 24 | penalty in
+// 10 ms) << 20 | tie-break ranks, penalty = |deviation| + one window for a
+// sibling. A placement left without an airing costs more than the pairs of
+// a whole group together, so the matching serves as many placements as it
+// can first.
+//
+// A sibling costs a window's worth of deviation, not more than any
+// deviation: two placements of a family a minute apart, aired as a cut
+// airing whose version cannot be told and a whole airing of the first
+// placement's version at the second placement's time, are the slot's
+// airings with one wrong copy (16 s and 0.4 s off), not two airings 43 s
+// and 59 s off their slots with the versions swapped.
 constexpr int kDevBits = 24, kRankBits = 10;
 constexpr int64_t kMaxPair = int64_t{4} << (kDevBits + 2 * kRankBits);
 
@@ -22,14 +30,16 @@ struct Candidate {
   size_t p, a;
   int klass;      // 2 × outside the window + sibling
   double dev_s;
+  double window_s;
 };
 
 int64_t pair_cost(const Candidate& c, size_t rank_p, size_t rank_a) {
-  const int64_t dev = std::min<int64_t>((int64_t{1} << kDevBits) - 1, std::llround(std::fabs(c.dev_s) * 100));
+  const double penalty_s = std::fabs(c.dev_s) + (c.klass % 2 ? c.window_s : 0.0);
+  const int64_t dev = std::min<int64_t>((int64_t{1} << kDevBits) - 1, std::llround(penalty_s * 100));
   const int64_t cap = (int64_t{1} << kRankBits) - 1;
   const int64_t tie = (std::min<int64_t>(cap, static_cast<int64_t>(rank_p)) << kRankBits) |
                       std::min<int64_t>(cap, static_cast<int64_t>(rank_a));
-  return ((static_cast<int64_t>(c.klass) << kDevBits | dev) << (2 * kRankBits)) | tie;
+  return ((static_cast<int64_t>(c.klass / 2) << kDevBits | dev) << (2 * kRankBits)) | tie;
 }
 
 struct DisjointSets {
@@ -145,7 +155,7 @@ Reconciliation reconcile(const std::vector<Placement>& placements, const std::ve
       if (!same && !(siblings && siblings(pl.spot, ar.spot))) continue;
       const double dev = ar.aired_s - pl.planned_s;
       if (std::fabs(dev) > horizon) continue;
-      cands.push_back({p, a, (std::fabs(dev) > pl.window_s ? 2 : 0) + (same ? 0 : 1), dev});
+      cands.push_back({p, a, (std::fabs(dev) > pl.window_s ? 2 : 0) + (same ? 0 : 1), dev, pl.window_s});
       sets.join(p, placements.size() + a);
     }
   }

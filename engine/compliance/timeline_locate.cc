@@ -22,19 +22,22 @@ constexpr double kApart_s = 1e9;
 // sibling versions detected at one airing resolved; in place (`matches`
 // hold run names and run offsets). Returns how many were not confirmed.
 size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<TemplateReport>& templates,
-                           const Timeline& timeline, const LocateOptions& o, const TimelineLocateOptions& t,
+                           const Timeline& timeline, const SearchStreams& streams, const LocateOptions& o,
+                           const TimelineLocateOptions& t,
                            std::vector<std::optional<DetectionEvidence>> given) {
   std::map<std::string, size_t> tindex;
   for (size_t i = 0; i < templates.size(); ++i) tindex[templates[i].id] = i;
   ReconcileOptions ro;
   ro.locate = o;
+  if (!ro.locate.masters) ro.locate.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz);
   ro.verify = t.verify;
   ro.loudness.enabled = false;
   ro.min_airing_score = t.min_airing_score;
   ro.max_foreground_deficit = t.max_foreground_deficit;
+  ro.min_foreground_evidence = t.min_foreground_evidence;
   std::map<size_t, std::vector<size_t>> by_run;  // run -> indices into matches, by offset
   for (size_t i = 0; i < matches.size(); ++i)
-    if (auto r = run_index(matches[i].recording)) by_run[*r].push_back(i);
+    if (auto r = streams.run_of(matches[i].recording)) by_run[r->index].push_back(i);
   std::vector<bool> drop(matches.size(), false);
   std::vector<std::optional<DetectionEvidence>> evidence(matches.size());
   const bool have = given.size() == matches.size();
@@ -87,14 +90,13 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
     std::vector<Samples> audio;
     bool decoded = true;
     for (size_t ti : involved) {
-      auto src = o.opener(templates[ti].path, ChannelChoice{});
-      auto d = src ? decode_all(*src.value(), o.analysis_rate_hz) : Result<Samples>(src.error());
+      auto d = ro.locate.masters->samples(templates[ti].path, o.analysis_rate_hz);
       if (!d) {
         decoded = false;
         break;
       }
       ids.push_back(templates[ti].id);
-      audio.push_back(std::move(d.value()));
+      audio.push_back(*d.value());
     }
     if (decoded) {
       FamilyOptions fo = t.families;
@@ -158,20 +160,21 @@ LocatePlan plan_locate(const LocateJob& job, const LocateOptions& o, const Timel
   // matches found before it are kept.
   for (const auto& st : lp.plan.recordings)
     if (st.error) lp.alone.push_back(st.path);
-  lp.streams = lp.alone;
-  for (size_t i = 0; i < lp.plan.timeline.runs.size(); ++i) lp.streams.push_back(run_name(i));
+  lp.plan.streams = SearchStreams(lp.plan.timeline, lp.alone);
+  lp.streams = lp.plan.streams.names();
   return lp;
 }
 
 Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const LocateOptions& o,
                                    const TimelineLocateOptions& t, std::vector<std::optional<DetectionEvidence>> evidence) {
   const Timeline& timeline = lp.plan.timeline;
-  const size_t rejected = confirm_and_resolve(s.matches, s.templates, timeline, o, t, std::move(evidence));
+  const SearchStreams& streams = lp.plan.streams;
+  const size_t rejected = confirm_and_resolve(s.matches, s.templates, timeline, streams, o, t, std::move(evidence));
   // The search reports its streams in order: the files alone, then the runs.
   std::map<std::string, RecordingReport> alone_report;
   std::vector<RecordingReport> run_reports;
   for (auto& r : s.recordings) {
-    if (run_index(r.path)) run_reports.push_back(std::move(r));
+    if (streams.run_of(r.path)) run_reports.push_back(std::move(r));
     else alone_report[r.path] = std::move(r);
   }
 
@@ -199,9 +202,9 @@ Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const L
   }
   for (size_t i = 0; i < run_reports.size(); ++i) {
     const auto& rr = run_reports[i];
-    const auto run_i = run_index(rr.path);
-    if (!rr.error || !run_i || *run_i >= timeline.runs.size()) continue;
-    const TimelineRun& run = timeline.runs[*run_i];
+    const auto run_i = streams.run_of(rr.path);
+    if (!rr.error || !run_i || run_i->index >= timeline.runs.size()) continue;
+    const TimelineRun& run = timeline.runs[run_i->index];
     // The file where it broke; the files after it were read on (concat_source.h).
     const auto [file, in_file_s] = run.locate_s(rr.error->offset_s.value_or(0));
     auto it = report_of.find(run.files[file].path);
@@ -213,14 +216,14 @@ Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const L
     r.duration_s = std::max(0.0, in_file_s);
   }
   for (auto& m : s.matches) {
-    const auto run = run_index(m.recording);
+    const auto run = streams.run_of(m.recording);
     if (!run) {  // a file searched alone
       out.matches.push_back(std::move(m));
       continue;
     }
-    if (*run >= timeline.runs.size()) continue;
-    const auto [file, in_file_s] = timeline.runs[*run].locate_s(m.offset_s);
-    m.recording = timeline.runs[*run].files[file].path;
+    if (run->index >= timeline.runs.size()) continue;
+    const auto [file, in_file_s] = timeline.runs[run->index].locate_s(m.offset_s);
+    m.recording = timeline.runs[run->index].files[file].path;
     m.offset_s = in_file_s;
     out.matches.push_back(std::move(m));
   }
@@ -238,11 +241,13 @@ Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& o
   const LocatePlan lp = plan_locate(job, o, t);
   if (lp.plan.timeline.runs.empty()) return run_locate(job, o);  // nothing readable: each recording's own error
   LocateJob lj{job.templates, lp.streams};
-  LocateOptions lo = o;
-  lo.opener = run_opener(lp.plan.timeline, o.opener);
+  LocateOptions with_masters = o;
+  if (!with_masters.masters) with_masters.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz);
+  LocateOptions lo = with_masters;
+  lo.opener = lp.plan.streams.opener(lp.plan.timeline, o.opener);
   auto searched = run_locate(lj, lo);
   if (!searched) return searched.error();
-  return finish_locate(lp, std::move(searched.value()), o, t);
+  return finish_locate(lp, std::move(searched.value()), with_masters, t);
 }
 
 }  // namespace godwit

@@ -71,6 +71,8 @@ nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
     for (const auto& s : a.versions) v.push_back({{"spot", s.spot}, {"score", detail::round_decimals(s.score, 4)}});
     j["versions"] = v;
   }
+  if (a.foreground_contrast) j["foreground_contrast"] = detail::round_decimals(*a.foreground_contrast, 3);
+  if (a.shape_match) j["shape_match"] = detail::round_decimals(*a.shape_match, 3);
   nlohmann::json prof = nlohmann::json::array();
   for (float s : a.profile.scores) prof.push_back(detail::round_decimals(s, 3));
   j["profile"] = {{"segment_s", a.profile.segment_s}, {"scores", prof}};
@@ -161,6 +163,18 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
   for (const auto& p : r.log_problems) j["log_problems"].push_back({{"line", p.line}, {"reason", p.reason}});
   j["families"] = r.families;
   j["rejected_weak_detections"] = r.rejected_weak;
+  j["rejected_detections"] = nlohmann::json::array();
+  for (const auto& x : r.rejected) {
+    nlohmann::json d{{"spot", x.spot},
+                     {"aired", format_iso8601_local(x.aired_s, 3)},
+                     {"score", detail::round_decimals(x.score, 4)},
+                     {"speed", detail::round_decimals(x.speed, 6)},
+                     {"coverage", detail::round_decimals(x.coverage, 3)},
+                     {"aired_score", detail::round_decimals(x.aired_score, 3)}};
+    if (x.foreground_contrast) d["foreground_contrast"] = detail::round_decimals(*x.foreground_contrast, 3);
+    if (x.shape_match) d["shape_match"] = detail::round_decimals(*x.shape_match, 3);
+    j["rejected_detections"].push_back(std::move(d));
+  }
   if (listening && !listening->problems.empty()) j["excerpt_problems"] = listening->problems;
   j["cautions"] = {kEvidenceCaution, kLoudnessCaution};
   return j;

@@ -30,11 +30,9 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
       return Error{ErrorCode::usage, "two masters share the id '" + id + "': " + it->second + " and " + path,
                    path, std::nullopt};
     seen[id] = path;
-    auto src = o.opener(path, ChannelChoice{});
-    if (!src) return src.error();
-    auto samples = decode_all(*src.value(), o.analysis_rate_hz);
+    auto samples = o.masters->samples(path, o.analysis_rate_hz);
     if (!samples) return samples.error();
-    const double dur_s = static_cast<double>(samples.value().size()) / o.analysis_rate_hz;
+    const double dur_s = static_cast<double>(samples.value()->size()) / o.analysis_rate_hz;
     if (dur_s < kMinTemplateSeconds)
       return Error{ErrorCode::invalid_template,
                    "master is " + std::to_string(dur_s) + " s long; the shortest accepted is 0.5 s", path,
@@ -42,8 +40,8 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
     TemplateInput in;
     in.id = id;
     in.path = path;
-    in.native_rate_hz = src.value()->info().native_rate_hz;
-    in.samples = std::move(samples.value());
+    in.native_rate_hz = o.masters->native_rate_hz(path).value();  // known: decoded above
+    in.samples = *samples.value();
     if (warp) {
       detail::WarpTemplate w;
       const detail::WarpLayout l = detail::warp_layout(o.analysis_rate_hz);
@@ -82,11 +80,9 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
     if (f.second.tempo == 1) versions.insert({f.first, f.second.speed});
   for (const auto& [t, speed] : versions) {
     const auto& info = bank.at(t);
-    auto msrc = o.opener(info.path, ChannelChoice{});
-    if (!msrc) continue;
-    auto master = decode_all(*msrc.value(), native / speed);
+    auto master = o.masters->samples(info.path, native / speed);
     if (!master) continue;
-    const Samples& tmpl = master.value();
+    const Samples& tmpl = *master.value();
     for (auto& [ti, m] : found) {
       if (ti != t || m.speed != speed || m.tempo != 1) continue;
       const double coarse = m.offset_s * native;
@@ -125,6 +121,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
   bopt.planner = copt.planner;
   LocateOptions lo = o;
   lo.bank = bopt;
+  if (!lo.masters) lo.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz, 0);
   const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
   std::vector<detail::WarpTemplate> envelopes;
   auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
@@ -238,9 +235,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
         if (!tempo || std::fabs(m.score) >= detail::kClearPlainScore)
           plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
       const auto cands = speed_pass->candidates(plain, report.duration_s);
-      detail::merge_fits(found, detail::refine_speed_candidates(path, *bank, o, cands, pad), *bank, o.analysis_rate_hz);
+      detail::merge_fits(found, detail::refine_speed_candidates(path, *bank, lo, cands, pad), *bank, o.analysis_rate_hz);
     }
-    if (o.refine) refine_matches(path, *bank, o, found);
+    if (o.refine) refine_matches(path, *bank, lo, found);
     std::vector<Match> matches;
     for (auto& f : found) matches.push_back(std::move(f.second));
     std::sort(matches.begin(), matches.end(), [](const Match& a, const Match& b) {

@@ -59,9 +59,7 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
     for (size_t t : needed) {
       if (masters.count(t)) continue;
       Samples m;
-      if (auto ms = o.opener(bank.at(t).path, ChannelChoice{})) {
-        if (auto d = decode_all(*ms.value(), fs)) m = std::move(d.value());
-      }
+      if (auto d = o.masters->samples(bank.at(t).path, fs)) m = *d.value();
       master_len[t] = m.size();
       masters.emplace(t, std::move(m));
     }

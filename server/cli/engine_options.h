@@ -9,6 +9,7 @@
 #include <string>
 
 #include "cache_dir.h"
+#include "job_spec.h"
 #include "godwit/search/job.h"
 #include "progress_bar.h"
 
@@ -28,7 +29,7 @@ struct EngineArgs {
   size_t memory_mb = 288;
   std::string cache_dir = default_cache_dir();
   bool no_refine = false;
-  double max_speed_change_pct = 4.5;
+  double max_speed_change_pct = kDefaultMaxSpeedChangePct;
   bool no_speed_search = false;
   double max_tempo_change_pct = 5;
 };

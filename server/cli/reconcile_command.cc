@@ -27,7 +27,7 @@ struct ReconcileArgs {
   std::vector<std::string> recordings;
   std::string out;
   std::vector<std::string> formats{"json", "csv", "html"};
-  double window_s = 60;
+  double window_s = kDefaultWindowS;
   double partial_below = 0.9;
   double horizon_s = -1;  // unset: 3 × the window + 4 minutes
   std::string name_pattern = "%Y%m%dT%H%M%S";

@@ -142,6 +142,7 @@ nlohmann::json evidence_to_json(const std::optional<DetectionEvidence>& e) {
                                    p.coverage_range.second, p.aired_level}},
                    {"aired_score", e->aired_score}};
   if (e->foreground_contrast) j["foreground_contrast"] = *e->foreground_contrast;
+  if (e->shape_match) j["shape_match"] = *e->shape_match;
   if (e->spot_lufs) j["spot_lufs"] = *e->spot_lufs;
   if (e->programme_lufs) j["programme_lufs"] = *e->programme_lufs;
   return j;
@@ -166,6 +167,7 @@ Result<std::optional<DetectionEvidence>> evidence_from_json(const nlohmann::json
     e.profile.aired_level = part[8];
     e.aired_score = j.at("aired_score").get<double>();
     if (j.contains("foreground_contrast")) e.foreground_contrast = j["foreground_contrast"].get<double>();
+    if (j.contains("shape_match")) e.shape_match = j["shape_match"].get<double>();
     if (j.contains("spot_lufs")) e.spot_lufs = j["spot_lufs"].get<double>();
     if (j.contains("programme_lufs")) e.programme_lufs = j["programme_lufs"].get<double>();
     return std::optional<DetectionEvidence>{std::move(e)};

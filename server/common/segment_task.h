@@ -26,7 +26,7 @@
 namespace godwit {
 
 struct Stream {
-  std::string name;               // a recording's path, or run_name(i)
+  std::string name;               // a recording's path, or a run's name (SearchStreams)
   std::vector<ConcatPart> parts;  // empty: `name` is a file read whole, never split
   double rate_hz = 0;             // native
   double duration_s = 0;

@@ -241,11 +241,17 @@ void DropFolder::process_file(const std::string& name) {
   if (!lib) {
     doc = lib.error();
   } else {
-    nlohmann::json spec{{"kind", "locate"}, {"templates", lib.value()}, {"recordings", {path}}};
-    // The job id follows from the file: after a crash its re-run finds the
-    // tasks already stored by the queue.
-    doc = executor_("drop-" + name, spec, [](double) {}, [this] { return stop_.load(); },
-                    [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); }, nullptr);
+    LocateSpec spec;  // the engine's search defaults
+    spec.templates = lib.value();
+    spec.recordings = {path};
+    if (auto st = check_job_spec(spec); !st) {
+      doc = st.error();
+    } else {
+      // The job id follows from the file: after a crash its re-run finds
+      // the tasks already stored by the queue.
+      doc = executor_("drop-" + name, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
+                      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); }, nullptr);
+    }
   }
   std::error_code ec;
   if (!doc && doc.error().code == ErrorCode::cancelled) return;  // stays in work/ for the next start
@@ -301,9 +307,15 @@ void DropFolder::reconcile_day(const std::string& name) {
     if (t && format_iso8601_local(*t, 0).substr(0, 10) == day) recordings.push_back(it->path().string());
   }
   std::sort(recordings.begin(), recordings.end());
-  nlohmann::json spec{{"kind", "reconcile"}, {"library", runner_.config().default_library}, {"schedule", schedule},
-                      {"recordings", recordings}, {"window_s", 60.0}};
-  if (!runner_.config().time_zone.empty()) spec["time_zone"] = runner_.config().time_zone;
+  ReconcileSpec spec;
+  spec.library = runner_.config().default_library;
+  spec.schedule = schedule;
+  spec.recordings = recordings;
+  spec.time_zone = runner_.config().time_zone;
+  if (auto st = check_job_spec(spec); !st) {
+    spdlog::warn("drop folder: reconciling {} failed: {}", day, st.error().describe());
+    return;
+  }
   // The page and its excerpts: results/<log>.reconcile.html and
   // results/<log>.listen/, remade whole each time.
   const std::string stem = fs::path(schedule).stem().string();
@@ -315,7 +327,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   // In queue mode the day's search is shared out (hour x batch tasks) and
   // its reconciliation rebuilt here from the merged search.
   auto doc = executor_(
-      "drop-day-" + day, spec, [](double) {}, [this] { return stop_.load(); },
+      "drop-day-" + day, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
       [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &files);
   if (!doc) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());

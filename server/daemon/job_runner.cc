@@ -16,6 +16,7 @@
 #include "library_scan.h"
 #include "repair_report.h"
 #include "reconcile_inputs.h"
+#include "job_spec.h"
 #include "segment_task.h"
 
 namespace godwit {
@@ -71,15 +72,6 @@ Status all_under_roots(const PathGuard& g, const std::vector<std::string>& files
   return ok_status();
 }
 
-Result<double> number_in(const nlohmann::json& job, const char* field, double lo, double hi, double dflt) {
-  if (!job.contains(field)) return dflt;
-  if (!job[field].is_number()) return bad(std::string("'") + field + "' must be a number");
-  const double v = job[field].get<double>();
-  if (!(v >= lo && v <= hi))
-    return bad(std::string("'") + field + "' must lie in " + std::to_string(lo) + ".." + std::to_string(hi));
-  return v;
-}
-
 }  // namespace
 
 Result<nlohmann::json> JobRunner::prepare(const nlohmann::json& job) const {
@@ -111,7 +103,6 @@ void JobRunner::discard(const nlohmann::json& prepared) const {
 Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::string& inline_dir) const {
   if (!job.is_object()) return bad("'job' must be an object");
   const std::string kind = job.value("kind", "");
-  nlohmann::json out{{"kind", kind}};
   auto recs = guarded_list(guard_, job, "recordings", true, config_.max_recordings);
   if (!recs) return recs.error();
   double total_s = 0;
@@ -125,11 +116,9 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
                  "recordings total " + std::to_string(total_s) + " s, over the limit of " +
                      std::to_string(config_.max_recording_s) + " s per job",
                  "", std::nullopt};
-  out["recordings"] = recs.value();
   // 0 turns the speed search off.
-  auto speed = number_in(job, "max_speed_change_pct", 0, 10, 4.5);
+  auto speed = number_field(job, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
-  out["max_speed_change_pct"] = speed.value();
 
   if (kind == "reconcile") {
     if (!job.contains("library") || !job.contains("schedule")) return bad("a reconcile job needs 'library' and 'schedule'");
@@ -137,7 +126,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (!lib) return lib.error();
     auto sched = guarded(guard_, job["schedule"], "schedule");
     if (!sched) return sched.error();
-    auto w = number_in(job, "window_s", 0, 86400, 60);
+    auto w = number_field(job, "window_s", 0, 86400, kDefaultWindowS);
     if (!w) return w.error();
     auto files = library_files(lib.value());
     if (!files) return files.error();
@@ -155,15 +144,18 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
       auto tz = TimeZone::find(zone);
       if (!tz) return bad(tz.error().message);
     }
-    out["library"] = lib.value();
-    out["schedule"] = sched.value();
-    out["window_s"] = w.value();
-    if (!zone.empty()) out["time_zone"] = zone;
+    ReconcileSpec out;
+    out.library = lib.value();
+    out.schedule = sched.value();
+    out.recordings = recs.value();
+    out.window_s = w.value();
+    out.time_zone = zone;
     if (job.contains("excerpts")) {
       if (!job["excerpts"].is_boolean()) return bad("'excerpts' must be true or false");
-      out["excerpts"] = job["excerpts"];
+      out.excerpts = job["excerpts"].get<bool>();
     }
-    return out;
+    out.search.max_speed_change_pct = speed.value();
+    return job_spec_to_json(out);
   }
   if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");
 
@@ -226,66 +218,57 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (!is_valid_utf8(t))
       return Error{ErrorCode::unsupported,
                    "file name is not valid UTF-8 (rename the file): " + escape_invalid_utf8(t), "", std::nullopt};
-  out["templates"] = templates;
-  for (auto [field, lo, hi, dflt] : {std::tuple{"threshold", 0.05, 1.0, PickerOptions{}.threshold}, std::tuple{"floor_k", 0.0, 1000.0, 10.0}}) {
-    auto v = number_in(job, field, lo, hi, dflt);
-    if (!v) return v.error();
-    out[field] = v.value();
-  }
-  auto fft = number_in(job, "fft_size", 0, double(1 << 24), 0);
-  if (!fft) return fft.error();
-  const auto fs = static_cast<size_t>(fft.value());
-  if (fs & (fs - 1)) return bad("'fft_size' must be a power of two");
-  out["fft_size"] = fs;
-  return out;
+  LocateSpec out;
+  out.templates = templates;
+  out.recordings = recs.value();
+  // Every search field stated, the defaults included (the journal keeps
+  // what the job ran with).
+  auto search = search_fields_from_json(job);
+  if (!search) return search.error();
+  out.search = search.value();
+  out.search.threshold = out.search.threshold.value_or(PickerOptions{}.threshold);
+  out.search.floor_k = out.search.floor_k.value_or(PickerOptions{}.floor_k);
+  out.search.fft_size = out.search.fft_size.value_or(0);
+  return job_spec_to_json(out);
 }
 
-namespace {
-
-// The search options a job or task states (the rest are the daemon's).
-void apply_search_fields(const nlohmann::json& spec, LocateOptions& lo) {
-  const double speed_pct = spec.value("max_speed_change_pct", 4.5);
-  lo.speed.enabled = speed_pct > 0;
-  lo.speed.max_deviation = speed_pct / 100;
-  lo.picker.threshold = spec.value("threshold", lo.picker.threshold);
-  lo.picker.floor_k = spec.value("floor_k", lo.picker.floor_k);
-  lo.bank.fixed_fft_size = spec.value("fft_size", size_t{0});
-}
-
-}  // namespace
-
-LocateOptions JobRunner::locate_options(const nlohmann::json& spec, const std::function<void(std::string_view)>& warn) const {
+LocateOptions JobRunner::locate_options(const SearchFields& search,
+                                        const std::function<void(std::string_view)>& warn) const {
   LocateOptions lo;
   lo.correlator.threads = config_.threads_per_job;
   lo.correlator.planner = config_.planner;
   lo.on_diagnostic = warn;
   lo.opener = reporting_opener(lo.opener, warn);
-  apply_search_fields(spec, lo);
+  search.apply(lo);
   return lo;
 }
 
-Result<JobRunner::Reconcile> JobRunner::load_reconcile(const nlohmann::json& spec,
+Result<JobRunner::Reconcile> JobRunner::load_reconcile(const ReconcileSpec& spec,
                                                        const std::function<void(std::string_view)>& warn) const {
   std::vector<std::string> warnings;
-  auto job = load_reconcile_job({spec.at("library"), spec.at("schedule"),
-                                 spec.at("recordings").get<std::vector<std::string>>(), spec.value("window_s", 60.0), "",
-                                 spec.value("time_zone", ""), "the job's time_zone (or the daemon's time_zone setting)"},
+  auto job = load_reconcile_job({spec.library, spec.schedule, spec.recordings, spec.window_s, "", spec.time_zone,
+                                 "the job's time_zone (or the daemon's time_zone setting)"},
                                 warnings);
   for (const auto& w : warnings) warn(w);
   if (!job) return job.error();
   if (auto st = all_under_roots(guard_, job.value().masters); !st) return st.error();
   Reconcile r;
   r.job = std::move(job.value());
-  r.options.locate.correlator.threads = config_.threads_per_job;
-  r.options.locate.correlator.planner = config_.planner;
-  r.options.locate.on_diagnostic = warn;
-  r.options.locate.opener = reporting_opener(r.options.locate.opener, warn);
-  apply_search_fields(spec, r.options.locate);
-  r.title = std::filesystem::path(spec.at("schedule").get<std::string>()).stem().string();
+  r.options.locate = locate_options(spec.search, warn);
+  r.title = std::filesystem::path(spec.schedule).stem().string();
   return r;
 }
 
-Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::function<void(double)>& progress,
+Result<nlohmann::json> JobRunner::run(const nlohmann::json& prepared, const std::function<void(double)>& progress,
+                                      const std::function<bool()>& should_stop,
+                                      const std::function<void(std::string_view)>& warn, const ReportFiles* report,
+                                      const std::string& job_id) const {
+  auto spec = job_spec_from_json(prepared);
+  if (!spec) return spec.error();
+  return run(spec.value(), progress, should_stop, warn, report, job_id);
+}
+
+Result<nlohmann::json> JobRunner::run(const JobSpec& spec, const std::function<void(double)>& progress,
                                       const std::function<bool()>& should_stop,
                                       const std::function<void(std::string_view)>& warn, const ReportFiles* report,
                                       const std::string& job_id) const {
@@ -298,9 +281,8 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
       runner.costs_.insert(costs.begin(), costs.end());
     }
   } keep{*this, costs};
-  const std::string kind = spec.value("kind", "");
-  if (kind == "reconcile") {
-    auto rec = load_reconcile(spec, warn);
+  if (const auto* rs = std::get_if<ReconcileSpec>(&spec)) {
+    auto rec = load_reconcile(*rs, warn);
     if (!rec) return rec.error();
     ReconcileOptions& ro = rec.value().options;
     ro.locate.bank.costs = &costs;
@@ -308,35 +290,38 @@ Result<nlohmann::json> JobRunner::run(const nlohmann::json& spec, const std::fun
     ro.locate.should_stop = should_stop;
     auto r = run_reconcile(rec.value().job, ro);
     if (!r) return r.error();
-    return reconcile_documents(r.value(), spec, ro, rec.value().title, report, should_stop, warn, job_id);
+    return reconcile_documents(r.value(), *rs, ro, rec.value().title, report, should_stop, warn, job_id);
   }
-  LocateOptions lo = locate_options(spec, warn);
-  lo.bank.costs = &costs;
-  lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
-  lo.should_stop = should_stop;
-  const auto templates = spec.at("templates").get<std::vector<std::string>>();
-  if (kind == "segment") {
-    auto seg = segment_from_json(spec.at("segment"));
-    if (!seg) return seg.error();
-    auto r = search_segment(seg.value(), templates, lo);
+  if (const auto* ss = std::get_if<SegmentSpec>(&spec)) {
+    LocateOptions lo = locate_options(ss->search, warn);
+    lo.bank.costs = &costs;
+    lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
+    lo.should_stop = should_stop;
+    // The task's masters, decoded once for its search and its evidence.
+    lo.masters = std::make_shared<MasterLibrary>(lo.opener, lo.analysis_rate_hz);
+    auto r = search_segment(ss->segment, ss->templates, lo);
     if (!r) return r.error();
     nlohmann::json out = locate_to_json(r.value(), true);
-    if (spec.value("evidence", false)) {  // a reconcile job's: steps 4 and 6 here, beside the audio
+    if (ss->evidence) {  // a reconcile job's: steps 4 and 6 here, beside the audio
       ReconcileOptions ro;
       ro.locate = lo;
-      const auto ev = gather_evidence(r.value().templates, seg.value().stream.parts, r.value().matches, ro);
+      const auto ev = gather_evidence(r.value().templates, ss->segment.stream.parts, r.value().matches, ro);
       out["evidence"] = nlohmann::json::array();
       for (const auto& e : ev) out["evidence"].push_back(evidence_to_json(e));
     }
     return out;
   }
-  LocateJob job{templates, spec.at("recordings").get<std::vector<std::string>>()};
-  auto r = run_locate_job(job, lo);
+  const auto& ls = std::get<LocateSpec>(spec);
+  LocateOptions lo = locate_options(ls.search, warn);
+  lo.bank.costs = &costs;
+  lo.on_progress = [&](const Progress& p) { progress(p.fraction); };
+  lo.should_stop = should_stop;
+  auto r = run_locate_job(LocateJob{ls.templates, ls.recordings}, lo);
   if (!r) return r.error();
   return locate_to_json(r.value());
 }
 
-Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& result, const nlohmann::json& spec,
+Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& result, const ReconcileSpec& spec,
                                                      const ReconcileOptions& options, const std::string& title,
                                                      const ReportFiles* report, const std::function<bool()>& should_stop,
                                                      const std::function<void(std::string_view)>& warn,
@@ -345,13 +330,13 @@ Result<nlohmann::json> JobRunner::reconcile_documents(const ReconcileResult& res
   if (report) {
     ReportFiles f = *report;
     f.log_name = title;
-    f.excerpts = f.excerpts && spec.value("excerpts", true);
+    f.excerpts = f.excerpts && spec.excerpts.value_or(true);
     auto w = write_report_files(result, options, f, should_stop, warn);
     if (!w) return w.error();
     heard = std::move(w.value());
   }
   if (config_.on_reconciled)
-    if (auto st = config_.on_reconciled(result, options, spec, job_id); !st)
+    if (auto st = config_.on_reconciled(result, options, job_spec_to_json(spec), job_id); !st)
       return Error{st.error().code, "the store of record was not written: " + st.error().message, st.error().path,
                    std::nullopt};
   return reconcile_to_json(result, options.loudness, heard ? &*heard : nullptr);

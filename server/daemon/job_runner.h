@@ -13,9 +13,10 @@
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
 //   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60,
 //    "time_zone": "Europe/Berlin", "excerpts": true}  (time_zone: optional; the daemon's when absent)
-// and, from the queue only (never prepared): a task of a distributed job,
-//   {"kind": "segment", "segment": {...}, "templates": [paths], "threshold", ...}
-// whose result is a locate document with exact numbers (task_plan.h).
+// prepare() gives a LocateSpec or ReconcileSpec (job_spec.h) as JSON; run()
+// parses a prepared job once (job_spec_from_json) and runs the type. From
+// the queue only (never prepared): a SegmentSpec, one task of a distributed
+// job, whose result is a locate document with exact numbers (task_plan.h).
 //
 // Thread contract: safe for concurrent use (run() from several workers).
 #pragma once
@@ -28,6 +29,7 @@
 #include "godwit/core/error.h"
 #include "godwit/search/fft_size_chooser.h"
 #include "godwit/compliance/reconcile_job.h"
+#include "job_spec.h"
 #include "path_guard.h"
 #include "report_files.h"
 
@@ -73,9 +75,13 @@ class JobRunner {
                              const std::function<bool()>& should_stop,
                              const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr,
                              const std::string& job_id = {}) const;
+  Result<nlohmann::json> run(const JobSpec& spec, const std::function<void(double)>& progress,
+                             const std::function<bool()>& should_stop,
+                             const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr,
+                             const std::string& job_id = {}) const;
   // A finished reconcile job's documents: its report files written as
   // `report` says (when given), and the JSON. Errors: io, cancelled.
-  Result<nlohmann::json> reconcile_documents(const ReconcileResult& result, const nlohmann::json& prepared,
+  Result<nlohmann::json> reconcile_documents(const ReconcileResult& result, const ReconcileSpec& spec,
                                              const ReconcileOptions& options, const std::string& title,
                                              const ReportFiles* report, const std::function<bool()>& should_stop,
                                              const std::function<void(std::string_view)>& warn,
@@ -94,12 +100,11 @@ class JobRunner {
     ReconcileOptions options;  // its search's FFT cost table is not set
     std::string title;         // of the HTML report
   };
-  Result<Reconcile> load_reconcile(const nlohmann::json& prepared,
-                                   const std::function<void(std::string_view)>& warn) const;
+  Result<Reconcile> load_reconcile(const ReconcileSpec& spec, const std::function<void(std::string_view)>& warn) const;
   // A locate job's search options: the daemon's (threads, planner) and the
   // job's (threshold, floor, speed range); no FFT cost table, no callbacks
   // but `warn`.
-  LocateOptions locate_options(const nlohmann::json& prepared, const std::function<void(std::string_view)>& warn) const;
+  LocateOptions locate_options(const SearchFields& search, const std::function<void(std::string_view)>& warn) const;
 
  private:
   // `inline_dir` receives the folder made for inline spots, if any.

@@ -27,6 +27,8 @@ class LineFramer {
   std::vector<Event> feed(std::string_view bytes);
   // Bytes of an unfinished line held now.
   size_t pending() const { return buf_.size(); }
+  // In a line over the limit, whose bytes are skipped up to its "\n".
+  bool skipping() const { return skipping_; }
 
  private:
   static constexpr size_t kReserveAllFromBytes = 256u << 10;

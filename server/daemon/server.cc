@@ -5,6 +5,7 @@
 #include <chrono>
 #include <deque>
 #include <map>
+#include <vector>
 
 #include "error_boundary.h"
 #include "line_framer.h"
@@ -37,10 +38,11 @@ namespace {
 class Session : public std::enable_shared_from_this<Session> {
  public:
   Session(tcp::socket socket, Dispatcher& d, JobStore& store, const ServerLimits& limits,
-          std::shared_ptr<ConnectionCounts> counts, std::string address, boost::asio::thread_pool& handlers)
+          std::shared_ptr<ConnectionCounts> counts, std::string address, FairPool& requests, FairPool& heavy)
       : socket_(std::move(socket)),
         timer_(socket_.get_executor()),
-        handlers_(handlers),
+        requests_(requests),
+        heavy_(heavy),
         dispatcher_(d),
         store_(store),
         limits_(limits),
@@ -79,24 +81,38 @@ class Session : public std::enable_shared_from_this<Session> {
 
  private:
   void read() {
+    // Past heavy_read_bytes of one line (or in one over the limit, whose
+    // rest is skipped), 256 KiB a read instead of 8 KiB: a client's
+    // megabytes cost the I/O thread 32 times fewer turns. The larger buffer
+    // goes once the line is done.
+    const bool long_line = framer_.pending() > limits_.heavy_read_bytes || framer_.skipping();
+    if (long_line && long_buf_.empty()) long_buf_.resize(256u << 10);
+    if (!long_line && !long_buf_.empty()) std::vector<char>().swap(long_buf_);
+    auto into = long_line ? boost::asio::buffer(long_buf_) : boost::asio::buffer(buf_);
     auto self = shared_from_this();
-    socket_.async_read_some(boost::asio::buffer(buf_), [this, self](boost::system::error_code ec, size_t n) {
+    socket_.async_read_some(into, [this, self, long_line](boost::system::error_code ec, size_t n) {
       if (ec) return close();
-      for (auto& ev : framer_.feed(std::string_view(buf_.data(), n))) {
-        if (ev.kind == LineFramer::Event::line && ev.text.empty()) continue;  // no request: idle all the same
-        last_active_ = Clock::now();
-        lines_.push_back(std::move(ev));
-      }
-      line_started_ = framer_.pending() > 0 ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
-      if (closed_) return;
-      if (lines_.empty()) read();
-      else handle_next();
+      take(framer_.feed(std::string_view(long_line ? long_buf_.data() : buf_.data(), n)));
     });
   }
 
-  // Requests are handled one at a time, in order, on the handler threads,
-  // never on the I/O thread: a submit opens recordings and fsyncs the
-  // journal, `cluster` asks Redis. Reading pauses meanwhile and resumes
+  // Lines just framed: handled in turn, or reading goes on.
+  void take(std::vector<LineFramer::Event> events) {
+    for (auto& ev : events) {
+      if (ev.kind == LineFramer::Event::line && ev.text.empty()) continue;  // no request: idle all the same
+      last_active_ = Clock::now();
+      lines_.push_back(std::move(ev));
+    }
+    line_started_ = framer_.pending() > 0 ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
+    if (closed_) return;
+    if (lines_.empty()) read();
+    else handle_next();
+  }
+
+  // Requests are handled one at a time, in order, on the request threads
+  // (long lines on the heavy ones), never on the I/O thread: a submit
+  // opens recordings and fsyncs the journal, `cluster` asks Redis, a long
+  // line takes milliseconds to parse. Reading pauses meanwhile and resumes
   // once the lines of the last read are answered.
   void handle_next() {
     while (!closed_ && !lines_.empty() && lines_.front().kind == LineFramer::Event::too_long) {
@@ -113,7 +129,8 @@ class Session : public std::enable_shared_from_this<Session> {
     }
     handling_ = true;
     auto self = shared_from_this();
-    boost::asio::post(handlers_, [this, self, text = std::move(lines_.front().text)] {
+    FairPool& pool = lines_.front().text.size() > limits_.heavy_line_bytes ? heavy_ : requests_;
+    pool.post(address_, [this, self, text = std::move(lines_.front().text)]() mutable {
       // The request's error boundary (error_boundary.h): whatever handling
       // it throws is answered `internal`, and the connection stays usable.
       auto reply = std::make_shared<Reply>();
@@ -132,7 +149,9 @@ class Session : public std::enable_shared_from_this<Session> {
         *line = json_text(err);
         reply->watch = false;
       }
-      boost::asio::post(socket_.get_executor(), [this, self, reply, line] {
+      // `self` moves on, so the session is never destroyed on this thread
+      // (its counts are the I/O thread's).
+      boost::asio::post(socket_.get_executor(), [this, self = std::move(self), reply, line] {
         send(std::move(*line));
         if (reply->watch && !closed_) subscribe(reply->watch_job);
         handle_next();
@@ -207,7 +226,8 @@ class Session : public std::enable_shared_from_this<Session> {
 
   tcp::socket socket_;
   boost::asio::steady_timer timer_;
-  boost::asio::thread_pool& handlers_;
+  FairPool& requests_;
+  FairPool& heavy_;
   Dispatcher& dispatcher_;
   JobStore& store_;
   const ServerLimits& limits_;
@@ -215,9 +235,10 @@ class Session : public std::enable_shared_from_this<Session> {
   std::shared_ptr<ConnectionCounts> counts_;
   std::string address_;
   std::array<char, 8192> buf_{};
+  std::vector<char> long_buf_;  // while a long line is read
   std::deque<std::string> out_;
   std::deque<LineFramer::Event> lines_;  // read, not yet handled
-  bool handling_ = false;                // a request is with the handler threads
+  bool handling_ = false;                // a request is with the request threads
   size_t queued_bytes_ = 0;
   Clock::time_point last_active_;      // the last request line, or answer
   Clock::time_point write_since_;      // the write queue last moved
@@ -230,7 +251,13 @@ class Session : public std::enable_shared_from_this<Session> {
 }  // namespace
 
 Server::Server(boost::asio::io_context& io, const tcp::endpoint& at, Dispatcher& d, JobStore& store, ServerLimits limits)
-    : acceptor_(io), dispatcher_(d), store_(store), limits_(limits), counts_(std::make_shared<ConnectionCounts>()) {
+    : acceptor_(io),
+      dispatcher_(d),
+      store_(store),
+      limits_(limits),
+      counts_(std::make_shared<ConnectionCounts>()),
+      requests_(FairPool::Options{4, "gw-request", 0, 2}),
+      heavy_(FairPool::Options{2, "gw-heavy", limits.heavy_nice, 2}) {
   acceptor_.open(at.protocol());
   acceptor_.set_option(tcp::acceptor::reuse_address(true));
   if (at.address().is_v6()) acceptor_.set_option(boost::asio::ip::v6_only(false));
@@ -266,7 +293,8 @@ void Server::accept() {
           sock->close(ignored);
         });
       } else {
-        std::make_shared<Session>(std::move(socket), dispatcher_, store_, limits_, counts_, address, handlers_)->start();
+        std::make_shared<Session>(std::move(socket), dispatcher_, store_, limits_, counts_, address, requests_, heavy_)
+            ->start();
       }
     }
     accept();

@@ -4,9 +4,10 @@
 //             max_connections_per_address from one address, it answers one
 //             `busy` line and closes.
 //   Session   one per connection: reads bytes into a LineFramer, hands
-//             each line to the Dispatcher on a handler thread (never on
-//             the I/O thread: a submit opens files and fsyncs; one line at
-//             a time, reading paused meanwhile) and queues the response;
+//             each line to the Dispatcher on a request thread (never on
+//             the I/O thread, which reads, frames and writes but parses
+//             nothing: a submit opens files and fsyncs; one line at a
+//             time, reading paused meanwhile) and queues the response;
 //             a write loop sends queued lines in order. Deadlines:
 //               idle  no request line (empty lines do not count) for
 //                     idle_timeout_s after the last answer -> closed
@@ -20,7 +21,17 @@
 //             I/O thread, and a heartbeat event every watch_heartbeat_s
 //             (with TCP keepalive, a vanished watcher is found out).
 //
-//   read loop --bytes--> framer --line--> post(handlers): dispatcher --json--> post(io) --> write queue --> write loop
+//   Request threads: two FairPools (fair_pool.h), each taking first the
+//   lines of the address that used the least CPU there recently:
+//     requests  4 threads at the daemon's priority, for lines up to
+//               heavy_line_bytes (every request but a long one)
+//     heavy     2 threads at heavy_nice below it (`gw-heavy`), for longer
+//               lines (inline spots, or a client's megabytes to parse):
+//               their parse waits while short requests want a core, and
+//               never holds a thread short requests need.
+//   A line past heavy_read_bytes is read 256 KiB at a time (else 8 KiB).
+//
+//   read loop --bytes--> framer --line--> post(requests|heavy): dispatcher --json--> post(io) --> write queue --> write loop
 //   worker threads --event--> post(io) --> write queue
 #pragma once
 
@@ -30,6 +41,7 @@
 #include <string>
 
 #include "dispatcher.h"
+#include "fair_pool.h"
 
 namespace godwit {
 
@@ -41,6 +53,9 @@ struct ServerLimits {
   size_t max_connections_per_address = 64;
   size_t max_reply_bytes = 32u << 20;
   double watch_heartbeat_s = 30;
+  size_t heavy_line_bytes = 1u << 20;  // longer request lines are handled on the heavy threads
+  size_t heavy_read_bytes = 256u << 10;  // a line longer is read 256 KiB at a time
+  int heavy_nice = 5;                  // added to the heavy threads' nice value: below requests, above jobs (job_nice 10)
 };
 
 struct ConnectionCounts;
@@ -61,7 +76,9 @@ class Server {
   JobStore& store_;
   ServerLimits limits_;
   std::shared_ptr<ConnectionCounts> counts_;
-  boost::asio::thread_pool handlers_{4};  // runs Dispatcher::handle; joined on destruction
+  // Run Dispatcher::handle; joined on destruction (declared last: first to go).
+  FairPool requests_;
+  FairPool heavy_;
 };
 
 }  // namespace godwit

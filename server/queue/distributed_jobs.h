@@ -1,9 +1,8 @@
 // DistributedJobs: runs a daemon's job through the queue instead of on its
-// own worker: finds the job's streams (its recordings, or the runs of a
-// reconcile job's timeline), plans the tasks (task_plan.h), enqueues those
-// not stored yet, follows their progress across all workers, merges their
-// results and, for a reconcile job, rebuilds the day's reconciliation from
-// the merged search (finish_reconcile) here.
+// own worker: the job planned into tasks and finished from their results
+// as run_planned does it (planned_job.h); the queue runs the tasks: it
+// enqueues those not stored yet and follows their progress across all
+// workers.
 //
 // The job itself stays in the submitting daemon's journal: if that daemon
 // restarts, the job runs again, and its tasks already stored are not run
@@ -19,6 +18,7 @@
 #include <string>
 
 #include "job_runner.h"
+#include "planned_job.h"
 #include "task_plan.h"
 #include "task_queue.h"
 
@@ -27,18 +27,23 @@ namespace godwit {
 class DistributedJobs {
  public:
   DistributedJobs(QueueUrl url, QueueOptions options, PlanOptions plan, const JobRunner& runner);
-  // As JobRunner::run, `report` included.
+  // As JobRunner::run, `report` included: run_planned (planned_job.h) with
+  // the queue's workers running the tasks.
   Result<nlohmann::json> run(const std::string& job_id, const nlohmann::json& spec,
                              const std::function<void(double)>& progress, const std::function<bool()>& should_stop,
                              const std::function<void(std::string_view)>& warn, const ReportFiles* report = nullptr) const;
   Result<nlohmann::json> cluster() const;
 
- private:
-  // Until every task is stored: their results in plan order.
+  // The queue as a TaskRunner does it: until every task is stored, their
+  // results in plan order.
   Result<std::vector<nlohmann::json>> run_tasks(const std::string& job_id, const std::vector<PlannedTask>& tasks,
                                                 const std::function<void(double)>& progress,
                                                 const std::function<bool()>& should_stop,
                                                 const std::function<void(std::string_view)>& warn) const;
+  // What the queue keeps of a finished job's tasks, dropped (best effort).
+  void forget(const std::string& job_id, const std::vector<PlannedTask>& tasks) const;
+
+ private:
   QueueUrl url_;
   QueueOptions options_;
   PlanOptions plan_;

@@ -282,6 +282,10 @@ int main(int argc, char** argv) {
                  "a closer look at them)")
       ->check(CLI::Range(0.0, 1.0));
   app.add_flag("--no-tempo-fit", no_tempo_fit, "engine without the tempo fit (speed search only), for a before/after on one seed");
+  double negative_odds = AirDayOptions{}.negative_odds;
+  app.add_option("--negative-odds", negative_odds,
+                 "share of programme stretches holding a hard negative (default 0.4; 1 for a day to study them)")
+      ->check(CLI::Range(0.0, 1.0));
   CLI11_PARSE(app, argc, argv);
   const fs::path dir = keep.empty() ? fs::temp_directory_path() / ("godwit-accuracy-" + std::to_string(seed)) : fs::path(keep);
 
@@ -291,6 +295,7 @@ int main(int argc, char** argv) {
   ao.seed = seed;
   if (tempo_odds >= 0) ao.odds.tempo = tempo_odds;
   ao.reuse = reuse && !keep.empty();
+  ao.negative_odds = negative_odds;
   ao.dir = dir.string();
   ao.log = [](const std::string& s) { std::fprintf(stderr, "accuracy_bench: %s\n", s.c_str()); };
   std::string err;
@@ -402,8 +407,16 @@ int main(int argc, char** argv) {
       const double tol = p.kind == PlantKind::airing ? 0.5 : 0.5 * m.duration_s + 1;
       for (const auto& a : r.airings)
         if (std::fabs(a.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f dt %+.3f ms", a.spot.c_str(),
-                        a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), (a.aired_s - start - p.chain_delay_s) * 1e3);
+          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f shape %.3f dt %+.3f ms",
+                        a.spot.c_str(), a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
+                        (a.aired_s - start - p.chain_delay_s) * 1e3);
+          line += buf;
+        }
+      for (const auto& x : r.rejected)
+        if (std::fabs(x.aired_s - start) <= tol) {
+          std::snprintf(buf, sizeof buf, "\n     r %s score %.3f cov %.2f aired %.3f contrast %+.3f shape %.3f (turned down)",
+                        x.spot.c_str(), x.score, x.coverage, x.aired_score, x.foreground_contrast.value_or(99),
+                        x.shape_match.value_or(99));
           line += buf;
         }
       if (loc) {

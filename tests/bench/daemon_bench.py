@@ -3,7 +3,7 @@
 clients, and job throughput vs the CLI.
 
 Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--clients 50] [--seconds 5]
-                       [--hostile] [--hostile-seconds 10] [--no-throughput]
+                       [--hostile] [--hostile-seconds 10] [--hostile-nice 19] [--no-throughput]
 
 1. The same locate jobs (the demo library against each of the demo's three
    aircheck files, repeated) run once through `godwit locate` one after
@@ -20,7 +20,10 @@ Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--c
    addresses: latency side by side (target: p99 of status <= 10 ms), and
    per hostile kind the requests answered or closed within their deadline
    (target: all). Well-behaved and hostile clients run in two processes
-   of their own (asyncio; threads), apart from this one.
+   of their own (asyncio; threads), apart from this one; the hostile one,
+   standing for other hosts, in a session of its own at nice +19
+   (--hostile-nice; hostile_clients.py says why). The daemon's cores are
+   also given by thread: io, requests, heavy (long lines), jobs.
 """
 import argparse
 import asyncio
@@ -96,19 +99,53 @@ def process_cpu_s(pid):
     return (int(v[11]) + int(v[12])) / os.sysconf("SC_CLK_TCK")
 
 
-def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid=None):
+def thread_cpu_s(pid):
+    """CPU seconds of each live thread of `pid`: {tid: (name, nice, seconds)}."""
+    out = {}
+    for tid in os.listdir(f"/proc/{pid}/task"):
+        try:
+            with open(f"/proc/{pid}/task/{tid}/stat") as f:
+                head, tail = f.read().rsplit(")", 1)
+        except OSError:
+            continue  # ended meanwhile
+        v = tail.split()
+        out[int(tid)] = (head.split("(", 1)[1], int(v[16]), (int(v[11]) + int(v[12])) / os.sysconf("SC_CLK_TCK"))
+    return out
+
+
+def daemon_cpu_split(pid, before, after, total_s):
+    """The daemon's CPU seconds by what its threads do: io (the main thread, which runs the I/O loop), heavy
+    (threads named gw-heavy*: long request lines, when the daemon has them), requests (the other threads at the
+    daemon's own nice value) and jobs (the rest: job threads run below requests, and threads that ended)."""
+    own_nice = after.get(pid, before.get(pid, ("", 0, 0)))[1]
+    split = {"io": 0.0, "requests": 0.0, "heavy": 0.0}
+    for tid, (name, nice, s) in after.items():
+        used = s - before.get(tid, (name, nice, 0.0))[2]
+        if tid == pid:
+            split["io"] += used
+        elif name.startswith("gw-heavy"):
+            split["heavy"] += used
+        elif nice == own_nice:
+            split["requests"] += used
+    split["jobs"] = max(0.0, total_s - sum(split.values()))
+    return split
+
+
+def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid=None, hostile_nice=19):
     """Well-behaved clients for `seconds` (and hostile ones beside them): their percentiles, the hostile tally,
-    and where the machine's CPU went meanwhile (cores busy: the daemon, the clients, everything else)."""
+    and where the machine's CPU went meanwhile (cores busy: the daemon, split by its threads' work, the clients,
+    everything else)."""
     busy0, all0 = machine_cpu_s()
     d0 = process_cpu_s(daemon_pid) if daemon_pid else 0
+    t0 = thread_cpu_s(daemon_pid) if daemon_pid else {}
     c0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     ctx = multiprocessing.get_context("fork")
     q_good, q_bad = ctx.Queue(), ctx.Queue()
-    start_at = time.time() + 1.0  # both processes connect first
+    start_at = time.time() + 3.0  # both processes connect (and the hostile one makes its lines) first
     good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at, interval_s))
     procs = [good]
     if hostile:
-        procs.append(ctx.Process(target=hostile_clients.run, args=(port, seconds, READ_TIMEOUT_S, q_bad, start_at)))
+        procs.append(ctx.Process(target=hostile_clients.run, args=(port, seconds, READ_TIMEOUT_S, q_bad, start_at, hostile_nice)))
     for p in procs:
         p.start()
     lat = q_good.get(timeout=seconds + 120)
@@ -119,11 +156,14 @@ def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid
     c1 = resource.getrusage(resource.RUSAGE_CHILDREN)
     wall = (all1 - all0) / os.cpu_count()
     daemon = (process_cpu_s(daemon_pid) - d0) if daemon_pid else 0
+    split = daemon_cpu_split(daemon_pid, t0, thread_cpu_s(daemon_pid), daemon) if daemon_pid else {}
     clients_s = (c1.ru_utime + c1.ru_stime) - (c0.ru_utime + c0.ru_stime)
     cpu = {"busy": (busy1 - busy0) / wall, "daemon": daemon / wall, "clients": clients_s / wall,
            "others": (busy1 - busy0 - daemon - clients_s) / wall}
+    cpu_daemon = {k: v / wall for k, v in split.items()}
     return {"status": percentiles(lat["status"]), "health": percentiles(lat["health"]),
-            "all": percentiles(lat["status"] + lat["health"]), "cpu": cpu}, tally
+            "all": percentiles(lat["status"] + lat["health"]), "cpu": cpu,
+            "cpu_daemon": cpu_daemon}, tally
 
 
 def main():
@@ -136,6 +176,8 @@ def main():
     ap.add_argument("--seconds", type=float, default=5)
     ap.add_argument("--hostile", action="store_true", help="also measure latency beside hostile clients")
     ap.add_argument("--hostile-seconds", type=float, default=10)
+    ap.add_argument("--hostile-nice", type=int, default=19,
+                    help="nice value added to the hostile clients' process (they stand for other hosts)")
     ap.add_argument("--no-throughput", action="store_true", help="skip the throughput comparison")
     a = ap.parse_args()
     tmp = tempfile.mkdtemp(prefix="godwit-dbench-")
@@ -218,12 +260,13 @@ def main():
             runs = {}
             for hostile in (False, True):
                 runs[hostile] = latency_run(port, long_job, a.clients, a.hostile_seconds, hostile, interval_s,
-                                            daemon.pid)
+                                            daemon.pid, a.hostile_nice)
             running = req(f, {"op": "status", "job": long_job})["state"]
             pace = "back to back" if not interval_s else f"each one request every {1e3 * interval_s:.0f} ms"
             print(f"latency beside hostile clients: {a.clients} well-behaved clients (asyncio, own process), "
                   f"status+health {pace} for {a.hostile_seconds:.0f} s while a job runs ({running}), "
-                  f"alone and beside hostile clients (own process); daemon read_timeout_s = {READ_TIMEOUT_S}")
+                  f"alone and beside hostile clients (own process, nice +{a.hostile_nice}); "
+                  f"daemon read_timeout_s = {READ_TIMEOUT_S}")
             print(f"  {'':24} {'alone':>28} {'beside hostile clients':>28}")
             for op in ("status", "health", "all"):
                 cells = []
@@ -235,13 +278,15 @@ def main():
                 print(f"  max {op} (ms)             {runs[False][0][op]['max_ms']:28.2f} {runs[True][0][op]['max_ms']:28.2f}")
             cells = [" ".join(f"{k} {v:.2f}" for k, v in runs[h][0]["cpu"].items()) for h in (False, True)]
             print(f"  cores busy: {cells[0]}  |  {cells[1]}   (of {os.cpu_count()}; others: not this benchmark)")
+            cells = [" ".join(f"{k} {v:.2f}" for k, v in runs[h][0]["cpu_daemon"].items()) for h in (False, True)]
+            print(f"  daemon's cores by thread: {cells[0]}  |  {cells[1]}")
             print(f"  target: p99 of status <= 10 ms beside hostile clients: "
                   f"{'met' if runs[True][0]['status']['p99_ms'] <= 10 else 'MISSED'}")
             tally = runs[True][1]
             print(f"  hostile requests answered (or, for unfinished lines, closed) within their deadline:")
             for kind, t in sorted(tally.items()):
                 print(f"    {kind:10} {t['within_deadline']:6d} of {t['requests']:6d}   missed {t['missed']:4d}"
-                      f"   worst {t['worst_s']:.3f} s")
+                      f"   worst {t['worst_s']:.3f} s   sent {t['sent_bytes'] / 2**20:8.1f} MiB")
             print(f"  target: all within their deadline: "
                   f"{'met' if all(t['missed'] == 0 for t in tally.values()) else 'MISSED'}", flush=True)
         req(f, {"op": "cancel", "job": long_job})

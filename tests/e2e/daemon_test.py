@@ -924,14 +924,18 @@ class DaemonTests(unittest.TestCase):
         c = d.connect()
         job = c.req({"op": "submit", "job": long_job()})["job"]
         wait_state(c, job, ("running",))
-        nice = {}
+        nice, heavy = {}, {}
         for tid in os.listdir(f"/proc/{d.proc.pid}/task"):
             with open(f"/proc/{d.proc.pid}/task/{tid}/stat") as f:
-                fields = f.read().rsplit(")", 1)[1].split()
-            nice[int(tid)] = int(fields[16])  # field 19 of proc(5), counted after the name
+                head, tail = f.read().rsplit(")", 1)
+            fields = tail.split()
+            # field 19 of proc(5), counted after the name; the threads for long request lines apart
+            (heavy if head.split("(", 1)[1].startswith("gw-heavy") else nice)[int(tid)] = int(fields[16])
         base = nice[d.proc.pid]  # the I/O thread: 0, or what the test itself runs at (`nice ctest`)
         self.assertIn(base + 7, nice.values(), nice)
         self.assertEqual(set(nice.values()), {base, base + 7}, nice)
+        # Long request lines run between requests and jobs (server.h: heavy_nice 5).
+        self.assertEqual(set(heavy.values()), {min(base + 5, 19)}, heavy)
         self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
 
     def test_idle_connections_and_watchers_cannot_lock_clients_out(self):

@@ -127,6 +127,26 @@ TEST_CASE("optimal assignment: a sibling inside the window beats the same spot o
   CHECK(both.verdicts[1].status == VerdictStatus::aired);
 }
 
+TEST_CASE("a sibling costs a window of deviation: a version swap does not buy two far pairings") {
+  // A family's two versions planned a minute apart; a cut airing whose
+  // version cannot be told 16 s after the first, and a whole airing of
+  // the first placement's version at the second's time. The slot's
+  // airings with one wrong copy (16 + 0.4 s, plus 60 s for the sibling)
+  // beat serving the exact version 59 s late and the cut one 43 s early.
+  const std::vector<Placement> p{at("S1", "tyres-a", 1000, 60), at("S2", "tyres-b", 1059, 60)};
+  const std::vector<AiringRef> a{{"tyres-b", 1016, 0.6, {"tyres-a", "tyres-b"}}, {"tyres-a", 1059.4, 1.0, {}}};
+  const auto r = reconcile(p, a, sib);
+  CHECK(r.verdicts[0].status == VerdictStatus::partial);
+  CHECK(*r.verdicts[0].airing == 0);
+  CHECK(r.verdicts[1].status == VerdictStatus::wrong_version);
+  CHECK(*r.verdicts[1].airing == 1);
+  // The same spot far inside the window still beats a sibling right on time when the
+  // deviation is under a window: S1 takes tyres-a at 50 s rather than tyres-b at 0 s.
+  const auto near = reconcile({at("S1", "tyres-a", 1000, 60)}, {{"tyres-b", 1000, 1.0, {}}, {"tyres-a", 1050, 1.0, {}}}, sib);
+  CHECK(near.verdicts[0].status == VerdictStatus::aired);
+  CHECK(*near.verdicts[0].airing == 1);
+}
+
 TEST_CASE("not_recorded: a window not wholly recorded, with what was and was not") {
   // Recorded 06:00-07:00 (21600-25200 s) and 07:10-08:00 (25800-28800).
   VerdictContext ctx;

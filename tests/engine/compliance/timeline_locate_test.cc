@@ -145,6 +145,42 @@ TEST_CASE("a spot's music bed aired alone is detected by the search but not conf
   CHECK(r.value().unconfirmed == 1);
 }
 
+TEST_CASE("a presenter talking over a spot's bed is not confirmed, the spot through the same chain is") {
+  // Half the master's voice level: quieter presenters leave more of the bed,
+  // whose score then clears the aired part's 0.4, and a voice keeps the
+  // foreground contrast near zero.
+  const double dj_gain = 0.5;
+  test::MemoryFiles files;
+  Samples bed;
+  const Samples a = spot_with_tag(30, 5, 302, &bed);
+  files.files["lib/alpha.wav"] = {a, kMasterRate};
+  // Another voice over the bed, as a presenter talks over a spot's music.
+  Samples dj = bed;
+  synth::mix_into(dj, synth::voice(28, kMasterRate, 777), static_cast<size_t>(0.5 * kMasterRate), dj_gain);
+  Samples f = synth::programme(150, 22050, 12);
+  plant(f, 22050, dj, 20.0, 1.2);
+  plant(f, 22050, a, 90.0, 0.9);
+  const Samples noise = synth::coloured_noise(f.size(), 0.01, synth::NoiseColour::pink, 99);
+  for (size_t i = 0; i < f.size(); ++i) f[i] += noise[i];
+  files.files["air/z.wav"] = {f, 22050};
+  LocateJob job{{"lib/alpha.wav"}, {"air/z.wav"}};
+  TimelineLocateOptions unconfirmed;
+  unconfirmed.confirm = false;
+  auto raw = run_locate_job(job, test::fast_locate_options(files), unconfirmed);
+  REQUIRE(raw.ok());
+  REQUIRE(raw.value().matches.size() == 2);  // both clear the search's threshold
+  TimelineLocateOptions contrast_only;  // the confirmation without the shape match
+  contrast_only.min_foreground_evidence = -1e9;
+  auto old = run_locate_job(job, test::fast_locate_options(files), contrast_only);
+  REQUIRE(old.ok());
+  CHECK(old.value().matches.size() == 2);  // the foreground contrast alone lets the presenter through
+  auto r = run_locate_job(job, test::fast_locate_options(files));
+  REQUIRE(r.ok());
+  REQUIRE(r.value().matches.size() == 1);
+  CHECK(r.value().matches[0].offset_s == doctest::Approx(90.0).epsilon(1e-4));
+  CHECK(r.value().unconfirmed == 1);
+}
+
 TEST_CASE("a file that breaks part way does not cost the files after it in its run") {
   test::MemoryFiles files;
   const Samples a = spot_with_tag(20, 5, 105);

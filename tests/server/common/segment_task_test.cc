@@ -107,7 +107,7 @@ TEST_CASE("a stream searched in segments and merged gives the matches of one sea
   REQUIRE(whole.value().matches.size() == plants.size() + 1);
 
   const Stream stream{"air.wav", {{"air.wav", static_cast<int64_t>(x.size()), 0}}, rate, 1500};
-  const auto tasks = plan_tasks("j", nlohmann::json::object(), {stream}, templates, 20.0 / 0.955 + 12,
+  const auto tasks = plan_tasks("j", SegmentSpec{}, {stream}, templates, 20.0 / 0.955 + 12,
                                 PlanOptions{2, 400});
   REQUIRE(tasks.size() == 4 * 2);  // 4 spans x 2 batches of masters
   std::vector<nlohmann::json> results;

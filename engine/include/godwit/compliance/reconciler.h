@@ -5,11 +5,12 @@
 // when the airing is of the placement's spot (or undetermined among
 // versions including it) or of a sibling, within the placement's horizon
 // of its planned time. The cost of a pair orders, first to last: inside
-// the window before outside, the same spot before a sibling, the smaller
-// |deviation| (to 10 ms); equal costs go to the earlier planned placement
-// and the earlier airing. (A sibling in the window is the slot's airing
-// with the wrong copy, the common playout error; the same spot minutes
-// away is more often another booking.) The matching serves as many placements as it can
+// the window before outside, then the smaller |deviation| (to 10 ms), a
+// sibling adding one window to its deviation; equal costs go to the
+// earlier planned placement and the earlier airing. (A sibling in the
+// window is the slot's airing with the wrong copy, the common playout
+// error; the same spot far from its slot is more often another booking.)
+// The matching serves as many placements as it can
 // and, among those matchings, has the least total cost. Each placement
 // takes at most one airing and each airing serves at most one placement.
 // The horizon is horizon_windows × window_s + horizon_extra_s (3 × the

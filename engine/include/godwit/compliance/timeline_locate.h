@@ -35,6 +35,7 @@ struct TimelineLocateOptions {
   bool resolve_versions = true;
   double min_airing_score = ReconcileOptions{}.min_airing_score;
   double max_foreground_deficit = ReconcileOptions{}.max_foreground_deficit;
+  double min_foreground_evidence = ReconcileOptions{}.min_foreground_evidence;
   FamilyOptions families;
   VerifyOptions verify;
   VersionOptions versions;
@@ -43,7 +44,7 @@ struct TimelineLocateOptions {
 // Recordings are reported in the job's order, each with its own format,
 // rate and length; matches by recording (job order), then offset.
 // run_locate_job = plan_locate + run_locate over the plan's streams (through
-// run_opener) + finish_locate; a distributed job searches the streams in
+// plan.streams.opener) + finish_locate; a distributed job searches the streams in
 // tasks and finishes the same way.
 Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& options,
                                     const TimelineLocateOptions& timeline_options = {});
@@ -51,7 +52,7 @@ Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& o
 struct LocatePlan {
   ReconcilePlan plan;               // the recordings and their timeline
   std::vector<std::string> alone;   // files searched on their own (not readable whole)
-  std::vector<std::string> streams; // what to search: the files alone, then every run's name
+  std::vector<std::string> streams; // what to search: plan.streams.names() (the files alone, then the runs)
 };
 LocatePlan plan_locate(const LocateJob& job, const LocateOptions& options, const TimelineLocateOptions& timeline_options);
 // `search`: the result of searching plan.streams in that order. `evidence`,

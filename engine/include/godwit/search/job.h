@@ -19,6 +19,7 @@
 #include <vector>
 
 #include "godwit/audio/audio_source.h"
+#include "godwit/audio/master_library.h"
 #include "godwit/search/correlator.h"
 #include "godwit/core/error.h"
 #include "godwit/search/peak_picker.h"
@@ -49,6 +50,9 @@ struct LocateOptions {
   SpeedOptions speed;
   bool refine = true;  // native-rate offset refinement (Default: on)
   SourceOpener opener = file_opener();
+  // The job's masters, decoded once for every stage (master_library.h).
+  // Empty: run_locate makes one that keeps nothing (each stage decodes).
+  std::shared_ptr<MasterLibrary> masters;
   // Called about every few seconds of audio; keep it cheap.
   std::function<void(const Progress&)> on_progress;
   // Polled between blocks; returning true ends the job with `cancelled`.

@@ -31,7 +31,7 @@ struct Found {
 
 }  // namespace
 
-std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::json& base,
+std::vector<PlannedTask> plan_tasks(const std::string& job_id, const SegmentSpec& base,
                                     const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                     double margin_s, const PlanOptions& options) {
   std::vector<PlannedTask> out;
@@ -39,12 +39,12 @@ std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::j
   for (size_t s = 0; s < streams.size(); ++s) {
     for (const Segment& seg : split_stream(streams[s], options.span_s, margin_s)) {
       for (size_t first = 0; first < templates.size(); first += batch) {
-        nlohmann::json spec = base;
-        spec["kind"] = "segment";
-        spec["segment"] = segment_to_json(seg);
-        spec["templates"] = std::vector<std::string>(
+        SegmentSpec task = base;
+        task.segment = seg;
+        task.templates = std::vector<std::string>(
             templates.begin() + static_cast<long>(first),
             templates.begin() + static_cast<long>(std::min(templates.size(), first + batch)));
+        nlohmann::json spec = job_spec_to_json(task);
         // The place in the plan: a recording listed twice is searched twice.
         PlannedTask t;
         t.id = fnv1a_hex(job_id + "\n" + std::to_string(out.size()) + "\n" + json_text(spec));

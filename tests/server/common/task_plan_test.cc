@@ -54,7 +54,8 @@ nlohmann::json doc(const std::string& rec, const std::string& tmpl, std::vector<
 TEST_CASE("a job splits into stream x master-batch tasks with stable, distinct ids") {
   const std::vector<std::string> templates{"/lib/t1.wav", "/lib/t2.wav", "/lib/t3.wav"};
   const std::vector<Stream> streams{whole("/air/a.flac"), whole("/air/b.flac"), whole("/air/a.flac")};
-  const nlohmann::json base{{"threshold", 0.4}};
+  SegmentSpec base;
+  base.search.threshold = 0.4;
   const PlanOptions po{2, 3600};
   const auto tasks = plan_tasks("j1", base, streams, templates, 45, po);
   REQUIRE(tasks.size() == 6);  // 3 recordings x (2 + 1 masters)
@@ -79,7 +80,7 @@ TEST_CASE("a job splits into stream x master-batch tasks with stable, distinct i
 TEST_CASE("merging orders matches as one process does and keeps a recording's earliest error") {
   const std::vector<std::string> templates{"/lib/t1.wav", "/lib/t2.wav"};
   const std::vector<Stream> streams{whole("a.flac"), whole("b.flac")};
-  const auto tasks = plan_tasks("j", nlohmann::json::object(), streams, templates, 45, PlanOptions{1, 3600});
+  const auto tasks = plan_tasks("j", SegmentSpec{}, streams, templates, 45, PlanOptions{1, 3600});
   REQUIRE(tasks.size() == 4);  // a x t1, a x t2, b x t1, b x t2
   const std::vector<nlohmann::json> results{doc("a.flac", "t1", {{9.0, 0.9}}), doc("a.flac", "t2", {{3.0, 0.8}}),
                                             doc("b.flac", "t1", {{1.0, 0.7}}, true, 30, 30),
@@ -106,7 +107,7 @@ TEST_CASE("merging orders matches as one process does and keeps a recording's ea
 TEST_CASE("a detection reported by two neighbouring segments is kept once, with the better score") {
   const std::vector<std::string> templates{"/lib/t1.wav"};
   Stream s{"long.flac", {{"long.flac", 7500 * 8000, 0}}, 8000, 7500};
-  const auto tasks = plan_tasks("j", nlohmann::json::object(), {s}, templates, 45, PlanOptions{1, 3600});
+  const auto tasks = plan_tasks("j", SegmentSpec{}, {s}, templates, 45, PlanOptions{1, 3600});
   REQUIRE(tasks.size() == 2);  // 3600 + 3900 (the last 300 s join the second span)
   // Both saw the airing at 3599.99 / 3600.01 (a peak either side of the boundary).
   std::vector<nlohmann::json> results{doc("long.flac", "t1", {{100.0, 0.9}, {3599.99, 0.81}}, false, 0, 3645),

@@ -24,13 +24,14 @@
 
 #include "godwit/core/error.h"
 #include "godwit/search/job.h"
+#include "job_spec.h"
 #include "segment_task.h"
 
 namespace godwit {
 
 struct PlannedTask {
   std::string id;
-  nlohmann::json spec;  // {"kind": "segment", ...}, which JobRunner::run accepts
+  nlohmann::json spec;  // a SegmentSpec (job_spec.h), which JobRunner::run accepts
   size_t stream = 0;    // index into the plan's streams
 };
 
@@ -39,9 +40,10 @@ struct PlanOptions {
   double span_s = 3600;  // a stream over 1.5 spans is split into spans. Default: an hour
 };
 
-// `base`: the search options every task carries (threshold, floor_k,
-// fft_size, max_speed_change_pct). `margin_s`: as split_stream's.
-std::vector<PlannedTask> plan_tasks(const std::string& job_id, const nlohmann::json& base,
+// `base`: what every task carries (its search fields, whether it gathers
+// evidence); its segment and templates are set per task. `margin_s`: as
+// split_stream's.
+std::vector<PlannedTask> plan_tasks(const std::string& job_id, const SegmentSpec& base,
                                     const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                     double margin_s, const PlanOptions& options);
 

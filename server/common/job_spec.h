@@ -1,0 +1,91 @@
+// JobSpec: a job as a type, parsed once where it enters (a prepared job
+// from the journal, a task from the queue) and checked in one place.
+//
+// The three kinds a daemon runs:
+//   LocateSpec     {"kind": "locate", "templates": [paths], "recordings": [paths],
+//                   "threshold", "floor_k", "fft_size", "max_speed_change_pct"}
+//   ReconcileSpec  {"kind": "reconcile", "library", "schedule", "recordings", "window_s",
+//                   "time_zone"?, "excerpts"?, "max_speed_change_pct"}
+//   SegmentSpec    {"kind": "segment", "segment": {...}, "templates": [paths], "evidence"?,
+//                   and the search fields}: one task of a distributed job (task_plan.h)
+// job_spec_to_json writes exactly these (the journal and the queue carry
+// them as JSON text, and a task's id hashes its text); job_spec_from_json
+// reads them back, checking every field's type and range (the ranges and
+// defaults below are the only ones). A request's job is turned into a
+// prepared LocateSpec or ReconcileSpec by JobRunner::prepare (paths under
+// the roots, library expanded, inline spots saved); the drop folder builds
+// its specs as types and checks them the same way (check_job_spec).
+//
+// Thread contract: plain values and functions.
+#pragma once
+
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <variant>
+#include <vector>
+
+#include "godwit/core/error.h"
+#include "godwit/search/job.h"
+#include "segment_task.h"
+
+namespace godwit {
+
+// The speed range searched by default, in percent: the engine's
+// (SpeedOptions::max_deviation), for the command line and the daemon alike.
+constexpr double kDefaultMaxSpeedChangePct = 100 * SpeedOptions{}.max_deviation;
+// A planned placement's window when the log states none. Default: 60 s.
+constexpr double kDefaultWindowS = 60;
+
+// The search options a job states; absent ones are the engine's defaults.
+struct SearchFields {
+  std::optional<double> threshold;   // 0.05..1 (PickerOptions::threshold)
+  std::optional<double> floor_k;     // 0..1000
+  std::optional<size_t> fft_size;    // 0 or a power of two up to 2^24
+  double max_speed_change_pct = kDefaultMaxSpeedChangePct;  // 0..10; 0 turns the speed search off
+  // Onto the daemon's options (threads, planner, callbacks stay).
+  void apply(LocateOptions& options) const;
+};
+
+struct LocateSpec {
+  std::vector<std::string> templates;
+  std::vector<std::string> recordings;
+  SearchFields search;
+};
+
+struct ReconcileSpec {
+  std::string library;   // folder of masters (and their sidecars)
+  std::string schedule;  // the planned log
+  std::vector<std::string> recordings;
+  double window_s = kDefaultWindowS;
+  std::string time_zone;          // empty: none (the daemon's was applied at prepare)
+  std::optional<bool> excerpts;   // empty: the daemon's setting
+  SearchFields search;            // only max_speed_change_pct is stated
+};
+
+struct SegmentSpec {
+  Segment segment;
+  std::vector<std::string> templates;
+  bool evidence = false;  // gather each detection's evidence beside the audio
+  SearchFields search;
+};
+
+using JobSpec = std::variant<LocateSpec, ReconcileSpec, SegmentSpec>;
+
+// "locate", "reconcile", "segment".
+std::string_view job_kind(const JobSpec& spec);
+
+// Errors: bad_request, naming the field and what it must be.
+Result<JobSpec> job_spec_from_json(const nlohmann::json& j);
+nlohmann::json job_spec_to_json(const JobSpec& spec);
+// The ranges of a spec built in code (the drop folder's): as from_json.
+Status check_job_spec(const JobSpec& spec);
+
+// A number field of a request: absent gives `dflt`; else it must be a
+// number in lo..hi. The one reader of the ranges above.
+Result<double> number_field(const nlohmann::json& j, const char* field, double lo, double hi, double dflt);
+// The search fields of a request or spec, checked.
+Result<SearchFields> search_fields_from_json(const nlohmann::json& j);
+
+}  // namespace godwit
