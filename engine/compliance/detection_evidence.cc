@@ -98,6 +98,21 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
       const size_t to = std::min({as_aired.size(), span.size(), static_cast<size_t>(e.profile.aired_to_s / k * rate)});
       if (to > from + 16)
         e.aired_score = m.polarity * detail::pearson(as_aired.data() + from, span.data() + from, to - from, 1e-12);
+      // At another tempo the aligned master's frames were free to move, which
+      // raises what anything scores against it: the score is taken against
+      // the null level of the time-reversed master aligned the same way on
+      // this span, as the tempo fit's is (tempo_refiner.h). A music bed aired
+      // alone reads 0.38-0.43 so and 0.48-0.50 raw, tempo-changed airings
+      // 0.45-0.96 so and raw alike (study day: accuracy_bench --seed 71
+      // --negative-odds 1 --tempo-odds 0.6; their nulls 0.12-0.17 and 0-0.12).
+      if (m.tempo != 1 && to > from + 16) {
+        const Samples reversed(stored.rbegin(), stored.rend());
+        const Samples null = detail::aligned_master(plans, reversed, span, rate, m.tempo, detail::kTempoJitterS,
+                                                    m.polarity);
+        const double r0 = std::max(
+            0.0, m.polarity * detail::pearson(null.data() + from, span.data() + from, std::min(to, null.size()) - from, 1e-12));
+        e.aired_score = (e.aired_score - r0) / (1 - r0);
+      }
     }
     e.weak = e.profile.coverage < o.min_coverage || e.aired_score < o.min_airing_score ||
              (e.foreground_contrast && (*e.foreground_contrast < -o.max_foreground_deficit ||

@@ -1,5 +1,6 @@
 #include "envelope_search.h"
 
+#include <algorithm>
 #include <cmath>
 
 namespace godwit::detail {
@@ -34,14 +35,17 @@ EnvelopeSearch::EnvelopeSearch(FftPlans& plans, const Samples& master, const Sam
   centre_tau_ = 0.5 * static_cast<double>(kEnvWindow) + 0.5 * static_cast<double>(n > 0 ? n - 1 : 0) * kEnvHop;
 }
 
-double EnvelopeSearch::score(double centre, double s) {
+double EnvelopeSearch::score(double centre, double s, size_t stride) {
   if (tmpl_.frames < 8) return 0;
+  stride = std::max<size_t>(1, stride);
+  size_t used = 0;
   const std::vector<float>& r = rows(s);
   const size_t nf = static_cast<size_t>(frames_.end_frame());
   std::vector<double> sum(bands_, 0.0), sum2(bands_, 0.0);
   double dot = 0;
   std::vector<float> w(bands_);
-  for (size_t j = 0; j < tmpl_.frames; ++j) {
+  for (size_t j = 0; j < tmpl_.frames; j += stride) {
+    ++used;
     const double tau = 0.5 * static_cast<double>(kEnvWindow) + static_cast<double>(j * kEnvHop);
     const double t = centre + (tau - centre_tau_) / s;
     const double q = frames_.frame_at(t);
@@ -59,11 +63,12 @@ double EnvelopeSearch::score(double centre, double s) {
     }
   }
   double e = 0;
-  for (size_t b = 0; b < bands_; ++b) e += sum2[b] - sum[b] * sum[b] / static_cast<double>(tmpl_.frames);
+  for (size_t b = 0; b < bands_; ++b) e += sum2[b] - sum[b] * sum[b] / static_cast<double>(used);
   return e > 1e-12 ? dot / std::sqrt(e) : 0.0;
 }
 
 const std::vector<float>& EnvelopeSearch::rows(double s) {
+  if (!shift_) s = 1;  // band edges in place: the rows do not depend on the scale
   if (s == rows_speed_) return rows_;
   rows_speed_ = s;
   const size_t nf = static_cast<size_t>(frames_.end_frame());

@@ -36,8 +36,10 @@ class EnvelopeSearch {
 
   size_t frames() const { return tmpl_.frames; }
   // Score with the master's centre frame at span time `centre` and time
-  // scale s (the airing runs s times faster).
-  double score(double centre, double s);
+  // scale s (the airing runs s times faster). With `stride` k > 1, only
+  // every k-th frame of the master is used: a cheaper score for coarse
+  // sweeps, whose grid is wider than k frames (k times less work).
+  double score(double centre, double s, size_t stride = 1);
   double centre_tau() const { return centre_tau_; }
 
  private:
@@ -49,7 +51,7 @@ class EnvelopeSearch {
   bool shift_;
   NormEnvelope tmpl_;
   double centre_tau_ = 0;
-  double rows_speed_ = -1;
+  double rows_speed_ = -1;  // the rows' scale (always 1 when the spectrum is not shifted)
   std::vector<float> rows_;
 };
 

@@ -399,16 +399,17 @@ int main(int argc, char** argv) {
     for (const auto& p : day.planted) {
       const AirMaster& m = day.masters[p.master];
       std::string line = std::string(plant_kind_name(p.kind)) + " " + m.id + " " + format_iso8601_local(p.aired_s, 3);
-      char buf[128];
-      std::snprintf(buf, sizeof buf, " snr %.1f speed %.4f cov %.2f |", p.chain.snr_db, p.chain.speed, p.coverage);
+      char buf[192];
+      std::snprintf(buf, sizeof buf, " snr %.1f speed %.4f tempo %.4f cov %.2f |", p.chain.snr_db, p.chain.speed,
+                    p.chain.tempo, p.coverage);
       line += buf;
       for (const auto& c : p.conditions) line += " " + c;
       const double start = p.kind == PlantKind::tag_only ? p.aired_s - (m.duration_s - m.tag_s) : p.aired_s;
       const double tol = p.kind == PlantKind::airing ? 0.5 : 0.5 * m.duration_s + 1;
       for (const auto& a : r.airings)
         if (std::fabs(a.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f shape %.3f dt %+.3f ms",
-                        a.spot.c_str(), a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
+          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f tempo %.4f contrast %+.3f shape %.3f dt %+.3f ms",
+                        a.spot.c_str(), a.score, a.coverage, a.speed, a.tempo, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
                         (a.aired_s - start - p.chain_delay_s) * 1e3);
           line += buf;
         }
@@ -422,7 +423,8 @@ int main(int argc, char** argv) {
       if (loc) {
         for (const auto& mm : loc->matches)
           if (std::fabs(start_of[mm.recording] + mm.offset_s - start) <= tol) {
-            std::snprintf(buf, sizeof buf, "\n     L %s score %.3f speed %.4f in %s", mm.template_id.c_str(), mm.score, mm.speed,
+            std::snprintf(buf, sizeof buf, "\n     L %s score %.3f speed %.4f tempo %.4f in %s", mm.template_id.c_str(), mm.score,
+                          mm.speed, mm.tempo,
                           fs::path(mm.recording).filename().c_str());
             line += buf;
           }

@@ -226,7 +226,10 @@ struct DetectionEvidence {
   // Spectral shape match (foreground_contrast.h), set with foreground_contrast.
   std::optional<double> shape_match;
   bool weak = false;
-  double aired_score = 0;  // Pearson of the master and the airing over the aired part (polarity applied)
+  // Pearson of the master and the airing over the aired part (polarity
+  // applied); at another tempo, of the aligned master, taken against the
+  // null level of its alignment ((r - r0) / (1 - r0), tempo_refiner.h).
+  double aired_score = 0;
   std::optional<double> spot_lufs, programme_lufs;
 };
 
