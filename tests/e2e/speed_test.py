@@ -25,6 +25,8 @@ import wave
 from fractions import Fraction
 
 import shutil
+import socket
+import time
 
 import numpy as np
 from scipy.io import wavfile
@@ -264,10 +266,57 @@ class TempoChanged(unittest.TestCase):
         with open(os.path.join(out, "reconcile.html")) as f:
             self.assertIn("pitch kept", f.read())
 
+    def test_daemon_jobs_find_the_same_and_honour_the_tempo_range(self):
+        """A locate job through godwitd on loopback finds what the command
+        line finds, tempo included; `max_tempo_change_pct` 0 turns the
+        tempo fit off for that job."""
+        state = os.path.join(self.tmp.name, "state")
+        config = os.path.join(self.tmp.name, "godwitd.toml")
+        with open(config, "w") as f:
+            f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{state}"\nroots = ["{self.tmp.name}"]\n'
+                    f'library = "{self.lib}"\nplanner = "estimate"\nworkers = 1\n')
+        log = open(os.path.join(self.tmp.name, "godwitd.log"), "a")
+        proc = subprocess.Popen([ARGS.godwitd, "--config", config], stdout=subprocess.PIPE, stderr=log, text=True)
+        try:
+            port = json.loads(proc.stdout.readline())["port"]
+            sock = socket.create_connection(("127.0.0.1", port), timeout=60)
+            io = sock.makefile("rwb")
+
+            def req(obj):
+                io.write((json.dumps(obj) + "\n").encode())
+                io.flush()
+                return json.loads(io.readline())
+
+            def locate(**fields):
+                job = req({"op": "submit", "job": {"kind": "locate", "recordings": [self.rec], **fields}})["job"]
+                end = time.time() + 300
+                while req({"op": "status", "job": job})["state"] not in ("done", "failed", "cancelled"):
+                    self.assertLess(time.time(), end, "the job did not finish")
+                    time.sleep(0.2)
+                return req({"op": "result", "job": job})["result"]["matches"]
+
+            key = lambda m: (m["template"], round(m["offset_s"], 3), round(m["tempo"], 5), m["speed"])
+            self.assertEqual(sorted(map(key, locate())), sorted(map(key, self.matches)))
+            stretched = [a for a in TEMPO_AIRINGS if a[2] != 1]
+            self.assertTrue(stretched)
+            off = locate(max_tempo_change_pct=0)
+            self.assertFalse([m for m in off if m["tempo"] != 1], off)
+            for spot, at, *_ in stretched:
+                self.assertFalse([m for m in off if m["template"] == spot and abs(m["offset_s"] - at) < 0.5], off)
+            self.assertIn("'max_tempo_change_pct' must lie in",
+                          req({"op": "submit", "job": {"kind": "locate", "recordings": [self.rec],
+                                                       "max_tempo_change_pct": 11}})["error"]["message"])
+            sock.close()
+        finally:
+            proc.terminate()
+            proc.wait(timeout=60)
+            log.close()
+
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser()
     parser.add_argument("--godwit", required=True)
     parser.add_argument("--synth", required=True)
+    parser.add_argument("--godwitd", required=True)
     ARGS, rest = parser.parse_known_args()
     unittest.main(argv=[sys.argv[0], "-v", *rest])
