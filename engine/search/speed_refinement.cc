@@ -101,7 +101,9 @@ std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string&
       // whose frames may move): a passing speed fit stands unless the
       // tempo fit beats it by kTempoOverSpeed.
       std::optional<TempoFit> tf;
-      if (o.speed.max_tempo_deviation > 0) {
+      // (A speed fit within kTempoOverSpeed of a perfect score stands
+      // whatever the tempo fit would say: no need to try it.)
+      if (o.speed.max_tempo_deviation > 0 && !(fit && std::fabs(fit->score) + kTempoOverSpeed > 1)) {
         tf = refine_tempo(plans, master, spans[i], fs, seed, EnvelopeBands{}, o.speed.max_tempo_deviation);
         if (tf && (std::fabs(tf->score) < o.picker.threshold || tf->tempo < tempo_low || tf->tempo > tempo_high ||
                    (fit && std::fabs(fit->score) + kTempoOverSpeed > std::fabs(tf->score))))
