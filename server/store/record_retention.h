@@ -1,0 +1,48 @@
+// Retention of the store of record: a station's rows of days older than
+// its retention are deleted, one transaction per station (a crash leaves
+// a station's old rows all there or all gone).
+//
+// For a station kept `days` days, with `today` its local date at `now_utc`
+// (in its time zone as stored, else UTC), the cut is local midnight
+// starting day today - days; then, of that station:
+//   placements  planned before the cut;
+//   detections  aired before the cut, and those of recordings below;
+//   recordings  that ended before the cut (start + duration), with their
+//               searches (so a day run again is searched again);
+//   jobs        finished before now - days (UTC) that no row names any more.
+// Masters stay (a few rows per spot, named by later jobs). Recordings whose
+// start was not known are kept with their searches. `days` <= 0: the
+// station is kept for ever.
+//
+// Thread contract: plain functions; RecordStore is safe for concurrent use.
+#pragma once
+
+#include <cstdint>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "record_store.h"
+
+namespace godwit {
+
+struct RetentionPolicy {
+  double days = 400;                     // every station's, unless named below
+  std::map<std::string, double> station_days;  // by station name
+};
+
+struct RetentionCounts {
+  std::string station;
+  std::string cut;  // the first local date kept, YYYY-MM-DD
+  int64_t placements = 0, detections = 0, recordings = 0, searches = 0, jobs = 0;
+  int64_t total() const { return placements + detections + recordings + searches + jobs; }
+};
+
+// Applies `policy` to every station in the store. Returns one entry per
+// station with a finite retention, whether or not anything went. Errors:
+// io (the transaction of that station is rolled back; the stations before
+// it keep their deletions).
+Result<std::vector<RetentionCounts>> apply_retention(RecordStore& store, const RetentionPolicy& policy,
+                                                     int64_t now_utc);
+
+}  // namespace godwit
