@@ -3,6 +3,7 @@
 #include "godwit/compliance/timeline_locate.h"
 
 #include <filesystem>
+#include <set>
 #include <random>
 
 #include "atomic_file.h"
@@ -127,11 +128,13 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (job.contains("station")) {
       if (!job["station"].is_string()) return bad("'station' must be a string (a station's name)");
       const std::string name = job["station"].get<std::string>();
-      std::string known;
+      std::set<std::string> names;
       for (const auto& s : config_.stations) {
         if (s.name == name) station = &s;
-        known += (known.empty() ? "" : ", ") + s.name;
+        names.insert(s.name);
       }
+      std::string known;
+      for (const auto& n : names) known += (known.empty() ? "" : ", ") + n;
       if (!station)
         return bad("no station '" + name + "' is configured" + (known.empty() ? std::string() : " (" + known + ")"));
     }
