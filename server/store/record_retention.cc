@@ -18,13 +18,11 @@ constexpr double kDayS = 86400;
 constexpr const char* kOldRecordings =
     "SELECT id FROM recordings WHERE station_id = ?1 AND start_local IS NOT NULL AND start_local + duration_s <= ?2";
 
-Result<int64_t> delete_rows(SqliteDb& db, const std::string& sql, int64_t station, double cut_local,
-                            int64_t cut_utc = 0) {
+Result<int64_t> delete_rows(SqliteDb& db, const std::string& sql, int64_t station, double cut_local) {
   auto st = db.prepare(sql);
   if (!st) return st.error();
   st.value().bind(1, station);
   if (sql.find("?2") != std::string::npos) st.value().bind(2, cut_local);
-  if (sql.find("?3") != std::string::npos) st.value().bind(3, cut_utc);
   if (auto r = st.value().run(); !r) return r.error();
   return static_cast<int64_t>(db.changes());
 }
@@ -34,7 +32,6 @@ Status prune_station(SqliteDb& db, const StationRow& s, double days, int64_t now
   if (!s.time_zone.empty())
     if (auto tz = TimeZone::find(s.time_zone)) local_now = tz.value().local_from_utc(static_cast<double>(now_utc));
   const double cut = std::floor(local_now / kDayS) * kDayS - std::floor(days) * kDayS;
-  const auto cut_utc = static_cast<int64_t>(static_cast<double>(now_utc) - days * kDayS);
   out.station = s.name;
   out.cut = format_iso8601_local(cut, 0).substr(0, 10);
   auto tx = SqliteTransaction::begin(db);
@@ -48,13 +45,13 @@ Status prune_station(SqliteDb& db, const StationRow& s, double days, int64_t now
       {"DELETE FROM detections WHERE station_id = ?1 AND recording_id IN (" + old_recordings + ")", "detections"},
       {"DELETE FROM searches WHERE recording_id IN (" + old_recordings + ")", "searches"},
       {"DELETE FROM recordings WHERE id IN (" + old_recordings + ")", "recordings"},
-      {"DELETE FROM jobs WHERE station_id = ?1 AND finished_utc < ?3 AND id NOT IN ("
+      {"DELETE FROM jobs WHERE station_id = ?1 AND id NOT IN ("
        "SELECT job_id FROM recordings WHERE station_id = ?1 UNION SELECT job_id FROM masters WHERE station_id = ?1 "
        "UNION SELECT job_id FROM detections WHERE station_id = ?1 UNION SELECT job_id FROM placements WHERE "
        "station_id = ?1 UNION SELECT job_id FROM searches WHERE station_id = ?1)",
        "jobs"}};
   for (const auto& [sql, table] : steps) {
-    auto n = delete_rows(db, sql, s.id, cut, cut_utc);
+    auto n = delete_rows(db, sql, s.id, cut);
     if (!n) return n.error();  // the transaction rolls back
     int64_t* count = table == "placements"   ? &out.placements
                      : table == "detections" ? &out.detections

@@ -9,9 +9,10 @@
 //   detections  aired before the cut, and those of recordings below;
 //   recordings  that ended before the cut (start + duration), with their
 //               searches (so a day run again is searched again);
-//   jobs        finished before now - days (UTC) that no row names any more.
-// Masters stay (a few rows per spot, named by later jobs). Recordings whose
-// start was not known are kept with their searches. `days` <= 0: the
+//   jobs        that no row names any more (a job's masters, which stay,
+//               name the latest job that wrote them: that job stays too).
+// Masters stay (a few rows per spot). Recordings whose start was not known
+// are kept with their searches. `days` <= 0: the
 // station is kept for ever.
 //
 // Thread contract: plain functions; RecordStore is safe for concurrent use.

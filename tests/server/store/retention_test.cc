@@ -87,7 +87,7 @@ TEST_CASE("retention deletes exactly the rows of days older than each station's 
   CHECK(by["heron-radio"].recordings == 5 * 24);
   CHECK(by["kestrel-fm"].searches == 4 * 24 * 20);
   CHECK(by["heron-radio"].searches == 5 * 24 * 20);
-  // Jobs: those of the days gone (finished long before the cut, named by no row).
+  // Jobs: those of the days gone (named by no row: the masters name the last day's job).
   CHECK(by["kestrel-fm"].jobs == 4);
   CHECK(by["heron-radio"].jobs == 5);
 
