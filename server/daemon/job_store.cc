@@ -147,6 +147,11 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         if (auto st = job_state_from(ev)) {
           it->second.state = *st;
           it->second.finished = j.value("finished", it->second.submitted);  // older lines: no time
+          // Its spec let go at once, so a long journal never holds every
+          // spec at the same time; but a done job whose result is missing
+          // keeps it, to run again (below).
+          if (*st != JobState::done || fs::exists(fs::path(dir) / "results" / (id + ".json")))
+            it->second.spec = {{"kind", it->second.spec.value("kind", "")}};
         }
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
       }
@@ -239,10 +244,23 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   // A torn tail (a crash or a full disk mid-append; never acknowledged) is
   // cut off, so the next line starts on a line of its own.
   {
-    std::ifstream in(journal, std::ios::binary);
-    std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
-    const size_t keep = text.rfind('\n') == std::string::npos ? 0 : text.rfind('\n') + 1;
-    if (keep < text.size() && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
+    // Read backwards from the end in blocks: the journal is never held whole.
+    std::ifstream in(journal, std::ios::binary | std::ios::ate);
+    const auto size = static_cast<size_t>(std::max<std::streamoff>(0, in.tellg()));
+    size_t keep = 0;
+    std::string block;
+    for (size_t end = size; end > 0;) {
+      const size_t from = end > 65536 ? end - 65536 : 0;
+      block.resize(end - from);
+      in.seekg(static_cast<std::streamoff>(from));
+      in.read(block.data(), static_cast<std::streamsize>(block.size()));
+      if (const size_t nl = block.rfind('\n'); nl != std::string::npos) {
+        keep = from + nl + 1;
+        break;
+      }
+      end = from;
+    }
+    if (keep < size && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
       s->torn_ = true;  // then the next append starts with a newline
   }
   for (const auto& id : crash_failed) {

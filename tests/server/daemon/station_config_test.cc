@@ -128,5 +128,27 @@ TEST_CASE("a station config with a mistake is refused, saying which station and 
   refused(f, lib + "stations = 3\n", "[[stations]] tables");
 }
 
+TEST_CASE("the shipped config and the two-station sample read without error") {
+  DaemonConfig shipped;
+  const auto st = load_daemon_config(std::string(GODWIT_SOURCE_DIR) + "/config/godwitd.toml", shipped);
+  REQUIRE_MESSAGE(st.ok(), (st.ok() ? "" : st.error().describe()));
+  CHECK(shipped.retention_detections_days == doctest::Approx(400));
+  CHECK(shipped.retention_finished_jobs_days == doctest::Approx(30));
+  CHECK(shipped.name_pattern == kDefaultNamePattern);
+  CHECK(shipped.stations.empty());  // its [[stations]] are an example in comments
+  DaemonConfig sample;
+  const auto ss = load_daemon_config(std::string(GODWIT_SOURCE_DIR) + "/samples/two-stations/godwitd.toml", sample);
+  REQUIRE_MESSAGE(ss.ok(), (ss.ok() ? "" : ss.error().describe()));
+  REQUIRE(sample.stations.size() == 2);
+  CHECK(sample.stations[1].name == "heron-radio");
+  CHECK(sample.stations[1].name_pattern == "heron_%d-%m-%Y_%H%M");
+  CHECK(sample.stations[1].retention_days == doctest::Approx(90));
+  // The defaults when nothing is said (the issue's: detections a long time, jobs a month).
+  DaemonConfig none;
+  CHECK(none.retention_detections_days == doctest::Approx(400));
+  CHECK(none.retention_finished_jobs_days == doctest::Approx(30));
+  CHECK(none.max_finished_jobs == 10000);
+}
+
 }  // namespace
 }  // namespace godwit
