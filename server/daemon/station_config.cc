@@ -64,7 +64,7 @@ Status check_name_pattern(const std::string& pattern) {
 
 Status check_stations(const std::vector<StationConfig>& stations) {
   std::set<std::string> names;
-  std::vector<std::pair<fs::path, const StationConfig*>> drops;
+  std::vector<std::pair<fs::path, const StationConfig*>> drops, schedules;
   for (const auto& s : stations) {
     if (!s.name.empty() || stations.size() > 1) {
       if (auto st = check_station_name(s.name); !st) return st;
@@ -80,8 +80,17 @@ Status check_stations(const std::vector<StationConfig>& stations) {
     drops.push_back({drop, &s});
     if (s.library.empty()) return usage(who(s) + ": no library (set 'library' for it, or at the top level)");
     if (auto st = existing_folder(s, "library", s.library); !st) return st;
-    if (!s.schedules.empty())
+    if (!s.schedules.empty()) {
       if (auto st = existing_folder(s, "schedules", s.schedules); !st) return st;
+      // A day's log is found by its date alone: a shared folder would give
+      // each station the other's.
+      const fs::path folder = canonical_folder(s.schedules);
+      for (const auto& [other, o] : schedules)
+        if (folder == other)
+          return usage(who(s) + " and " + who(*o) + " share a schedules folder ('" + s.schedules +
+                       "'): a day's planned log is found by its date, so each station needs a folder of its own");
+      schedules.push_back({folder, &s});
+    }
     if (!s.time_zone.empty())
       if (auto tz = TimeZone::find(s.time_zone); !tz) return usage(who(s) + ": time_zone: " + tz.error().message);
     if (auto st = check_name_pattern(s.name_pattern); !st) return usage(who(s) + ": " + st.error().message);

@@ -52,6 +52,7 @@ Status check_name_pattern(const std::string& pattern);
 
 // Checks the effective stations before anything starts: names unique and
 // plain, a drop folder each and no two the same (or one inside another),
+// no schedules folder shared (a day's log is found by its date alone),
 // libraries and schedules folders that exist, known time zones, usable
 // patterns and retention. Errors: usage, naming the station and the key.
 Status check_stations(const std::vector<StationConfig>& stations);

@@ -115,6 +115,9 @@ TEST_CASE("a station config with a mistake is refused, saying which station and 
   refused(f, lib + kestrel + "[[stations]]\nname = \"heron-radio\"\ndrop = \"{D}/drop-kestrel/\"\n", "share a drop folder");
   refused(f, lib + kestrel + "[[stations]]\nname = \"heron-radio\"\ndrop = \"{D}/drop-kestrel/incoming\"\n",
           "share a drop folder");
+  refused(f, lib + kestrel + "schedules = \"{D}/sched-kestrel\"\n" +
+                 "[[stations]]\nname = \"heron-radio\"\ndrop = \"{D}/drop-heron\"\nschedules = \"{D}/sched-kestrel/\"\n",
+          "share a schedules folder");
   // Names, keys, patterns, retention.
   refused(f, lib + "[[stations]]\ndrop = \"{D}/d\"\n", "'name' is required");
   refused(f, lib + "[[stations]]\nname = \"kestrel fm/1\"\ndrop = \"{D}/d\"\n", "may hold only");
