@@ -1,5 +1,6 @@
 // Over 400 lines: the journal is one format, its replay at open (compaction,
-// orphans, torn tails, crash notes) and its appends read best side by side.
+// orphans, torn tails, crash notes), its appends and its rewrites while
+// running (retention by age and count) read best side by side.
 #include "job_store.h"
 
 #include <fcntl.h>
