@@ -335,9 +335,9 @@ int main(int argc, char** argv) {
                         for (const auto& c : counts.value())
                           if (c.total())
                             spdlog::info("retention: station {}: deleted the days before {}: {} detection(s), {} "
-                                         "placement(s), {} recording(s), {} search(es), {} job(s)",
+                                         "placement(s), {} recording(s), {} search(es), {} job(s) in {:.2f} s",
                                          c.station, c.cut, c.detections, c.placements, c.recordings, c.searches,
-                                         c.jobs);
+                                         c.jobs, c.seconds);
                       }});
   }
   Housekeeper housekeeper(std::move(upkeep), cfg.retention_interval_h * 3600);

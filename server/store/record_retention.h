@@ -1,6 +1,7 @@
 // Retention of the store of record: a station's rows of days older than
-// its retention are deleted, one transaction per station (a crash leaves
-// a station's old rows all there or all gone).
+// its retention are deleted, a week of days per transaction, oldest first
+// (a crash leaves each day's rows all there or all gone, and never a newer
+// day pruned before an older one); the write lock is taken per transaction.
 //
 // For a station kept `days` days, with `today` its local date at `now_utc`
 // (in its time zone as stored, else UTC), the cut is local midnight
@@ -36,13 +37,13 @@ struct RetentionCounts {
   std::string station;
   std::string cut;  // the first local date kept, YYYY-MM-DD
   int64_t placements = 0, detections = 0, recordings = 0, searches = 0, jobs = 0;
+  double seconds = 0;  // the station's pass, its transactions together
   int64_t total() const { return placements + detections + recordings + searches + jobs; }
 };
 
 // Applies `policy` to every station in the store. Returns one entry per
 // station with a finite retention, whether or not anything went. Errors:
-// io (the transaction of that station is rolled back; the stations before
-// it keep their deletions).
+// io (that transaction is rolled back; what was committed before stays).
 Result<std::vector<RetentionCounts>> apply_retention(RecordStore& store, const RetentionPolicy& policy,
                                                      int64_t now_utc);
 
