@@ -127,6 +127,12 @@ Result<JobSpec> job_spec_from_json(const nlohmann::json& j) {
       if (!tz) return tz.error();
       s.time_zone = tz.value();
     }
+    for (auto [field, out] : {std::pair{"station", &s.station}, std::pair{"name_pattern", &s.name_pattern}}) {
+      if (!j.contains(field)) continue;
+      auto v = string_field(j, field);
+      if (!v) return v.error();
+      *out = v.value();
+    }
     if (j.contains("excerpts")) {
       if (!j["excerpts"].is_boolean()) return bad("'excerpts' must be true or false");
       s.excerpts = j["excerpts"].get<bool>();
@@ -166,6 +172,8 @@ nlohmann::json job_spec_to_json(const JobSpec& spec) {
                         j["recordings"] = s.recordings;
                         j["window_s"] = s.window_s;
                         if (!s.time_zone.empty()) j["time_zone"] = s.time_zone;
+                        if (!s.station.empty()) j["station"] = s.station;
+                        if (!s.name_pattern.empty()) j["name_pattern"] = s.name_pattern;
                         if (s.excerpts) j["excerpts"] = *s.excerpts;
                         search_to_json(s.search, j);
                       },

@@ -5,7 +5,8 @@
 //   LocateSpec     {"kind": "locate", "templates": [paths], "recordings": [paths],
 //                   "threshold", "floor_k", "fft_size", "max_speed_change_pct", "max_tempo_change_pct"}
 //   ReconcileSpec  {"kind": "reconcile", "library", "schedule", "recordings", "window_s",
-//                   "time_zone"?, "excerpts"?, "max_speed_change_pct", "max_tempo_change_pct"}
+//                   "time_zone"?, "station"?, "name_pattern"?, "excerpts"?, "max_speed_change_pct",
+//                   "max_tempo_change_pct"}
 //   SegmentSpec    {"kind": "segment", "segment": {...}, "templates": [paths], "evidence"?,
 //                   and the search fields}: one task of a distributed job (task_plan.h)
 // job_spec_to_json writes exactly these (the journal and the queue carry
@@ -64,6 +65,12 @@ struct ReconcileSpec {
   std::vector<std::string> recordings;
   double window_s = kDefaultWindowS;
   std::string time_zone;          // empty: none (the daemon's was applied at prepare)
+  // The station the store of record files the job under; empty: named by
+  // the recordings' file names (reconcile_record.h).
+  std::string station;
+  // Where a recording's start time is in its name; empty: the engine's
+  // (ReconcileOptions::name_pattern).
+  std::string name_pattern;
   std::optional<bool> excerpts;   // empty: the daemon's setting
   SearchFields search;            // only max_speed_change_pct and max_tempo_change_pct are stated
 };

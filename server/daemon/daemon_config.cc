@@ -33,6 +33,8 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   str(t["drop"], c.drop, "drop");
   str(t["schedules"], c.schedules, "schedules");
   str(t["time_zone"], c.time_zone, "time_zone");
+  str(t["station"], c.station, "station");
+  str(t["name_pattern"], c.name_pattern, "name_pattern");
   str(t["token_file"], c.token_file, "token_file");
   str(t["log_level"], c.log_level, "log_level");
   str(t["planner"], c.planner, "planner");
@@ -74,8 +76,76 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   num(t["queue"]["task_span_s"], c.queue_task_span_s, "queue.task_span_s");
   num(t["queue"]["claim_idle_s"], c.queue_claim_idle_s, "queue.claim_idle_s");
   num(t["queue"]["max_attempts"], c.queue_max_attempts, "queue.max_attempts");
+  num(t["retention"]["detections_days"], c.retention_detections_days, "retention.detections_days");
+  num(t["retention"]["finished_jobs_days"], c.retention_finished_jobs_days, "retention.finished_jobs_days");
+  num(t["retention"]["interval_h"], c.retention_interval_h, "retention.interval_h");
   if (!bad.empty()) return Error{ErrorCode::usage, "key '" + bad + "' has the wrong type", path, std::nullopt};
+  if (auto n = t["stations"]) {
+    auto* list = n.as_array();
+    if (!list || !list->is_array_of_tables())
+      return Error{ErrorCode::usage, "'stations' must be [[stations]] tables", path, std::nullopt};
+    c.stations.clear();
+    for (auto& node : *list) {
+      const toml::table& tab = *node.as_table();
+      StationConfig s;
+      const std::string where = "[[stations]] #" + std::to_string(c.stations.size() + 1);
+      for (const auto& [key, value] : tab) {
+        const std::string k(key.str());
+        std::string* field = k == "name"           ? &s.name
+                             : k == "drop"         ? &s.drop
+                             : k == "schedules"    ? &s.schedules
+                             : k == "library"      ? &s.library
+                             : k == "name_pattern" ? &s.name_pattern
+                             : k == "time_zone"    ? &s.time_zone
+                                                   : nullptr;
+        if (field) {
+          if (auto v = value.value<std::string>()) *field = *v;
+          else return Error{ErrorCode::usage, where + ": '" + k + "' must be a string", path, std::nullopt};
+        } else if (k == "retention_days") {
+          if (auto v = value.value<double>()) s.retention_days = *v;
+          else return Error{ErrorCode::usage, where + ": 'retention_days' must be a number", path, std::nullopt};
+        } else {
+          return Error{ErrorCode::usage,
+                       where + ": unknown key '" + k +
+                           "' (a station has name, drop, schedules, library, name_pattern, time_zone, retention_days)",
+                       path, std::nullopt};
+        }
+      }
+      if (s.name.empty()) return Error{ErrorCode::usage, where + ": 'name' is required", path, std::nullopt};
+      c.stations.push_back(std::move(s));
+    }
+  }
   return ok_status();
+}
+
+Result<std::vector<StationConfig>> effective_stations(const DaemonConfig& c) {
+  std::vector<StationConfig> out;
+  if (!c.stations.empty()) {
+    if (!c.drop.empty())
+      return Error{ErrorCode::usage,
+                   "'drop' is set at the top level (or by --drop) and [[stations]] are configured: give each station "
+                   "its drop folder in its [[stations]] table",
+                   "", std::nullopt};
+    if (!c.schedules.empty())
+      return Error{ErrorCode::usage,
+                   "'schedules' is set at the top level (or by --schedules) and [[stations]] are configured: give "
+                   "each station its planned logs in its [[stations]] table",
+                   "", std::nullopt};
+    out = c.stations;
+  } else if (!c.drop.empty()) {
+    StationConfig s;
+    s.name = c.station;
+    s.drop = c.drop;
+    s.schedules = c.schedules;
+    out.push_back(s);
+  }
+  for (auto& s : out) {
+    if (s.library.empty()) s.library = c.library;
+    if (s.name_pattern.empty()) s.name_pattern = c.name_pattern;
+    if (s.time_zone.empty()) s.time_zone = c.time_zone;
+  }
+  if (auto st = check_stations(out); !st) return st.error();
+  return out;
 }
 
 }  // namespace godwit

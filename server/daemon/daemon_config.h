@@ -7,6 +7,7 @@
 
 #include "godwit/core/error.h"
 #include "host_port.h"  // split_host_port, for the listen address
+#include "station_config.h"
 
 namespace godwit {
 
@@ -21,6 +22,12 @@ struct DaemonConfig {
   // a UTC offset are converted to its local time, for the drop folder's
   // reconciliations and reconcile jobs that give no time_zone. Empty: none.
   std::string time_zone;
+  // The top-level station (drop, schedules above): its name in the store
+  // of record; empty: named by its recordings' file names.
+  std::string station;
+  std::string name_pattern = kDefaultNamePattern;  // a recording's start time in its name
+  // [[stations]], as written (station_config.h); empty: the top-level one.
+  std::vector<StationConfig> stations;
   size_t workers = 1;
   int threads_per_job = 1;
   int job_nice = 10;  // jobs' threads run this much nicer than requests' (job_priority.h)
@@ -55,10 +62,24 @@ struct DaemonConfig {
   double queue_task_span_s = 3600;  // a stream over 1.5 of these is split
   double queue_claim_idle_s = 30;
   int queue_max_attempts = 3;
+  // [retention]: the store of record's detections and placements of days
+  // older than detections_days (a station may say otherwise), and finished
+  // jobs older than finished_jobs_days (besides limits.max_finished_jobs),
+  // are deleted every interval_h and at start. 0 days: kept for ever.
+  double retention_detections_days = 400;
+  double retention_finished_jobs_days = 30;
+  double retention_interval_h = 6;
 };
 
 // Reads `path` over the defaults in `cfg`. Errors: not_found, usage (TOML
-// syntax or a key of the wrong type, with its line).
+// syntax, a key of the wrong type, an unknown key in a [[stations]] table).
 Status load_daemon_config(const std::string& path, DaemonConfig& cfg);
+
+// The stations the daemon runs drop folders for, their keys filled from the
+// top level where left out (station_config.h): [[stations]], else the
+// top-level `drop` as one station, else none. Checked (check_stations).
+// Errors: usage (both [[stations]] and a top-level `drop`; what
+// check_stations finds).
+Result<std::vector<StationConfig>> effective_stations(const DaemonConfig& cfg);
 
 }  // namespace godwit

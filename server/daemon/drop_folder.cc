@@ -36,6 +36,8 @@ struct Seen {
 DropFolder::DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor)
     : o_(std::move(options)), runner_(runner), executor_(std::move(executor)) {
   if (!executor_) executor_ = local_executor(runner_);
+  if (o_.library.empty()) o_.library = runner_.config().default_library;
+  if (o_.time_zone.empty()) o_.time_zone = runner_.config().time_zone;
 }
 
 DropFolder::~DropFolder() { stop(); }
@@ -237,7 +239,7 @@ void DropFolder::process_file(const std::string& name) {
   const std::string path = (base / "work" / name).string();
   spdlog::info("drop folder: processing {}", name);
   Result<nlohmann::json> doc = Error{ErrorCode::internal, "not run", path, std::nullopt};
-  auto lib = runner_.library_files(runner_.config().default_library);
+  auto lib = runner_.library_files(o_.library);
   if (!lib) {
     doc = lib.error();
   } else {
@@ -249,7 +251,8 @@ void DropFolder::process_file(const std::string& name) {
     } else {
       // The job id follows from the file: after a crash its re-run finds
       // the tasks already stored by the queue.
-      doc = executor_("drop-" + name, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
+      const std::string id = o_.station.empty() ? "drop-" + name : "drop-" + o_.station + "-" + name;
+      doc = executor_(id, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
                       [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); }, nullptr);
     }
   }
@@ -308,10 +311,12 @@ void DropFolder::reconcile_day(const std::string& name) {
   }
   std::sort(recordings.begin(), recordings.end());
   ReconcileSpec spec;
-  spec.library = runner_.config().default_library;
+  spec.library = o_.library;
   spec.schedule = schedule;
   spec.recordings = recordings;
-  spec.time_zone = runner_.config().time_zone;
+  spec.time_zone = o_.time_zone;
+  spec.station = o_.station;
+  if (o_.name_pattern != ReconcileOptions{}.name_pattern) spec.name_pattern = o_.name_pattern;
   if (auto st = check_job_spec(spec); !st) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, st.error().describe());
     return;
@@ -327,7 +332,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   // In queue mode the day's search is shared out (hour x batch tasks) and
   // its reconciliation rebuilt here from the merged search.
   auto doc = executor_(
-      "drop-day-" + day, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
+      o_.station.empty() ? "drop-day-" + day : "drop-day-" + o_.station + "-" + day, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
       [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &files);
   if (!doc) {
     spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());

@@ -48,6 +48,16 @@ struct DropOptions {
   // report grows hour by hour.
   std::string schedules;
   std::string name_pattern = "%Y%m%dT%H%M%S";
+  // The station whose folder this is (station_config.h): its library is
+  // searched, its zone reads the planned logs, and the day's
+  // reconciliation is filed under its name in the store of record (empty:
+  // named by the files, and the runner's library and zone). A named
+  // station's job ids carry its name ("drop-<station>-<file>",
+  // "drop-day-<station>-<day>"), so two stations' files of the same name
+  // never share a job (nor, in queue mode, its tasks).
+  std::string station;
+  std::string library;    // empty: the runner's default library
+  std::string time_zone;  // empty: the runner's
 };
 
 class DropFolder {

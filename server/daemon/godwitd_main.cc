@@ -6,6 +6,8 @@
 #include <CLI/CLI.hpp>
 #include <utility>  // before Asio: Boost 1.74 awaitable.hpp uses std::exchange without it
 #include <boost/asio.hpp>
+#include <cmath>
+#include <ctime>
 #include <filesystem>
 #include <fstream>
 #include <iostream>
@@ -18,12 +20,14 @@
 #include "distributed_jobs.h"
 #include "godwit/compliance/civil_time.h"
 #include "drop_folder.h"
+#include "housekeeper.h"
 #include "exit_code.h"
 #include "job_runner.h"
 #include "job_store.h"
 #include "path_guard.h"
 #include "queue_worker.h"
 #include "record_ops.h"
+#include "record_retention.h"
 #include "record_store.h"
 #include "server.h"
 #include "worker_pool.h"
@@ -66,12 +70,18 @@ void remove_orphan_inline_spots(const JobStore& store, const std::string& inline
 }  // namespace
 
 int main(int argc, char** argv) {
-  CLI::App app{"godwitd: the godwit daemon (JSON Lines over TCP, drop folder)"};
+  CLI::App app{"godwitd: the godwit daemon (JSON Lines over TCP, drop folders)"};
+  app.footer(
+      "Several stations, each with its drop folder, planned logs, library, file-name pattern, time zone and "
+      "retention: [[stations]] tables in the config file (config/godwitd.toml). --drop, --schedules, --station and "
+      "--name-pattern set one station, as before; they cannot be combined with [[stations]]. Retention of the store "
+      "of record and of finished jobs: the [retention] table (defaults: detections and placements 400 days, "
+      "finished jobs 30 days and limits.max_finished_jobs 10000, applied at start and every 6 h).");
   std::string config_path;
   DaemonConfig cfg;
   app.add_option("--config,-c", config_path, "TOML configuration (see config/godwitd.toml)");
   // Overrides: parsed after the file is read.
-  std::string listen, state_dir, library, drop, schedules, token_file, log_level, time_zone;
+  std::string listen, state_dir, library, drop, schedules, token_file, log_level, time_zone, station, name_pattern;
   std::vector<std::string> roots;
   size_t workers = 0;
   double stable_s = -1, poll_s = -1;
@@ -87,6 +97,12 @@ int main(int argc, char** argv) {
   app.add_option("--time-zone", time_zone,
                  "the station's IANA time zone (Europe/Berlin): planned times written with a UTC offset or Z are "
                  "converted to its local time (drop folder, and reconcile jobs that give no time_zone)");
+  app.add_option("--station", station,
+                 "the drop folder's station: the name the store of record files its days under (default: what the "
+                 "recordings' names hold before their timestamp, else 'default')");
+  app.add_option("--name-pattern", name_pattern,
+                 "where a dropped recording's start time is in its name, strftime-style (%Y %m %d %H %M %S; default "
+                 "%Y%m%dT%H%M%S)");
   app.add_option("--workers", workers, "jobs run at once (default 1)");
   app.add_option("--token-file", token_file, "file holding the shared token; required when listening beyond loopback");
   app.add_option("--log-level", log_level, "trace, debug, info, warn, error (default info)");
@@ -124,6 +140,8 @@ int main(int argc, char** argv) {
     if (!drop.empty()) c.drop = drop;
     if (!schedules.empty()) c.schedules = schedules;
     if (!time_zone.empty()) c.time_zone = time_zone;
+    if (!station.empty()) c.station = station;
+    if (!name_pattern.empty()) c.name_pattern = name_pattern;
     if (workers) c.workers = workers;
     if (!token_file.empty()) c.token_file = token_file;
     if (!log_level.empty()) c.log_level = log_level;
@@ -156,6 +174,23 @@ int main(int argc, char** argv) {
       return exit_status(ExitCode::usage);
     }
   }
+  // The stations and their folders, checked before anything starts.
+  auto stations_r = effective_stations(cfg);
+  if (!stations_r) {
+    std::cerr << "godwitd: " << stations_r.error().message << "\n";
+    return exit_status(ExitCode::usage);
+  }
+  const std::vector<StationConfig> stations = stations_r.value();
+  for (auto [key, value] : {std::pair{"retention.detections_days", cfg.retention_detections_days},
+                            std::pair{"retention.finished_jobs_days", cfg.retention_finished_jobs_days}})
+    if (!(std::isfinite(value) && value >= 0)) {
+      std::cerr << "godwitd: " << key << " must be a number of days, 0 or more (0: kept for ever)\n";
+      return exit_status(ExitCode::usage);
+    }
+  if (!(std::isfinite(cfg.retention_interval_h) && cfg.retention_interval_h > 0)) {
+    std::cerr << "godwitd: retention.interval_h must be a number of hours over 0\n";
+    return exit_status(ExitCode::usage);
+  }
   std::string host;
   unsigned short port = 0;
   if (!split_host_port(cfg.listen, host, port)) {
@@ -181,8 +216,11 @@ int main(int argc, char** argv) {
   // The configured library is read by jobs that name none, and by the drop
   // folder, so it is always a root (its files are checked like any other).
   if (!cfg.library.empty() && !PathGuard(cfg.roots).resolve(cfg.library)) cfg.roots.push_back(cfg.library);
+  for (const auto& s : stations)  // so is each station's
+    if (!PathGuard(cfg.roots).resolve(s.library)) cfg.roots.push_back(s.library);
 
-  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued, cfg.max_finished_jobs);
+  auto store_r = JobStore::open(cfg.state_dir, cfg.max_queued, cfg.max_finished_jobs,
+                                cfg.retention_finished_jobs_days * 86400);
   if (!store_r) {
     std::cerr << "godwitd: " << store_r.error().describe() << "\n";
     return exit_status(ExitCode::io);
@@ -199,6 +237,8 @@ int main(int argc, char** argv) {
   rc.max_recording_s = cfg.max_recording_h * 3600;
   rc.max_inline_bytes = cfg.max_inline_mb << 20;
   rc.time_zone = cfg.time_zone;
+  for (const auto& s : stations)
+    if (!s.name.empty()) rc.stations.push_back(s);
   rc.threads_per_job = cfg.threads_per_job;
   rc.job_nice = cfg.job_nice;
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
@@ -258,15 +298,50 @@ int main(int argc, char** argv) {
     return exit_status(ExitCode::io);
   }
   WorkerPool pool(store, runner, cfg.workers, executor);
-  std::unique_ptr<DropFolder> dropper;
-  if (!cfg.drop.empty()) {
-    dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, cfg.schedules},
-                                           runner, executor);
-    if (auto st = dropper->start(); !st) {
-      std::cerr << "godwitd: " << st.error().describe() << "\n";
+  std::vector<std::unique_ptr<DropFolder>> droppers;
+  for (const auto& st : stations) {
+    DropOptions o{st.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, st.schedules, st.name_pattern,
+                  st.name, st.library, st.time_zone};
+    droppers.push_back(std::make_unique<DropFolder>(o, runner, executor));
+    if (auto r = droppers.back()->start(); !r) {
+      std::cerr << "godwitd: " << r.error().describe() << "\n";
       return exit_status(ExitCode::io);
     }
+    spdlog::info("station {}: drop folder {}, schedules {}, library {}, time zone {}, names {}",
+                 st.name.empty() ? "(named by its files)" : st.name, st.drop, st.schedules.empty() ? "none" : st.schedules,
+                 st.library, st.time_zone.empty() ? "none" : st.time_zone, st.name_pattern);
   }
+  // Retention: finished jobs past their age, and the record's old days.
+  std::vector<Housekeeper::Task> upkeep;
+  upkeep.push_back({"retention of finished jobs", [&store, days = cfg.retention_finished_jobs_days] {
+                      const size_t before = store.journal_lines();
+                      const size_t n = store.expire(static_cast<double>(std::time(nullptr)));
+                      if (n)
+                        spdlog::info("retention: {} finished job(s) older than {} days forgotten with their results "
+                                     "(journal {} -> {} lines)",
+                                     n, days, before, store.journal_lines());
+                    }});
+  if (record_r) {
+    RetentionPolicy policy;
+    policy.days = cfg.retention_detections_days;
+    for (const auto& s : stations)
+      if (s.retention_days && !s.name.empty()) policy.station_days[s.name] = *s.retention_days;
+    upkeep.push_back({"retention of the record", [rec = record_r.value().get(), policy] {
+                        auto counts = apply_retention(*rec, policy, static_cast<int64_t>(std::time(nullptr)));
+                        if (!counts) {
+                          spdlog::error("retention: the store of record was not pruned: {}", counts.error().describe());
+                          return;
+                        }
+                        for (const auto& c : counts.value())
+                          if (c.total())
+                            spdlog::info("retention: station {}: deleted the days before {}: {} detection(s), {} "
+                                         "placement(s), {} recording(s), {} search(es), {} job(s) in {:.2f} s",
+                                         c.station, c.cut, c.detections, c.placements, c.recordings, c.searches,
+                                         c.jobs, c.seconds);
+                      }});
+  }
+  Housekeeper housekeeper(std::move(upkeep), cfg.retention_interval_h * 3600);
+  housekeeper.start();
   // Machine-readable first line for supervisors and tests.
   std::cout << json_text(nlohmann::json{{"listening", host}, {"port", server->port()}}) << std::endl;
   spdlog::info("godwitd listening on {}:{} (state {}, {} worker(s), {} root(s))", host, server->port(), cfg.state_dir,
@@ -300,7 +375,8 @@ int main(int argc, char** argv) {
   };
   signals.async_wait(on_signal);
   io.run();
-  if (dropper) dropper->stop();
+  housekeeper.stop();
+  for (auto& d : droppers) d->stop();
   pool.drain();
   if (queue_worker) queue_worker->stop();
   cache.save(runner.costs());

@@ -3,6 +3,7 @@
 #include "godwit/compliance/timeline_locate.h"
 
 #include <filesystem>
+#include <set>
 #include <random>
 
 #include "atomic_file.h"
@@ -123,8 +124,25 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   if (!tempo) return tempo.error();
 
   if (kind == "reconcile") {
-    if (!job.contains("library") || !job.contains("schedule")) return bad("a reconcile job needs 'library' and 'schedule'");
-    auto lib = guarded(guard_, job["library"], "library");
+    // A configured station's library, zone and file-name pattern serve a
+    // job that names it and not them; the store files the job under it.
+    const StationConfig* station = nullptr;
+    if (job.contains("station")) {
+      if (!job["station"].is_string()) return bad("'station' must be a string (a station's name)");
+      const std::string name = job["station"].get<std::string>();
+      std::set<std::string> names;
+      for (const auto& s : config_.stations) {
+        if (s.name == name) station = &s;
+        names.insert(s.name);
+      }
+      std::string known;
+      for (const auto& n : names) known += (known.empty() ? "" : ", ") + n;
+      if (!station)
+        return bad("no station '" + name + "' is configured" + (known.empty() ? std::string() : " (" + known + ")"));
+    }
+    if ((!job.contains("library") && !station) || !job.contains("schedule"))
+      return bad("a reconcile job needs 'library' (or a 'station') and 'schedule'");
+    auto lib = guarded(guard_, job.contains("library") ? job["library"] : nlohmann::json(station->library), "library");
     if (!lib) return lib.error();
     auto sched = guarded(guard_, job["schedule"], "schedule");
     if (!sched) return sched.error();
@@ -137,7 +155,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
       return Error{ErrorCode::unreadable, "the planned log is not a regular file", sched.value(), std::nullopt};
     // The station's time zone: the job's, else the daemon's; a name the tz
     // database lacks refuses the job before it is queued.
-    std::string zone = config_.time_zone;
+    std::string zone = station ? station->time_zone : config_.time_zone;
     if (job.contains("time_zone")) {
       if (!job["time_zone"].is_string()) return bad("'time_zone' must be a string (an IANA zone name)");
       zone = job["time_zone"].get<std::string>();
@@ -152,6 +170,10 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     out.recordings = recs.value();
     out.window_s = w.value();
     out.time_zone = zone;
+    if (station) {
+      out.station = station->name;
+      out.name_pattern = station->name_pattern;
+    }
     if (job.contains("excerpts")) {
       if (!job["excerpts"].is_boolean()) return bad("'excerpts' must be true or false");
       out.excerpts = job["excerpts"].get<bool>();
@@ -258,6 +280,7 @@ Result<JobRunner::Reconcile> JobRunner::load_reconcile(const ReconcileSpec& spec
   Reconcile r;
   r.job = std::move(job.value());
   r.options.locate = locate_options(spec.search, warn);
+  if (!spec.name_pattern.empty()) r.options.name_pattern = spec.name_pattern;
   r.title = std::filesystem::path(spec.schedule).stem().string();
   return r;
 }

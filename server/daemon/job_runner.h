@@ -12,7 +12,10 @@
 //    "threshold": 0.3, "floor_k": 10, "fft_size": 0,
 //    "inline": [{"id": "spot-a", "format": "wav", "audio_base64": "..."}]}
 //   {"kind": "reconcile", "library": "DIR", "schedule": "FILE.csv", "recordings": [paths], "window_s": 60,
-//    "time_zone": "Europe/Berlin", "excerpts": true}  (time_zone: optional; the daemon's when absent)
+//    "time_zone": "Europe/Berlin", "station": "kestrel-fm", "excerpts": true}
+//   (time_zone: optional; the station's, else the daemon's, when absent. station: optional, a
+//   configured one, whose library serves when the job names none, and under which the store
+//   of record files the job)
 // prepare() gives a LocateSpec or ReconcileSpec (job_spec.h) as JSON; run()
 // parses a prepared job once (job_spec_from_json) and runs the type. From
 // the queue only (never prepared): a SegmentSpec, one task of a distributed
@@ -32,6 +35,7 @@
 #include "job_spec.h"
 #include "path_guard.h"
 #include "report_files.h"
+#include "station_config.h"
 
 namespace godwit {
 
@@ -43,6 +47,9 @@ struct RunnerConfig {
   double max_recording_s = 7 * 24 * 3600.0;  // per job, all recordings together
   size_t max_inline_bytes = 16u << 20;       // decoded, per spot
   std::string time_zone;  // the station's IANA zone for reconcile jobs that give none; empty: none
+  // The configured stations with names (effective_stations), which a
+  // reconcile job may name.
+  std::vector<StationConfig> stations;
   int threads_per_job = 1;
   int job_nice = 10;  // threads that run jobs lower their priority by this (job_priority.h)
   Planner planner = Planner::measure;

@@ -1,5 +1,6 @@
 // Over 400 lines: the journal is one format, its replay at open (compaction,
-// orphans, torn tails, crash notes) and its appends read best side by side.
+// orphans, torn tails, crash notes), its appends and its rewrites while
+// running (retention by age and count) read best side by side.
 #include "job_store.h"
 
 #include <fcntl.h>
@@ -56,6 +57,17 @@ std::optional<nlohmann::json> parse_journal_line(const std::string& line) {
   return std::nullopt;
 }
 
+// Seconds since 1970 of an ISO 8601 UTC time as utc_now() writes it; 0
+// when it is not one (such a job counts as old).
+double utc_seconds(const std::string& iso) {
+  std::tm tm{};
+  const char* end = strptime(iso.c_str(), "%Y-%m-%dT%H:%M:%SZ", &tm);
+  if (!end || *end) return 0;
+  return static_cast<double>(timegm(&tm));
+}
+
+double now_utc_s() { return static_cast<double>(std::time(nullptr)); }
+
 double now_s() {
   return std::chrono::duration<double>(std::chrono::steady_clock::now().time_since_epoch()).count();
 }
@@ -79,7 +91,8 @@ std::optional<JobState> job_state_from(const std::string& n) {
   return std::nullopt;
 }
 
-Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued, size_t max_finished) {
+Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t max_queued, size_t max_finished,
+                                                double max_finished_age_s) {
   namespace fs = std::filesystem;
   std::error_code ec;
   fs::create_directories(fs::path(dir) / "results", ec);
@@ -88,6 +101,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   s->dir_ = dir;
   s->max_queued_ = max_queued;
   s->max_finished_ = std::max<size_t>(1, max_finished);
+  s->max_finished_age_s_ = max_finished_age_s;
   const std::string journal = dir + "/journal.jsonl";
   // Left by a kill mid-write: a result, the journal's compaction, the FFT
   // cost cache (written beside the journal at exit).
@@ -96,10 +110,12 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   // Replay.
   std::vector<std::string> order;
   bool pruned_lines = false;
+  size_t lines_read = 0;
   {
     std::ifstream in(journal);
     std::string line;
     while (std::getline(in, line)) {
+      ++lines_read;
       const auto parsed = parse_journal_line(line);
       if (!parsed || !parsed->is_object()) continue;  // torn: never acknowledged
       const nlohmann::json& j = *parsed;
@@ -112,24 +128,51 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         info.submitted = j.value("submitted", "");
         if (!s->jobs_.count(id)) order.push_back(id);
         s->jobs_[id] = info;
+      } else if (ev == "finished") {  // a finished job as a rewrite keeps it
+        const auto st = job_state_from(j.value("state", ""));
+        if (!st || *st == JobState::queued || *st == JobState::running) continue;
+        JobInfo info;
+        info.id = id;
+        info.state = *st;
+        info.spec = {{"kind", j.value("kind", "")}};
+        info.submitted = j.value("submitted", "");
+        info.finished = j.value("finished", info.submitted);
+        info.error = j.value("error", nlohmann::json());
+        if (!s->jobs_.count(id)) order.push_back(id);
+        s->jobs_[id] = info;
       } else if (ev == "pruned") {
         s->jobs_.erase(id);
         pruned_lines = true;
       } else if (auto it = s->jobs_.find(id); it != s->jobs_.end()) {
         if (ev == "crashed") ++it->second.crashes;
-        if (auto st = job_state_from(ev)) it->second.state = *st;
+        if (auto st = job_state_from(ev)) {
+          it->second.state = *st;
+          it->second.finished = j.value("finished", it->second.submitted);  // older lines: no time
+          // Its spec let go at once, so a long journal never holds every
+          // spec at the same time; but a done job whose result is missing
+          // keeps it, to run again (below).
+          if (*st != JobState::done || fs::exists(fs::path(dir) / "results" / (id + ".json")))
+            it->second.spec = {{"kind", it->second.spec.value("kind", "")}};
+        }
         if (ev == "failed") it->second.error = j.value("error", nlohmann::json());
       }
     }
   }
-  std::vector<std::string> kept;
   std::vector<std::string> crash_failed;  // failed at this open: their "failed" line is appended below
   for (const auto& id : order) {
     if (!s->jobs_.count(id)) continue;  // pruned
-    kept.push_back(id);
     JobInfo& info = s->jobs_[id];
     const bool have_result = fs::exists(fs::path(dir) / "results" / (id + ".json"));
-    if (info.state == JobState::done && !have_result) info.state = JobState::queued;
+    if (info.state == JobState::done && !have_result) {
+      if (info.spec.size() > 1) {
+        info.state = JobState::queued;  // run again
+      } else {  // kept as one line: nothing left to run it from
+        info.state = JobState::failed;
+        info.error = {{"code", std::string(wire_name(ErrorCode::io))},
+                      {"message", "the job's result file is missing from the state folder"}};
+        crash_failed.push_back(id);
+      }
+    }
     // Crashed the daemon each time it ran: failed, not run into a crash loop.
     if ((info.state == JobState::queued || info.state == JobState::running) &&
         info.crashes >= CrashRecord::kMaxCrashes) {
@@ -138,6 +181,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
                     {"message", "the daemon crashed " + std::to_string(info.crashes) +
                                     " times while running this job; it is not run again (internal error, please "
                                     "report it)"}};
+      info.finished = utc_now();
       crash_failed.push_back(id);
     }
     if (info.state == JobState::queued || info.state == JobState::running) {
@@ -146,39 +190,38 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
       s->queue_.push_back(id);
     }
     if (info.state == JobState::done) info.progress = 1;
-    if (info.state != JobState::queued) s->finished_.push_back(id);
+    if (info.state != JobState::queued) {
+      info.spec = {{"kind", info.spec.value("kind", "")}};  // a finished job's spec is not kept
+      s->finished_.push_back(id);
+    }
   }
-  // Beyond max_finished, the oldest finished jobs are forgotten, and the
-  // journal is rewritten with the rest, as it is when it names jobs pruned
-  // while running (else it would grow forever). A rewrite that fails (a
-  // full disk) leaves the journal as it was, which replays to the same
-  // jobs: it is tried again at the next open.
+  // Beyond max_finished, the oldest finished jobs are forgotten, and so are
+  // those older than max_finished_age_s; the journal is rewritten with the
+  // rest, as it is when it names jobs pruned while running or is twice
+  // the length of a rewrite (else it would grow forever). A rewrite that
+  // fails (a full disk) leaves the journal as it was, which replays to the
+  // same jobs: it is tried again at the next open.
   std::set<std::string> on_disk;  // the jobs the journal on disk names, once this is done
   for (const auto& [id, info] : s->jobs_) on_disk.insert(id);
-  if (s->finished_.size() > s->max_finished_ || pruned_lines) {
-    std::set<std::string> gone;
-    while (s->finished_.size() > s->max_finished_) {
-      gone.insert(s->finished_.front());
-      s->forget(s->finished_.front());
-    }
-    std::string text;
-    for (const auto& id : kept) {
-      if (gone.count(id)) continue;
-      const JobInfo& info = s->jobs_[id];
-      text += json_text({{"event", "submit"}, {"job", id}, {"spec", info.spec}, {"submitted", info.submitted}}) + "\n";
-      if (info.state == JobState::queued) {
-        for (int k = 0; k < info.crashes; ++k) text += json_text({{"event", "crashed"}, {"job", id}}) + "\n";
-        continue;
-      }
-      nlohmann::json end{{"event", job_state_name(info.state)}, {"job", id}};
-      if (info.state == JobState::failed) end["error"] = info.error;
-      text += json_text(end) + "\n";
-    }
-    if (write_file_atomically(journal, text)) {
+  std::set<std::string> gone;
+  for (const auto& id : s->finished_)
+    if (s->max_finished_age_s_ > 0 &&
+        utc_seconds(s->jobs_[id].finished) < now_utc_s() - s->max_finished_age_s_)
+      gone.insert(id);
+  for (auto it = s->finished_.begin(); s->finished_.size() - gone.size() > s->max_finished_ && it != s->finished_.end();
+       ++it)
+    gone.insert(*it);
+  s->forget(gone);
+  size_t live_lines = 0;
+  const std::string compacted = s->journal_text(live_lines);
+  if (!gone.empty() || pruned_lines || lines_read > 2 * live_lines + 64) {
+    if (write_file_atomically(journal, compacted)) {
       for (const auto& id : gone) on_disk.erase(id);
       crash_failed.clear();  // the rewrite holds their "failed" lines
+      lines_read = live_lines;
     }
   }
+  s->journal_lines_ = lines_read;
   // Results (and report folders) of jobs the journal no longer names
   // (pruned; a kill between a "pruned" line and the removal of its result)
   // are removed. A result stays while its job is in the journal: else the
@@ -202,18 +245,91 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
   // A torn tail (a crash or a full disk mid-append; never acknowledged) is
   // cut off, so the next line starts on a line of its own.
   {
-    std::ifstream in(journal, std::ios::binary);
-    std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
-    const size_t keep = text.rfind('\n') == std::string::npos ? 0 : text.rfind('\n') + 1;
-    if (keep < text.size() && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
+    // Read backwards from the end in blocks: the journal is never held whole.
+    std::ifstream in(journal, std::ios::binary | std::ios::ate);
+    const auto size = static_cast<size_t>(std::max<std::streamoff>(0, in.tellg()));
+    size_t keep = 0;
+    std::string block;
+    for (size_t end = size; end > 0;) {
+      const size_t from = end > 65536 ? end - 65536 : 0;
+      block.resize(end - from);
+      in.seekg(static_cast<std::streamoff>(from));
+      in.read(block.data(), static_cast<std::streamsize>(block.size()));
+      if (const size_t nl = block.rfind('\n'); nl != std::string::npos) {
+        keep = from + nl + 1;
+        break;
+      }
+      end = from;
+    }
+    if (keep < size && ::ftruncate(s->journal_fd_, static_cast<off_t>(keep)) != 0)
       s->torn_ = true;  // then the next append starts with a newline
   }
   for (const auto& id : crash_failed) {
     std::lock_guard jl(s->journal_mu_);
-    (void)s->append({{"event", "failed"}, {"job", id}, {"error", s->jobs_[id].error}});  // lost: failed again next open
+    const JobInfo& info = s->jobs_[id];
+    (void)s->append({{"event", "failed"}, {"job", id}, {"error", info.error}, {"finished", info.finished}});
+    // lost: failed again next open
   }
   s->crash_.set_journal_fd(s->journal_fd_);
   return s;
+}
+
+std::string JobStore::journal_text(size_t& lines) const {
+  std::string text;
+  lines = 0;
+  for (const auto& id : finished_) {
+    const JobInfo& info = jobs_.at(id);
+    nlohmann::json line{{"event", "finished"},           {"job", id},
+                        {"state", job_state_name(info.state)}, {"kind", info.spec.value("kind", "")},
+                        {"submitted", info.submitted},   {"finished", info.finished}};
+    if (!info.error.is_null()) line["error"] = info.error;
+    text += json_text(line) + "\n";
+    ++lines;
+  }
+  auto unfinished = [&](const JobInfo& info) {
+    text += json_text({{"event", "submit"}, {"job", info.id}, {"spec", info.spec}, {"submitted", info.submitted}}) + "\n";
+    ++lines;
+    for (int k = 0; k < info.crashes; ++k) {
+      text += json_text({{"event", "crashed"}, {"job", info.id}}) + "\n";
+      ++lines;
+    }
+  };
+  for (const auto& [id, info] : jobs_)
+    if (info.state == JobState::running) unfinished(info);
+  for (const auto& id : queue_)
+    if (auto it = jobs_.find(id); it != jobs_.end() && it->second.state == JobState::queued) unfinished(it->second);
+  return text;
+}
+
+Status JobStore::reopen_journal() {
+  const std::string journal = dir_ + "/journal.jsonl";
+  const int fd = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
+  if (fd < 0)
+    return Error{ErrorCode::io, std::string("cannot open the journal: ") + std::strerror(errno), journal, std::nullopt};
+  crash_.set_journal_fd(fd);  // before the old one closes: a crash note never goes to a closed fd
+  if (journal_fd_ >= 0) ::close(journal_fd_);
+  journal_fd_ = fd;
+  torn_ = false;
+  return ok_status();
+}
+
+Status JobStore::compact_locked() {
+  std::string text;
+  size_t lines = 0;
+  {
+    std::lock_guard lock(mu_);
+    text = journal_text(lines);
+  }
+  if (auto st = write_file_atomically(dir_ + "/journal.jsonl", text); !st) return st;
+  journal_lines_ = lines;
+  // Appends go to the new file from here; should it not open, they fail
+  // (a submit is refused, not lost) until it does (append() retries).
+  return reopen_journal();
+}
+
+size_t JobStore::journal_lines() const {
+  std::lock_guard jl(journal_mu_);
+  return journal_lines_;
 }
 
 JobStore::~JobStore() {
@@ -221,14 +337,20 @@ JobStore::~JobStore() {
   if (journal_fd_ >= 0) ::close(journal_fd_);
 }
 
-void JobStore::forget(const std::string& id) {
-  jobs_.erase(id);
-  cancel_.erase(id);
-  last_emit_.erase(id);
-  finished_.pop_front();
+void JobStore::forget(const std::set<std::string>& ids) {
+  if (ids.empty()) return;
+  for (const auto& id : ids) {
+    jobs_.erase(id);
+    cancel_.erase(id);
+    last_emit_.erase(id);
+  }
+  finished_.erase(std::remove_if(finished_.begin(), finished_.end(), [&](const std::string& id) { return ids.count(id) > 0; }),
+                  finished_.end());
 }
 
 Status JobStore::append(const nlohmann::json& line) {
+  if (journal_fd_ < 0)  // a compaction could not open the new journal: try again
+    if (auto st = reopen_journal(); !st) return st;
   std::string text = torn_ ? "\n" : "";
   text += json_text(line);
   text += '\n';
@@ -248,6 +370,7 @@ Status JobStore::append(const nlohmann::json& line) {
     done += static_cast<size_t>(n);
   }
   torn_ = false;
+  ++journal_lines_;
   if (::fsync(journal_fd_) != 0)
     return Error{ErrorCode::io, std::string("journal fsync failed: ") + std::strerror(errno), dir_, std::nullopt};
   return ok_status();
@@ -267,11 +390,11 @@ Result<std::string> JobStore::submit(const nlohmann::json& spec) {
   info.spec = spec;
   info.submitted = utc_now();
   {
+    // The journal and memory change together (a compaction in between
+    // would write the journal without the job).
     std::lock_guard jl(journal_mu_);
     if (auto st = append({{"event", "submit"}, {"job", id}, {"spec", spec}, {"submitted", info.submitted}}); !st)
       return st.error();
-  }
-  {
     std::lock_guard lock(mu_);
     jobs_[id] = info;
   }
@@ -403,11 +526,12 @@ void JobStore::set_progress(const std::string& id, double fraction) {
 void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json& extra) {
   nlohmann::json line{{"event", job_state_name(s)}, {"job", id}};
   line.update(extra);
+  const bool over = s == JobState::done || s == JobState::failed || s == JobState::cancelled;
+  if (over) line["finished"] = utc_now();
   {
+    // The journal and memory change together (see submit).
     std::lock_guard jl(journal_mu_);
     (void)append(line);  // a lost terminal line only means the job runs again after a restart
-  }
-  {
     std::lock_guard lock(mu_);
     JobInfo& j = jobs_[id];
     if (j.state == JobState::running && running_ > 0) --running_;
@@ -420,7 +544,11 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
     if (s == JobState::failed) j.error = extra.value("error", nlohmann::json());
     cancel_.erase(id);
     last_emit_.erase(id);
-    if (s == JobState::done || s == JobState::failed || s == JobState::cancelled) finished_.push_back(id);
+    if (over) {
+      j.finished = line["finished"].get<std::string>();
+      j.spec = {{"kind", j.spec.value("kind", "")}};  // a finished job's spec is not kept
+      finished_.push_back(id);
+    }
   }
   nlohmann::json ev{{"event", "state"}, {"job", id}, {"state", job_state_name(s)}};
   emit(ev);
@@ -428,19 +556,32 @@ void JobStore::set_state(const std::string& id, JobState s, const nlohmann::json
 }
 
 void JobStore::prune() {
-  std::vector<std::string> gone;
+  std::set<std::string> gone;
   {
     std::lock_guard lock(mu_);
-    while (finished_.size() > max_finished_) {
-      gone.push_back(finished_.front());
-      forget(finished_.front());
-    }
+    for (auto it = finished_.begin(); finished_.size() - gone.size() > max_finished_ && it != finished_.end(); ++it)
+      gone.insert(*it);
+    forget(gone);
   }
-  if (gone.empty()) return;
+  drop_finished(gone);
+}
+
+size_t JobStore::expire(double now_utc) {
+  if (max_finished_age_s_ <= 0) return 0;
+  std::set<std::string> gone;
   {
-    std::lock_guard jl(journal_mu_);
-    for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
+    std::lock_guard lock(mu_);
+    for (const auto& id : finished_)
+      if (utc_seconds(jobs_[id].finished) < now_utc - max_finished_age_s_) gone.insert(id);
+    forget(gone);
   }
+  drop_finished(gone, !gone.empty());  // a retention pass: the journal rewritten without them at once
+  return gone.size();
+}
+
+void JobStore::drop_finished(const std::set<std::string>& gone, bool compact) {
+  std::lock_guard jl(journal_mu_);
+  for (const auto& id : gone) (void)append({{"event", "pruned"}, {"job", id}});  // lost: pruned again at start
   // After the journal says so: a result removed first would make a kill
   // in between run its job again.
   for (const auto& id : gone) {
@@ -448,6 +589,14 @@ void JobStore::prune() {
     std::filesystem::remove(dir_ + "/results/" + id + ".json", ec);
     std::filesystem::remove_all(files_dir(id), ec);
   }
+  size_t live = 0;
+  {
+    std::lock_guard lock(mu_);
+    for (const auto& [id, info] : jobs_) live += 1 + (info.state == JobState::queued || info.state == JobState::running
+                                                          ? static_cast<size_t>(info.crashes)
+                                                          : 0);
+  }
+  if (compact || journal_lines_ > 2 * live + 64) (void)compact_locked();  // failed: the old journal stays, tried again later
 }
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {

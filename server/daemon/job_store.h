@@ -32,6 +32,7 @@
 #include <mutex>
 #include <nlohmann/json.hpp>
 #include <optional>
+#include <set>
 #include <string>
 #include <vector>
 
@@ -51,16 +52,28 @@ struct JobInfo {
   nlohmann::json spec;
   nlohmann::json error;  // null unless failed
   std::string submitted;  // ISO 8601 UTC
+  std::string finished;   // ISO 8601 UTC, once done, failed or cancelled
   int crashes = 0;        // times the daemon crashed while running it ("crashed" lines)
 };
 
 class JobStore {
  public:
   // Beyond `max_finished` finished (done, failed, cancelled) jobs, the
-  // oldest are forgotten with their results: a "pruned" line in the
-  // journal, which is rewritten without them at the next open.
+  // oldest are forgotten with their results, as are those finished more
+  // than `max_finished_age_s` ago (at open and at each expire(); <= 0:
+  // no age limit): a "pruned" line in the journal, which is rewritten
+  // without them (compacted) at open and, while running, once it holds
+  // more than twice the lines a rewrite would (plus 64).
+  //
+  // A finished job is held in memory as its id, state, kind, times and
+  // error only: its spec (hundreds of paths, for a long reconcile job)
+  // is dropped when it finishes, and a rewritten journal keeps the same
+  // one line per finished job ({"event":"finished","job","state","kind",
+  // "submitted","finished","error"?}). A done job of such a line whose
+  // result has gone is failed (io) at open, not run again.
   static Result<std::unique_ptr<JobStore>> open(const std::string& state_dir, size_t max_queued,
-                                                size_t max_finished = 10000);
+                                                size_t max_finished = 10000,
+                                                double max_finished_age_s = 30 * 86400.0);
   ~JobStore();  // closes the journal
   JobStore(const JobStore&) = delete;
   JobStore& operator=(const JobStore&) = delete;
@@ -103,6 +116,13 @@ class JobStore {
   size_t queued() const;
   size_t running() const;
 
+  // Forgets the finished jobs that finished more than max_finished_age_s
+  // before `now_utc` (seconds since 1970, UTC), with their results, and
+  // compacts the journal when any went. Returns how many went.
+  size_t expire(double now_utc);
+  // Lines in the journal now (for tests and the log).
+  size_t journal_lines() const;
+
   // Events (state changes and throttled progress) for `watch`; called on
   // the worker's thread. Returns a handle for unsubscribe().
   using Listener = std::function<void(const nlohmann::json& event)>;
@@ -115,15 +135,26 @@ class JobStore {
   void emit(const nlohmann::json& event);
   void set_state(const std::string& id, JobState s, const nlohmann::json& extra);
   void prune();                            // beyond max_finished_
-  // Drops a finished job from memory (its result file is the caller's).
-  void forget(const std::string& id);      // REQUIRES: mu_ held (or opening); id is finished_.front()
-
+  // Drops finished jobs from memory (their result files are the caller's).
+  void forget(const std::set<std::string>& ids);  // REQUIRES: mu_ held (or opening)
+  // The "pruned" lines of `gone`, then their results and folders removed,
+  // then the journal compacted if `compact` or worthwhile.
+  void drop_finished(const std::set<std::string>& gone, bool compact = false);
+  // The journal as a rewrite writes it (finished jobs first, oldest first,
+  // then running and queued ones), and its line count. REQUIRES: mu_ held.
+  std::string journal_text(size_t& lines) const;
+  // Rewrites the journal from memory and appends to the new one. REQUIRES:
+  // journal_mu_ held (and no mu_). A failed rewrite leaves the old one.
+  Status compact_locked();
+  Status reopen_journal();  // REQUIRES: journal_mu_ held
   std::string dir_;
   size_t max_queued_ = 0;
   size_t max_finished_ = 10000;
+  double max_finished_age_s_ = 0;
   int journal_fd_ = -1;
+  size_t journal_lines_ = 0;  // GUARDED_BY(journal_mu_)
   bool torn_ = false;  // GUARDED_BY(journal_mu_): the journal may end inside a line
-  std::mutex journal_mu_;  // serializes journal appends (held over their fsync only)
+  mutable std::mutex journal_mu_;  // serializes journal appends (held over their fsync only)
   mutable std::mutex mu_;
   std::condition_variable cv_;
   std::map<std::string, JobInfo> jobs_;             // GUARDED_BY(mu_)

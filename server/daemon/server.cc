@@ -103,7 +103,10 @@ class Session : public std::enable_shared_from_this<Session> {
       last_active_ = Clock::now();
       lines_.push_back(std::move(ev));
     }
-    line_started_ = framer_.pending() > 0 ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
+    // A line is under way while its bytes are held or, over the limit,
+    // while its rest is skipped: the read deadline covers both.
+    const bool in_line = framer_.pending() > 0 || framer_.skipping();
+    line_started_ = in_line ? (line_started_ ? line_started_ : std::optional(Clock::now())) : std::nullopt;
     if (closed_) return;
     if (lines_.empty()) read();
     else handle_next();

@@ -13,6 +13,8 @@
 //                     idle_timeout_s after the last answer -> closed
 //                     (not while watching)
 //               read  a started line not finished within read_timeout_s -> closed
+//                     (a line over max_line_bytes too: answered too_large
+//                     at once, closed if its rest is still coming then)
 //               write an answer or event not taken for idle_timeout_s -> closed
 //             An answer over max_reply_bytes is replaced by a `too_large`
 //             error; a client that does not read (write queue over

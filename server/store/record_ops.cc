@@ -26,6 +26,7 @@ void attach_record(RecordStore& store, RunnerConfig& runner) {
     // day, run again as hours arrive), made unique per run.
     if (!job_id.empty()) c.key = job_id + "@" + make_job_key("run");
     c.time_zone = spec.value("time_zone", zone);
+    c.station = spec.value("station", "");  // a configured station's (job_spec.h); else from the file names
     c.schedule = spec.value("schedule", "");
     return record_reconcile(store, r, options, c);
   };

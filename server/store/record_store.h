@@ -164,6 +164,13 @@ class RecordStore {
     std::lock_guard lock(read_mu_);
     return fn(*reader_);
   }
+  // Runs `fn` on the write connection, under its lock (upkeep such as
+  // record_retention.h; `fn` makes its own transaction).
+  template <class F>
+  auto write(F&& fn) {
+    std::lock_guard lock(write_mu_);
+    return fn(*writer_);
+  }
 
  private:
   RecordStore(std::unique_ptr<SqliteDb> writer, std::unique_ptr<SqliteDb> reader, std::string path)

@@ -46,6 +46,24 @@ class Client {
       at += static_cast<size_t>(n);
     }
   }
+  void send_raw(const std::string& bytes) {
+    for (size_t at = 0; at < bytes.size();) {
+      const ssize_t n = ::send(fd_, bytes.data() + at, bytes.size() - at, MSG_NOSIGNAL);
+      REQUIRE(n > 0);
+      at += static_cast<size_t>(n);
+    }
+  }
+  // Whether the server closed the connection within `wait_ms` (answers
+  // before the close are skipped; a bound, not a measure of speed).
+  bool closed_within(int wait_ms) {
+    for (;;) {
+      pollfd p{fd_, POLLIN, 0};
+      if (::poll(&p, 1, wait_ms) <= 0) return false;
+      char chunk[4096];
+      const ssize_t n = ::recv(fd_, chunk, sizeof chunk, 0);
+      if (n <= 0) return true;
+    }
+  }
   // The next answer line, or "" when none came within `wait_ms` (a bound
   // for a test that would otherwise hang, not a measure of speed).
   std::string answer(int wait_ms) {
@@ -188,4 +206,21 @@ TEST_CASE("server: a line over the limit is answered too_large and the line afte
   const std::string second = c.answer(20000);
   REQUIRE(!second.empty());
   CHECK(nlohmann::json::parse(second)["id"] == "after");
+}
+
+TEST_CASE("server: a line over the limit whose rest never comes is closed at the read deadline") {
+  // Before, the skipped rest of an over-limit line was outside the read
+  // deadline: such a connection stayed open until the idle timeout.
+  ServerLimits limits;
+  limits.max_line_bytes = 64u << 10;
+  limits.read_timeout_s = 1;
+  limits.idle_timeout_s = 300;
+  World w(limits);
+  w.release();
+  Client c("127.0.0.1", w.server->port());
+  c.send_raw(std::string(100u << 10, 'x'));  // over the limit, no newline
+  const std::string first = c.answer(20000);
+  REQUIRE(!first.empty());
+  CHECK(nlohmann::json::parse(first)["error"]["code"] == "too_large");
+  CHECK(c.closed_within(15000));
 }
