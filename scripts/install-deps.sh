@@ -7,7 +7,7 @@ PACKAGES=(
   libfftw3-dev libsndfile1-dev libsoxr-dev libspdlog-dev doctest-dev nlohmann-json3-dev libcli11-dev
   libboost-dev libtomlplusplus-dev libebur128-dev libhiredis-dev libicu-dev redis-server
   libsqlite3-dev libssl-dev
-  python3 python3-numpy python3-scipy python3-opencv espeak-ng lame sox chromium
+  python3 python3-numpy python3-scipy python3-opencv espeak-ng lame sox rubberband-cli chromium
   clang libclang-rt-14-dev
 )
 missing=()

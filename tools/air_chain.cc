@@ -3,6 +3,11 @@
 #include <algorithm>
 #include <cmath>
 
+#include <unistd.h>
+
+#include <atomic>
+#include <filesystem>
+
 #include "godwit/audio/resampler.h"
 
 namespace godwit::synth {
@@ -13,6 +18,19 @@ constexpr double kPi = 3.14159265358979323846;
 struct Coeffs {
   double b0, b1, b2, a0, a1, a2;
 };
+
+// The tempo change by the outside tool, in a folder of its own.
+Samples stretch(const Samples& x, double rate_hz, double tempo, AirChain::Stretcher how) {
+  static std::atomic<unsigned> counter{0};
+  const auto dir = std::filesystem::temp_directory_path() /
+                   ("godwit-stretch-" + std::to_string(::getpid()) + "-" + std::to_string(counter++));
+  std::filesystem::create_directories(dir);
+  Samples y = how == AirChain::Stretcher::rubberband ? rubberband_tempo(x, rate_hz, tempo, dir.string())
+                                                      : sox_tempo(x, rate_hz, tempo, dir.string());
+  std::error_code ec;
+  std::filesystem::remove_all(dir, ec);
+  return y;
+}
 
 }  // namespace
 
@@ -74,6 +92,15 @@ void Biquad::apply(Samples& x) {
     y1 = y;
     v = static_cast<float>(y);
   }
+}
+
+const char* stretcher_name(AirChain::Stretcher s) {
+  switch (s) {
+    case AirChain::Stretcher::none: return "none";
+    case AirChain::Stretcher::sox: return "sox";
+    case AirChain::Stretcher::rubberband: return "rubberband";
+  }
+  return "?";
 }
 
 const char* noise_colour_name(NoiseColour c) {
@@ -139,6 +166,11 @@ void soft_limit(Samples& x, double knee, double ceiling) {
 std::vector<std::string> AirChain::conditions() const {
   std::vector<std::string> c;
   if (speed != 1) c.push_back("speed");
+  if (tempo != 1) {
+    const double pct = std::fabs(tempo >= 1 ? tempo - 1 : 1 / tempo - 1) * 100;
+    c.push_back(std::string("tempo ") + stretcher_name(stretcher));
+    c.push_back(pct < 2 ? "tempo 0.5-2 %" : pct < 3.5 ? "tempo 2-3.5 %" : "tempo 3.5-5 %");
+  }
   if (coverage < 1) c.push_back("truncated");
   c.push_back(telephone ? "telephone" : "eq");
   if (compressed) c.push_back("compressed");
@@ -186,6 +218,14 @@ AirChain draw_chain(Rng& rng, const ChainOdds& odds) {
                                                      : rng.uniform(3, 20);
   c.noise = static_cast<NoiseColour>(rng.next() % 3);
   c.noise_seed = rng.next();
+  if (c.speed == 1 && odds.tempo > 0) {
+    Rng t(c.noise_seed ^ 0x9e3779b97f4a7c15ULL);
+    if (t.uniform() < odds.tempo) {
+      const double pct = t.uniform(0.5, 5.0);
+      c.tempo = t.uniform() < 0.5 ? 1 + pct / 100 : 1 / (1 + pct / 100);
+      c.stretcher = t.uniform() < 0.5 ? AirChain::Stretcher::sox : AirChain::Stretcher::rubberband;
+    }
+  }
   return c;
 }
 
@@ -193,6 +233,8 @@ Samples render_chain(const Samples& master, double master_rate_hz, const AirChai
   // Resampling to the logger's rate and the speed change in one step: the
   // master's samples taken as if at master_rate * speed.
   Samples x = resample_all(master, master_rate_hz * c.speed, out_rate_hz);
+  if (c.tempo != 1) x = stretch(x, out_rate_hz, c.tempo, c.stretcher);
+  if (x.empty()) return x;
   if (c.coverage < 1) x.resize(static_cast<size_t>(c.coverage * static_cast<double>(x.size())));
   for (const auto& s : c.eq) {
     const double nyq = out_rate_hz * 0.45;

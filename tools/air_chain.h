@@ -1,7 +1,8 @@
 // What a spot passes through between the master and the aircheck, for the
 // benchmark and the tests: one random chain per airing, its parts in the
 // order a real air chain applies them (resampling to the logger's rate,
-// speed change, truncation, EQ, fast compression, gain, polarity); the
+// speed change or a tempo change with the pitch kept, truncation, EQ, fast
+// compression, gain, polarity); the
 // crossfade with the programme, noise and the limiter are applied where the
 // airing is mixed into the recording (air_day.h).
 //
@@ -57,6 +58,14 @@ struct EqStage {
 // straddles two files of different rates is rendered alike in both).
 struct AirChain {
   double speed = 1;              // played this much faster than the master
+  // Or time-stretched, pitch kept (lasting master / tempo) by an outside
+  // stretcher: sox's `tempo` (WSOLA) or rubberband's phase vocoder. Never
+  // both a speed and a tempo change.
+  enum class Stretcher { none, sox, rubberband };
+  double tempo = 1;
+  Stretcher stretcher = Stretcher::none;
+  // How much faster than the master it runs, either way.
+  double time_scale() const { return speed * tempo; }
   double coverage = 1;           // cut at the end to this fraction of the master (truncation)
   std::vector<EqStage> eq;
   bool telephone = false;        // 300-3400 Hz band among the EQ stages
@@ -73,15 +82,20 @@ struct AirChain {
 };
 
 struct ChainOdds {
-  double speed = 0.25, truncate = 0.12, telephone = 0.15, compress = 0.7, polarity = 0.2, crossfade = 0.5;
+  // tempo: of the airings at their master's speed (drawn from the noise
+  // seed, so that a day's other choices stay those of its seed).
+  double speed = 0.25, tempo = 0.15, truncate = 0.12, telephone = 0.15, compress = 0.7, polarity = 0.2, crossfade = 0.5;
   double snr_very_low = 0.06;  // SNR 0-1.5 dB
   double snr_low = 0.10;       // SNR 1.5-3 dB
 };
 
 AirChain draw_chain(Rng& rng, const ChainOdds& odds = {});
 
+const char* stretcher_name(AirChain::Stretcher s);
+
 // The master (mono, at master_rate_hz) through the chain's resampling,
-// speed change, truncation, EQ, compression, gain and polarity, at
+// speed or tempo change (the tempo by running sox or rubberband on files in
+// the system's temporary folder; empty when the tool fails), truncation, EQ, compression, gain and polarity, at
 // out_rate_hz. The first output sample is the master's first sample.
 Samples render_chain(const Samples& master, double master_rate_hz, const AirChain& chain, double out_rate_hz);
 

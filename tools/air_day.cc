@@ -145,13 +145,13 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
 
   // Breaks and programme. Aired masters: all but the never-aired one.
   auto draw_master = [&] { return static_cast<size_t>(rng.next() % kNeverAired); };
-  auto on_air = [&](size_t m, const AirChain& c) { return day.masters[m].duration_s * c.coverage / c.speed; };
+  auto on_air = [&](size_t m, const AirChain& c) { return day.masters[m].duration_s * c.coverage / c.time_scale(); };
   auto plant = [&](PlantKind kind, size_t m, LocalSeconds at, AirChain c) {
     Planted p;
     p.kind = kind;
     p.master = m;
     p.aired_s = at;
-    if (kind == PlantKind::tag_only) c.coverage = 1, c.speed = 1;
+    if (kind == PlantKind::tag_only) c.coverage = 1, c.speed = 1, c.tempo = 1, c.stretcher = AirChain::Stretcher::none;
     p.chain = c;
     p.on_air_s = kind == PlantKind::tag_only ? day.masters[m].tag_s : on_air(m, c);
     day.planted.push_back(p);
@@ -244,7 +244,7 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
   // What of each was recorded, and where.
   for (auto& p : day.planted) {
     const LocalSeconds a = p.aired_s, b = p.aired_s + p.on_air_s;
-    const double full_on_air = p.kind == PlantKind::tag_only ? p.on_air_s : day.masters[p.master].duration_s / p.chain.speed;
+    const double full_on_air = p.kind == PlantKind::tag_only ? p.on_air_s : day.masters[p.master].duration_s / p.chain.time_scale();
     p.coverage = p.on_air_s / full_on_air;
     if (p.chain.coverage < 1) p.cut = "truncated";
     LocalSeconds rec_a = a, rec_b = b;
@@ -265,7 +265,9 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
 
   // The chain's delay for each airing, at the rate of its first file.
   for (auto& p : day.planted) {
-    if (p.kind != PlantKind::airing || p.first_file < 0) continue;
+    // A tempo change has no one delay (the stretcher moves its frames):
+    // its airings are timed against the master's first sample.
+    if (p.kind != PlantKind::airing || p.first_file < 0 || p.chain.tempo != 1) continue;
     const AirMaster& m = day.masters[p.master];
     const double R = day.files[static_cast<size_t>(p.first_file)].rate_hz;
     const Samples head(m.audio.begin(), m.audio.begin() + static_cast<long>(std::min(m.audio.size(), static_cast<size_t>(4 * m.rate_hz))));

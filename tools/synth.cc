@@ -258,4 +258,16 @@ Samples sox_tempo(const Samples& mono, double rate_hz, double factor, const std:
   return d ? d.value() : Samples{};
 }
 
+Samples rubberband_tempo(const Samples& mono, double rate_hz, double factor, const std::string& scratch_dir) {
+  const std::string in = scratch_dir + "/tempo-in.wav", out = scratch_dir + "/tempo-out.wav";
+  if (!write_audio(in, mono, 1, rate_hz).empty()) return {};
+  char cmd[2048];
+  std::snprintf(cmd, sizeof cmd, "rubberband -q -T %.6f '%s' '%s' >/dev/null 2>&1", factor, in.c_str(), out.c_str());
+  if (std::system(cmd) != 0) return {};
+  auto src = open_audio_file(out, ChannelChoice{});
+  if (!src) return {};
+  auto d = decode_all(*src.value(), rate_hz);
+  return d ? d.value() : Samples{};
+}
+
 }  // namespace godwit::synth

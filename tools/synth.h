@@ -53,6 +53,9 @@ std::string write_audio(const std::string& path, const Samples& interleaved, int
 // files in `scratch_dir`; empty when sox is missing or fails. For
 // benchmark airings only (an outside tool, not our code, makes them).
 Samples sox_tempo(const Samples& mono, double rate_hz, double factor, const std::string& scratch_dir);
+// The same by rubberband's phase vocoder (Debian package rubberband-cli,
+// `rubberband -T factor`: tempo multiple, pitch kept).
+Samples rubberband_tempo(const Samples& mono, double rate_hz, double factor, const std::string& scratch_dir);
 
 // Mono to stereo with a little width (right = left delayed 0 samples,
 // slightly different gain), interleaved.

@@ -268,6 +268,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     a.score = d.match.score;
     a.polarity = d.match.polarity;
     a.speed = d.match.speed;
+    a.tempo = d.match.tempo;
     a.coverage = d.profile.coverage;
     a.missing_s = d.profile.missing_s;
     a.foreground_contrast = d.foreground_contrast;
@@ -287,13 +288,14 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   for (auto& a : res.airings) {
     double unrecorded_s = 0;
     for (const auto& [from, to] : a.missing_s) {
-      const auto [out, in] = split_by_cover({a.aired_s + from / a.speed, a.aired_s + to / a.speed}, recorded);
+      const double k = a.time_scale();
+      const auto [out, in] = split_by_cover({a.aired_s + from / k, a.aired_s + to / k}, recorded);
       double out_s = 0;
-      for (const auto& [f, t] : out) out_s += (t - f) * a.speed;
+      for (const auto& [f, t] : out) out_s += (t - f) * k;
       if (out_s <= 0) continue;
       // A frame's slop at the recording's edge still counts as unrecorded.
       if (to - from - out_s < 0.5) out_s = to - from;
-      a.unrecorded_s.push_back(out.front().first <= a.aired_s + from / a.speed + 1e-6
+      a.unrecorded_s.push_back(out.front().first <= a.aired_s + from / k + 1e-6
                                    ? std::pair{from, from + out_s}
                                    : std::pair{to - out_s, to});
       unrecorded_s += out_s;

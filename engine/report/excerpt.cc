@@ -216,7 +216,7 @@ Result<Listening> make_excerpts(const ReconcileResult& r, const SourceOpener& op
     for (const auto& [i, stem] : list) {
       if (stopped()) return Error{ErrorCode::cancelled, "cancelled", "", std::nullopt};
       const AiringRecord& a = r.airings[i];
-      const double air_length_s = a.length_s / (a.speed > 0 ? a.speed : 1.0);
+      const double air_length_s = a.length_s / (a.time_scale() > 0 ? a.time_scale() : 1.0);
       double from_s = a.run_offset_s - o.pad_s, rate = 0;
       auto mono = reader.cut(a.run_offset_s, from_s, a.run_offset_s + air_length_s + o.pad_s, rate);
       const std::string label = stem + " (" + a.spot + " at " + format_iso8601_local(a.aired_s, 3) + ")";

@@ -113,8 +113,12 @@ std::string sparkline(const Profile& p) {
          "profile\"><path d=\"M0 16.8H120\"/><polyline points=\"" + pts + "\"/></svg>";
 }
 
-// "aired at 1.0417x (+4.17 %)" under the score, when the speed changed.
+// "aired at 1.0417x (+4.17 %)" under the score, when the speed changed;
+// "tempo 0.9600x (-4.00 %), pitch kept" when a time-stretcher changed it.
 std::string speed_note(const AiringRecord& a) {
+  if (std::fabs(a.tempo - 1) >= 1e-6)
+    return "<br><span class=\"small speed\">tempo " + fmt("%.4f", a.tempo) + "&times; (" + fmt("%+.2f", (a.tempo - 1) * 100) +
+           " %), pitch kept</span>";
   if (std::fabs(a.speed - 1) < 1e-6) return "";
   return "<br><span class=\"small speed\">aired at " + fmt("%.4f", a.speed) + "&times; (" + fmt("%+.2f", (a.speed - 1) * 100) +
          " %)</span>";
@@ -176,7 +180,7 @@ std::string recording_cell(const AiringRecord& a) {
 std::string listen_picture(const AiringRecord& a, const ExcerptRef& aired, const ExcerptRef* master) {
   const double W = 320, H = 52, mid = 26, half = 23;
   const double D = std::max(aired.duration_s, 0.1);
-  const double speed = a.speed > 0 ? a.speed : 1.0;
+  const double speed = a.time_scale() > 0 ? a.time_scale() : 1.0;
   const double lead_s = -aired.from_s;  // the airing's start in the excerpt
   auto X = [&](double t) { return std::clamp(W * t / D, 0.0, W); };
   auto area = [&](const LevelEnvelope& e, double t0, double t_scale, bool up) {
@@ -253,7 +257,7 @@ std::string listen_cell(const ReconcileResult& r, const HtmlReportOptions& o, si
   };
   std::string s = listen_picture(a, ex, m);
   s += player("aired", ex, "recording, " + fmt("%.0f", -ex.from_s) + " s before the airing to " +
-                               fmt("%.0f", ex.from_s + ex.duration_s - a.length_s / (a.speed > 0 ? a.speed : 1)) +
+                               fmt("%.0f", ex.from_s + ex.duration_s - a.length_s / (a.time_scale() > 0 ? a.time_scale() : 1)) +
                                " s after");
   if (m) s += player("master", *m, "master: " + esc(heard_spot));
   if (planned_spot != heard_spot)
@@ -514,7 +518,7 @@ std::string reconcile_to_html(const ReconcileResult& r, const HtmlReportOptions&
     if (v.airing) served[*v.airing] = &r.placements[v.placement];
   for (size_t i = 0; i < r.airings.size(); ++i) {
     const auto& a = r.airings[i];
-    const double len = a.length_s / (a.speed > 0 ? a.speed : 1.0);
+    const double len = a.length_s / (a.time_scale() > 0 ? a.time_scale() : 1.0);
     if (!inside(a.aired_s, a.aired_s + len)) continue;
     auto sv = served.find(i);
     const Placement* by = sv == served.end() ? nullptr : sv->second;

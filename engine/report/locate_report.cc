@@ -52,6 +52,7 @@ nlohmann::json locate_to_json(const LocateResult& r, bool exact) {
                      {"score", round_decimals(m.score, 4)},
                      {"polarity", m.polarity},
                      {"speed", round_decimals(m.speed, 6)},
+                     {"tempo", round_decimals(m.tempo, 6)},
                      {"refined", m.refined}};
     if (m.coverage) {
       x["coverage"] = round_decimals(*m.coverage, 4);
@@ -104,6 +105,7 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
       m.score = x.at("score").get<double>();
       m.polarity = x.value("polarity", 1);
       m.speed = x.value("speed", 1.0);
+      m.tempo = x.value("tempo", 1.0);
       m.refined = x.value("refined", false);
       m.distinguishing = x.value("distinguishing_score", 0.0);
       m.version_undetermined = x.value("version_undetermined", false);
@@ -124,10 +126,10 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
 }
 
 std::string locate_to_csv(const LocateResult& r) {
-  std::string out = "template,recording,offset_s,score,polarity,speed\r\n";
+  std::string out = "template,recording,offset_s,score,polarity,speed,tempo\r\n";
   char num[128];
   for (const auto& m : r.matches) {
-    std::snprintf(num, sizeof num, ",%.6f,%.4f,%d,%.6f\r\n", m.offset_s, m.score, m.polarity, m.speed);
+    std::snprintf(num, sizeof num, ",%.6f,%.4f,%d,%.6f,%.6f\r\n", m.offset_s, m.score, m.polarity, m.speed, m.tempo);
     out += detail::csv_field(m.template_id) + "," + detail::csv_field(m.recording) + num;
   }
   return out;

@@ -45,7 +45,8 @@ nlohmann::json airing_fields(const AiringRecord& a, const LoudnessOptions& o) {
                    {"recording", a.recording},
                    {"offset_s", detail::round_decimals(a.offset_s, 6)},
                    {"polarity", a.polarity},
-                   {"speed", detail::round_decimals(a.speed, 6)}};
+                   {"speed", detail::round_decimals(a.speed, 6)},
+                   {"tempo", detail::round_decimals(a.tempo, 6)}};
   nlohmann::json missing = nlohmann::json::array();
   for (const auto& [from, to] : a.missing_s) missing.push_back({detail::round_decimals(from, 3), detail::round_decimals(to, 3)});
   j["missing"] = missing;
@@ -182,14 +183,14 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
 std::string reconcile_to_csv(const ReconcileResult& r) {
   std::string out =
       "slot,spot,planned,status,aired,deviation_s,score,coverage,detected_spot,recording,offset_s,spot_lufs,"
-      "programme_lufs,speed\r\n";
+      "programme_lufs,speed,tempo\r\n";
   auto lufs = [](const AiringRecord& a) {
     char b[64];
     std::string s = ",";
     if (a.spot_lufs) std::snprintf(b, sizeof b, "%.1f", *a.spot_lufs), s += b;
     s += ",";
     if (a.programme_lufs) std::snprintf(b, sizeof b, "%.1f", *a.programme_lufs), s += b;
-    std::snprintf(b, sizeof b, ",%.6f", a.speed);
+    std::snprintf(b, sizeof b, ",%.6f,%.6f", a.speed, a.tempo);
     return s + b;
   };
   char num[128];

@@ -11,10 +11,11 @@
 #include "godwit/audio/resampler.h"
 #include "speed/speed_pass.h"
 #include "core/thread_pool.h"
-#include "speed/speed_refiner.h"
+#include "speed_refinement.h"
 
 namespace godwit {
 namespace {
+
 
 Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, const LocateOptions& o,
                                                       std::vector<TemplateReport>& reports,
@@ -73,14 +74,17 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
   // A master once per speed it aired at: decoded at native / speed, it
   // plays at the native rate as it aired.
   std::set<std::pair<size_t, double>> versions;
-  for (const auto& f : found) versions.insert({f.first, f.second.speed});
+  // A tempo change (pitch kept) matches the master only frame by frame:
+  // its offset stays the tempo fit's.
+  for (const auto& f : found)
+    if (f.second.tempo == 1) versions.insert({f.first, f.second.speed});
   for (const auto& [t, speed] : versions) {
     const auto& info = bank.at(t);
     auto master = o.masters->samples(info.path, native / speed);
     if (!master) continue;
     const Samples& tmpl = *master.value();
     for (auto& [ti, m] : found) {
-      if (ti != t || m.speed != speed) continue;
+      if (ti != t || m.speed != speed || m.tempo != 1) continue;
       const double coarse = m.offset_s * native;
       // An airing cut by the start or the end of the recording: silence
       // stands for what was not recorded.
@@ -98,103 +102,6 @@ void refine_matches(const std::string& path, const TemplateBank& bank, const Loc
       }
     }
   }
-}
-
-// Step 2 and 3 of the speed search for the coarse peaks of one recording:
-// spans read in turn from the one source, refined on `threads` threads.
-// `pad` analysis samples of silence preceded the recording in the stream the
-// candidates were found in.
-std::vector<std::pair<size_t, Match>> refine_speed_candidates(const std::string& path, const TemplateBank& bank,
-                                                              const LocateOptions& o,
-                                                              const std::vector<detail::SpeedCandidate>& cands,
-                                                              int64_t pad) {
-  std::vector<std::pair<size_t, Match>> out;
-  if (cands.empty()) return out;
-  auto rec = o.opener(path, o.channel);
-  if (!rec) {
-    if (o.on_diagnostic) o.on_diagnostic(path + ": cannot reopen for the speed search: " + rec.error().message);
-    return out;
-  }
-  AudioSource& src = *rec.value();
-  const double native = src.info().native_rate_hz;
-  const double fs = o.analysis_rate_hz;
-  // Candidates of one master together, so that a batch needs few masters;
-  // a batch's masters are decoded for it and dropped after (a day's job
-  // may have a hundred masters of 30 s: no need to hold them all).
-  std::vector<size_t> order(cands.size());
-  for (size_t i = 0; i < order.size(); ++i) order[i] = i;
-  std::stable_sort(order.begin(), order.end(),
-                   [&](size_t a, size_t b) { return cands[a].template_index < cands[b].template_index; });
-  std::map<size_t, Samples> masters;  // analysis rate
-  // Spans in batches, so memory stays a few spans per thread.
-  detail::ThreadPool pool(o.correlator.threads);
-  detail::FftPlans plans(Planner::estimate);
-  const double margin_s = 0.5;
-  const double low = 1.0 / (1.0 + o.speed.max_deviation) - 1e-3, high = 1.0 + o.speed.max_deviation + 1e-3;
-  std::vector<std::optional<Match>> fitted(cands.size());
-  const size_t batch = 4 * pool.workers();
-  std::vector<size_t> master_len(bank.size(), 0);
-  for (size_t first = 0; first < cands.size(); first += batch) {
-    if (o.should_stop && o.should_stop()) break;
-    const size_t n = std::min(batch, cands.size() - first);
-    std::set<size_t> needed;
-    for (size_t i = 0; i < n; ++i) needed.insert(cands[order[first + i]].template_index);
-    for (auto it = masters.begin(); it != masters.end();) it = needed.count(it->first) ? std::next(it) : masters.erase(it);
-    for (size_t t : needed) {
-      if (masters.count(t)) continue;
-      Samples m;
-      if (auto d = o.masters->samples(bank.at(t).path, fs)) m = *d.value();
-      master_len[t] = m.size();
-      masters.emplace(t, std::move(m));
-    }
-    std::vector<Samples> spans(n);
-    std::vector<double> span_start(n);
-    for (size_t i = 0; i < n; ++i) {
-      const auto& c = cands[order[first + i]];
-      const Samples& master = masters.at(c.template_index);
-      if (master.empty()) continue;
-      const double from_s = (c.offset - static_cast<double>(pad)) / fs - margin_s;
-      const double len_s = static_cast<double>(master.size()) / fs / c.speed * (1 + c.speed_step) + 2 * margin_s;
-      const auto start = static_cast<int64_t>(std::floor(from_s * native));
-      const auto len = static_cast<size_t>(std::ceil(len_s * native));
-      Samples span_native = read_native_span(src, start, len);
-      if (span_native.empty()) continue;
-      // Past the recording's end: silence, as in the plain search, so that
-      // an airing cut by the end is scored on the part that was recorded.
-      span_native.resize(len, 0.0f);
-      spans[i] = resample_all(span_native, native, fs);
-      span_start[i] = static_cast<double>(start) / native * fs;  // analysis samples
-    }
-    pool.run(n, [&](size_t i, size_t) {
-      const auto& c = cands[order[first + i]];
-      if (spans[i].empty()) return;
-      const detail::SpeedSeed seed{c.speed, c.offset - static_cast<double>(pad) - span_start[i], c.speed_step};
-      const auto fit = detail::refine_speed(plans, masters.at(c.template_index), spans[i], fs, seed, detail::EnvelopeBands{});
-      if (!fit || std::fabs(fit->score) < o.picker.threshold) return;
-      if (std::fabs(fit->speed - 1) < o.speed.unit_tolerance || fit->speed < low || fit->speed > high) return;
-      Match m;
-      m.template_id = bank.at(c.template_index).id;
-      m.recording = path;
-      m.offset_s = (span_start[i] + fit->offset) / fs;
-      m.score = fit->score;
-      m.polarity = fit->polarity;
-      m.speed = fit->speed;
-      fitted[order[first + i]] = std::move(m);
-    });
-  }
-  for (size_t i = 0; i < cands.size(); ++i) {
-    if (!fitted[i]) continue;
-    Match& m = *fitted[i];
-    const size_t t = cands[i].template_index;
-    // Two coarse peaks may settle on one airing: keep the better.
-    const double half_s = 0.25 * static_cast<double>(master_len[t]) / fs;
-    auto same = std::find_if(out.begin(), out.end(), [&](const auto& f) {
-      return f.first == t && std::fabs(f.second.offset_s - m.offset_s) < half_s;
-    });
-    if (same == out.end()) out.emplace_back(t, std::move(m));
-    else if (std::fabs(m.score) > std::fabs(same->second.score)) same->second = std::move(m);
-  }
-  return out;
 }
 
 }  // namespace
@@ -320,10 +227,15 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     }
     src_r.value().reset();  // close before reopening for refinement
     if (speed_pass) {
+      // With the tempo fit on, only a clear plain detection keeps the
+      // speed search away from its airing (speed_refinement.h).
+      const bool tempo = o.speed.max_tempo_deviation > 0;
       std::vector<std::pair<size_t, double>> plain;
-      for (const auto& [t, m] : found) plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
+      for (const auto& [t, m] : found)
+        if (!tempo || std::fabs(m.score) >= detail::kClearPlainScore)
+          plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
       const auto cands = speed_pass->candidates(plain, report.duration_s);
-      for (auto& f : refine_speed_candidates(path, *bank, lo, cands, pad)) found.push_back(std::move(f));
+      detail::merge_fits(found, detail::refine_speed_candidates(path, *bank, lo, cands, pad), *bank, o.analysis_rate_hz);
     }
     if (o.refine) refine_matches(path, *bank, lo, found);
     std::vector<Match> matches;

@@ -49,8 +49,12 @@ void add_engine_options(CLI::App* cmd, EngineArgs& a) {
                   "and pitch together); each match reports its speed (default 4.5, which covers the 25/24 "
                   "film-rate change either way)")
       ->check(CLI::Range(0.1, 10.0));
+  cmd->add_option("--max-tempo-change", a.max_tempo_change_pct,
+                  "also find airings time-stretched up to PCT % with their pitch kept (a playout system's "
+                  "time-stretcher); each match reports its tempo beside its speed (default 5; 0: none)")
+      ->check(CLI::Range(0.0, 10.0));
   cmd->add_flag("--no-speed-search", a.no_speed_search,
-                "find only airings at their master's speed (about 1.5-2x faster)");
+                "find only airings at their master's speed and tempo (about 1.5-2x faster)");
 }
 
 std::string EngineSetup::configure(const EngineArgs& a, LocateOptions& o) {
@@ -66,6 +70,7 @@ std::string EngineSetup::configure(const EngineArgs& a, LocateOptions& o) {
   o.refine = !a.no_refine;
   o.speed.enabled = !a.no_speed_search;
   o.speed.max_deviation = a.max_speed_change_pct / 100;
+  o.speed.max_tempo_deviation = a.max_tempo_change_pct / 100;
   cache_ = std::make_unique<FftCache>(a.cache_dir, warn);
   costs_ = cache_->load();
   o.bank.costs = &costs_;

@@ -31,6 +31,7 @@ struct EngineArgs {
   bool no_refine = false;
   double max_speed_change_pct = kDefaultMaxSpeedChangePct;
   bool no_speed_search = false;
+  double max_tempo_change_pct = 5;
 };
 
 void add_engine_options(CLI::App* cmd, EngineArgs& a);

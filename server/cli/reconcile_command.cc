@@ -53,8 +53,12 @@ std::string loudness_cell(const AiringRecord& a) {
 
 // "  speed 1.0417" when the airing ran at another speed than its master.
 std::string speed_note(const AiringRecord& a) {
-  if (std::fabs(a.speed - 1) < 1e-6) return "";
   char b[48];
+  if (std::fabs(a.tempo - 1) >= 1e-6) {
+    std::snprintf(b, sizeof b, "  tempo %.4f", a.tempo);
+    return b;
+  }
+  if (std::fabs(a.speed - 1) < 1e-6) return "";
   std::snprintf(b, sizeof b, "  speed %.4f", a.speed);
   return b;
 }

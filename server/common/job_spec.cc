@@ -31,6 +31,7 @@ Result<std::string> string_field(const nlohmann::json& j, const char* field) {
 
 void search_to_json(const SearchFields& s, nlohmann::json& j) {
   j["max_speed_change_pct"] = s.max_speed_change_pct;
+  j["max_tempo_change_pct"] = s.max_tempo_change_pct;
   if (s.threshold) j["threshold"] = *s.threshold;
   if (s.floor_k) j["floor_k"] = *s.floor_k;
   if (s.fft_size) j["fft_size"] = *s.fft_size;
@@ -41,6 +42,7 @@ void search_to_json(const SearchFields& s, nlohmann::json& j) {
 void SearchFields::apply(LocateOptions& lo) const {
   lo.speed.enabled = max_speed_change_pct > 0;
   lo.speed.max_deviation = max_speed_change_pct / 100;
+  lo.speed.max_tempo_deviation = max_tempo_change_pct / 100;
   if (threshold) lo.picker.threshold = *threshold;
   if (floor_k) lo.picker.floor_k = *floor_k;
   lo.bank.fixed_fft_size = fft_size.value_or(0);
@@ -60,6 +62,9 @@ Result<SearchFields> search_fields_from_json(const nlohmann::json& j) {
   auto speed = number_field(j, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
   s.max_speed_change_pct = speed.value();
+  auto tempo = number_field(j, "max_tempo_change_pct", 0, 10, kDefaultMaxTempoChangePct);
+  if (!tempo) return tempo.error();
+  s.max_tempo_change_pct = tempo.value();
   if (j.contains("threshold")) {
     auto v = number_field(j, "threshold", 0.05, 1.0, 0);
     if (!v) return v.error();

@@ -3,9 +3,10 @@
 //
 // The three kinds a daemon runs:
 //   LocateSpec     {"kind": "locate", "templates": [paths], "recordings": [paths],
-//                   "threshold", "floor_k", "fft_size", "max_speed_change_pct"}
+//                   "threshold", "floor_k", "fft_size", "max_speed_change_pct", "max_tempo_change_pct"}
 //   ReconcileSpec  {"kind": "reconcile", "library", "schedule", "recordings", "window_s",
-//                   "time_zone"?, "station"?, "name_pattern"?, "excerpts"?, "max_speed_change_pct"}
+//                   "time_zone"?, "station"?, "name_pattern"?, "excerpts"?, "max_speed_change_pct",
+//                   "max_tempo_change_pct"}
 //   SegmentSpec    {"kind": "segment", "segment": {...}, "templates": [paths], "evidence"?,
 //                   and the search fields}: one task of a distributed job (task_plan.h)
 // job_spec_to_json writes exactly these (the journal and the queue carry
@@ -35,6 +36,9 @@ namespace godwit {
 // The speed range searched by default, in percent: the engine's
 // (SpeedOptions::max_deviation), for the command line and the daemon alike.
 constexpr double kDefaultMaxSpeedChangePct = 100 * SpeedOptions{}.max_deviation;
+// The tempo range (time-stretched airings, pitch kept) searched by
+// default, in percent: the engine's (SpeedOptions::max_tempo_deviation).
+constexpr double kDefaultMaxTempoChangePct = 100 * SpeedOptions{}.max_tempo_deviation;
 // A planned placement's window when the log states none. Default: 60 s.
 constexpr double kDefaultWindowS = 60;
 
@@ -44,6 +48,7 @@ struct SearchFields {
   std::optional<double> floor_k;     // 0..1000
   std::optional<size_t> fft_size;    // 0 or a power of two up to 2^24
   double max_speed_change_pct = kDefaultMaxSpeedChangePct;  // 0..10; 0 turns the speed search off
+  double max_tempo_change_pct = kDefaultMaxTempoChangePct;  // 0..10; 0 turns the tempo fit off
   // Onto the daemon's options (threads, planner, callbacks stay).
   void apply(LocateOptions& options) const;
 };
@@ -67,7 +72,7 @@ struct ReconcileSpec {
   // (ReconcileOptions::name_pattern).
   std::string name_pattern;
   std::optional<bool> excerpts;   // empty: the daemon's setting
-  SearchFields search;            // only max_speed_change_pct is stated
+  SearchFields search;            // only max_speed_change_pct and max_tempo_change_pct are stated
 };
 
 struct SegmentSpec {

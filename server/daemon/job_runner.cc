@@ -120,6 +120,8 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   // 0 turns the speed search off.
   auto speed = number_field(job, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
+  auto tempo = number_field(job, "max_tempo_change_pct", 0, 10, kDefaultMaxTempoChangePct);  // 0: no tempo fit
+  if (!tempo) return tempo.error();
 
   if (kind == "reconcile") {
     // A configured station's library, zone and file-name pattern serve a
@@ -177,6 +179,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
       out.excerpts = job["excerpts"].get<bool>();
     }
     out.search.max_speed_change_pct = speed.value();
+    out.search.max_tempo_change_pct = tempo.value();
     return job_spec_to_json(out);
   }
   if (kind != "locate") return bad("'kind' must be \"locate\" or \"reconcile\"");

@@ -7,7 +7,7 @@ namespace godwit {
 namespace {
 
 // What a segment reads beyond what it owns: the longest airing (the
-// longest master at the lowest speed searched) plus the reach of the noise
+// longest master at the lowest speed or tempo searched) plus the reach of the noise
 // floor (about 4.4 s each side) and of peak suppression, with room.
 double margin_for(const std::vector<std::string>& templates, double max_speed_change_pct) {
   double longest_s = 0;
@@ -74,9 +74,11 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
   if (!rspec && !lspec) return Error{ErrorCode::bad_request, "only locate and reconcile jobs run as tasks", "", std::nullopt};
   const bool reconcile = rspec != nullptr;
   SegmentSpec base;  // what every task carries
-  base.search.max_speed_change_pct = reconcile ? rspec->search.max_speed_change_pct : lspec->search.max_speed_change_pct;
+  const SearchFields& stated = reconcile ? rspec->search : lspec->search;
+  base.search.max_speed_change_pct = stated.max_speed_change_pct;
+  base.search.max_tempo_change_pct = stated.max_tempo_change_pct;
   base.evidence = true;  // tasks verify their detections (and, for reconcile, measure loudness)
-  const double speed_pct = base.search.max_speed_change_pct;
+  const double speed_pct = std::max(base.search.max_speed_change_pct, base.search.max_tempo_change_pct);
   std::vector<Stream> streams;
   std::vector<std::string> templates;
   std::optional<JobRunner::Reconcile> rec;

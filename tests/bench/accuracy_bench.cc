@@ -66,6 +66,11 @@ struct Scored {
   int eligible = 0, eligible_found = 0, low = 0, low_found = 0;
   int version_confusions = 0, undetermined_with_tag = 0;
   std::vector<double> timing_ms, raw_timing_ms, speed_err, coverage_err;
+  // Tempo-changed airings (pitch kept): the target's (SNR >= 6 dB,
+  // coverage >= 0.5), their tempo and offset errors; airings at their
+  // master's speed and tempo apart, to see that they lost nothing.
+  int tempo_target = 0, tempo_target_found = 0, plain = 0, plain_found = 0, tempo_as_speed = 0, speed_as_tempo = 0;
+  std::vector<double> tempo_err, tempo_offset_ms;
   int complete_called_partial = 0;  // whole airings (SNR >= 3 dB) with coverage under 0.9
   std::vector<std::pair<double, std::string>> worst_coverage;
   std::map<std::string, int> false_alarms;  // by kind
@@ -101,6 +106,7 @@ struct Reported {
   double speed = 1, coverage = -1;
   std::vector<std::string> undetermined;
   std::string file;  // locate: the file it was reported in
+  double tempo = 1;
 };
 
 Scored score(const AirDay& day, const std::vector<Reported>& reported, bool per_file) {
@@ -121,6 +127,14 @@ Scored score(const AirDay& day, const std::vector<Reported>& reported, bool per_
     }
     const bool found = best >= 0;
     if (found) claimed[static_cast<size_t>(best)] = static_cast<int>(pi);
+    if (p.chain.tempo != 1 && p.coverage >= 0.5 && p.chain.snr_db >= 6) {
+      ++s.tempo_target;
+      s.tempo_target_found += found;
+    }
+    if (eligible(p) && p.chain.time_scale() == 1) {
+      ++s.plain;
+      s.plain_found += found;
+    }
     if (eligible(p)) {
       ++s.eligible;
       s.eligible_found += found;
@@ -130,7 +144,8 @@ Scored score(const AirDay& day, const std::vector<Reported>& reported, bool per_
         for (const auto& c : conditions_of(p))
           if (c != "all") d += " " + c;
         char buf[96];
-        std::snprintf(buf, sizeof buf, " (SNR %.1f dB, speed %.4f, coverage %.2f)", p.chain.snr_db, p.chain.speed, p.coverage);
+        std::snprintf(buf, sizeof buf, " (SNR %.1f dB, speed %.4f, tempo %.4f, coverage %.2f)", p.chain.snr_db, p.chain.speed,
+                      p.chain.tempo, p.coverage);
         s.misses.push_back(d + buf);
       }
     } else if (low_snr(p)) {
@@ -144,7 +159,14 @@ Scored score(const AirDay& day, const std::vector<Reported>& reported, bool per_
     const AirMaster& m = day.masters[p.master];
     const bool tag_aired = m.family.empty() || p.coverage * m.duration_s >= m.duration_s - 0.5 * m.tag_s;
     if (undetermined && tag_aired && !m.family.empty()) ++s.undetermined_with_tag;
-    if (eligible(p)) {
+    if (p.chain.tempo != 1) {
+      if (r.speed != 1) ++s.tempo_as_speed;
+      s.tempo_err.push_back(std::fabs(r.tempo / p.chain.tempo - 1) * 100);
+      s.tempo_offset_ms.push_back(std::fabs(r.aired_s - p.aired_s) * 1e3);
+    } else if (p.chain.speed != 1 && r.tempo != 1) {
+      ++s.speed_as_tempo;
+    }
+    if (eligible(p) && p.chain.tempo == 1) {
       s.timing_ms.push_back(std::fabs(r.aired_s - p.aired_s - p.chain_delay_s) * 1e3);
       s.raw_timing_ms.push_back(std::fabs(r.aired_s - p.aired_s) * 1e3);
       if (p.chain.speed != 1) s.speed_err.push_back(std::fabs(r.speed / p.chain.speed - 1) * 100);
@@ -205,6 +227,16 @@ void print_scored(const char* what, const Scored& s, double hours, bool per_cond
               percentile(s.raw_timing_ms, 0.5), percentile(s.raw_timing_ms, 0.95), percentile(s.raw_timing_ms, 1.0));
   std::printf("  speed error (speed-changed): median %.4f %%, max %.4f %%          target <= 0.05 %%\n",
               percentile(s.speed_err, 0.5), percentile(s.speed_err, 1.0));
+  std::printf("  recall, tempo-changed (pitch kept; SNR >= 6 dB, coverage >= 0.5): %.1f %% (%d/%d)   target >= 95 %%\n",
+              100.0 * s.tempo_target_found / std::max(1, s.tempo_target), s.tempo_target_found, s.tempo_target);
+  std::printf("  recall, at the master's speed and tempo (coverage >= 0.5, SNR >= 3 dB): %.1f %% (%d/%d)\n",
+              100.0 * s.plain_found / std::max(1, s.plain), s.plain_found, s.plain);
+  std::printf("  tempo error (tempo-changed, found): median %.4f %%, max %.4f %%     target <= 0.2 %%\n",
+              percentile(s.tempo_err, 0.5), percentile(s.tempo_err, 1.0));
+  std::printf("  offset error (tempo-changed, found): median %.2f ms, p95 %.2f ms, max %.2f ms   target <= 20 ms\n",
+              percentile(s.tempo_offset_ms, 0.5), percentile(s.tempo_offset_ms, 0.95), percentile(s.tempo_offset_ms, 1.0));
+  std::printf("  tempo changes reported as speed changes: %d; speed changes reported as tempo: %d   target 0\n",
+              s.tempo_as_speed, s.speed_as_tempo);
   if (!s.coverage_err.empty())
     std::printf("  coverage error: median %.3f, p95 %.3f, max %.3f                  target <= 0.05\n"
                 "  complete airings with coverage under 0.9: %d                       target 0\n",
@@ -232,6 +264,8 @@ int main(int argc, char** argv) {
   std::string keep;
   bool no_locate = false, verbose = false, reuse = false;
   double threshold = -1, floor_k = -1, min_airing = -1, deficit = -1;
+  bool no_tempo_fit = false;
+  double tempo_odds = -1;
   app.add_option("--hours", hours, "length of the day in hours (default 6)");
   app.add_option("--file-min", file_min, "length of each recording in minutes (default 20)");
   app.add_option("--seed", seed, "scenario seed (default 1)");
@@ -243,6 +277,11 @@ int main(int argc, char** argv) {
   app.add_option("--floor-k", floor_k, "engine --floor-k (default: the engine's)");
   app.add_option("--min-airing-score", min_airing, "reconcile's min_airing_score (default: the engine's)");
   app.add_option("--max-foreground-deficit", deficit, "reconcile's max_foreground_deficit (default: the engine's)");
+  app.add_option("--tempo-odds", tempo_odds,
+                 "share of airings at their master's speed that a stretcher changes the tempo of (default 0.15; more for "
+                 "a closer look at them)")
+      ->check(CLI::Range(0.0, 1.0));
+  app.add_flag("--no-tempo-fit", no_tempo_fit, "engine without the tempo fit (speed search only), for a before/after on one seed");
   double negative_odds = AirDayOptions{}.negative_odds;
   app.add_option("--negative-odds", negative_odds,
                  "share of programme stretches holding a hard negative (default 0.4; 1 for a day to study them)")
@@ -254,6 +293,7 @@ int main(int argc, char** argv) {
   ao.hours = hours;
   ao.file_s = file_min * 60;
   ao.seed = seed;
+  if (tempo_odds >= 0) ao.odds.tempo = tempo_odds;
   ao.reuse = reuse && !keep.empty();
   ao.negative_odds = negative_odds;
   ao.dir = dir.string();
@@ -279,9 +319,18 @@ int main(int argc, char** argv) {
   if (floor_k >= 0) o.locate.picker.floor_k = floor_k;
   if (min_airing >= 0) o.min_airing_score = min_airing;
   if (deficit >= 0) o.max_foreground_deficit = deficit;
+  if (no_tempo_fit) o.locate.speed.max_tempo_deviation = 0;
+  auto cpu_s = [] {
+    rusage u{};
+    getrusage(RUSAGE_SELF, &u);
+    return static_cast<double>(u.ru_utime.tv_sec + u.ru_stime.tv_sec) + 1e-6 * static_cast<double>(u.ru_utime.tv_usec + u.ru_stime.tv_usec);
+  };
+  const double cpu0 = cpu_s();
   auto t0 = std::chrono::steady_clock::now();
   auto res = run_reconcile(job, o);
   const double rec_wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  const double rec_cpu = cpu_s() - cpu0;
+  double loc_cpu = 0;
   if (!res) {
     std::fprintf(stderr, "accuracy_bench: %s\n", res.error().describe().c_str());
     return 1;
@@ -296,7 +345,9 @@ int main(int argc, char** argv) {
     for (const auto& m : day.masters) lj.templates.push_back(m.path);
     for (const auto& f : day.files) lj.recordings.push_back(f.path);
     t0 = std::chrono::steady_clock::now();
+    const double c0 = cpu_s();
     auto l = run_locate_job(lj, o.locate);
+    loc_cpu = cpu_s() - c0;
     loc_wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
     if (!l) {
       std::fprintf(stderr, "accuracy_bench: %s\n", l.error().describe().c_str());
@@ -316,15 +367,16 @@ int main(int argc, char** argv) {
               r.placements.size());
   std::printf("  files:");
   for (const auto& [c, n] : codecs) std::printf(" %s x%d", c.c_str(), n);
-  std::printf("\n  synthesis %.0f s; reconcile wall %.1f s; locate wall %.1f s; peak RSS %.0f MiB\n", synth_s, rec_wall,
-              loc_wall, static_cast<double>(ru.ru_maxrss) / 1024);
+  std::printf("\n  synthesis %.0f s; reconcile wall %.1f s (CPU %.1f s); locate wall %.1f s (CPU %.1f s); peak RSS %.0f MiB\n",
+              synth_s, rec_wall, rec_cpu, loc_wall, loc_cpu, static_cast<double>(ru.ru_maxrss) / 1024);
+  std::printf("  tempo fit: %s\n", no_tempo_fit ? "off (--no-tempo-fit)" : "on");
   std::printf("  reproduce: build/tests/bench/accuracy_bench --hours %g --file-min %g --seed %llu\n", hours, file_min,
               static_cast<unsigned long long>(seed));
 
   std::map<std::string, LocalSeconds> start_of;
   for (const auto& f : day.files) start_of[f.path] = f.start_s;
   std::vector<Reported> rec_reports;
-  for (const auto& a : r.airings) rec_reports.push_back({a.spot, a.aired_s, a.speed, a.coverage, a.undetermined_among, a.recording});
+  for (const auto& a : r.airings) rec_reports.push_back({a.spot, a.aired_s, a.speed, a.coverage, a.undetermined_among, a.recording, a.tempo});
   print_scored("reconcile: airings", score(day, rec_reports, false), hours, true);
 
   if (loc) {
@@ -335,7 +387,7 @@ int main(int argc, char** argv) {
         undetermined.push_back(m.template_id);
         for (const auto& a : m.alternatives) undetermined.push_back(a.template_id);
       }
-      Reported x{m.template_id, start_of[m.recording] + m.offset_s, m.speed, -1, undetermined, m.recording};
+      Reported x{m.template_id, start_of[m.recording] + m.offset_s, m.speed, -1, undetermined, m.recording, m.tempo};
       loc_reports.push_back(x);
     }
     print_scored("locate: matches (siblings beside an airing count as false alarms)", score(day, loc_reports, true), hours,
@@ -347,16 +399,17 @@ int main(int argc, char** argv) {
     for (const auto& p : day.planted) {
       const AirMaster& m = day.masters[p.master];
       std::string line = std::string(plant_kind_name(p.kind)) + " " + m.id + " " + format_iso8601_local(p.aired_s, 3);
-      char buf[128];
-      std::snprintf(buf, sizeof buf, " snr %.1f speed %.4f cov %.2f |", p.chain.snr_db, p.chain.speed, p.coverage);
+      char buf[192];
+      std::snprintf(buf, sizeof buf, " snr %.1f speed %.4f tempo %.4f cov %.2f |", p.chain.snr_db, p.chain.speed,
+                    p.chain.tempo, p.coverage);
       line += buf;
       for (const auto& c : p.conditions) line += " " + c;
       const double start = p.kind == PlantKind::tag_only ? p.aired_s - (m.duration_s - m.tag_s) : p.aired_s;
       const double tol = p.kind == PlantKind::airing ? 0.5 : 0.5 * m.duration_s + 1;
       for (const auto& a : r.airings)
         if (std::fabs(a.aired_s - start) <= tol) {
-          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f contrast %+.3f shape %.3f dt %+.3f ms",
-                        a.spot.c_str(), a.score, a.coverage, a.speed, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
+          std::snprintf(buf, sizeof buf, "\n     R %s score %.3f cov %.2f speed %.4f tempo %.4f contrast %+.3f shape %.3f dt %+.3f ms",
+                        a.spot.c_str(), a.score, a.coverage, a.speed, a.tempo, a.foreground_contrast.value_or(99), a.shape_match.value_or(99),
                         (a.aired_s - start - p.chain_delay_s) * 1e3);
           line += buf;
         }
@@ -370,7 +423,8 @@ int main(int argc, char** argv) {
       if (loc) {
         for (const auto& mm : loc->matches)
           if (std::fabs(start_of[mm.recording] + mm.offset_s - start) <= tol) {
-            std::snprintf(buf, sizeof buf, "\n     L %s score %.3f speed %.4f in %s", mm.template_id.c_str(), mm.score, mm.speed,
+            std::snprintf(buf, sizeof buf, "\n     L %s score %.3f speed %.4f tempo %.4f in %s", mm.template_id.c_str(), mm.score,
+                          mm.speed, mm.tempo,
                           fs::path(mm.recording).filename().c_str());
             line += buf;
           }

@@ -55,7 +55,9 @@ TEST_CASE("an air-chain day: airings found once each, beds and tags alone reject
       bool same = ms[i].template_id == spot;
       for (const auto& alt : ms[i].alternatives) same = same || (ms[i].version_undetermined && alt.template_id == spot);
       if (claimed[i] || !same) continue;
-      if (std::fabs(wall(ms[i]) - p.aired_s - p.chain_delay_s) > 2e-3) continue;  // the first sample, to 2 ms
+      // The first sample, to 2 ms; 20 ms for a tempo change (the tempo
+      // issue's target: a stretcher has no one delay).
+      if (std::fabs(wall(ms[i]) - p.aired_s - p.chain_delay_s) > (p.chain.tempo != 1 ? 0.020 : 2e-3)) continue;
       claimed[i] = hit = true;
       break;
     }
@@ -98,7 +100,7 @@ TEST_CASE("an air-chain day: airings found once each, beds and tags alone reject
           (day.masters[p.master].id == a.spot ||
            std::find(a.undetermined_among.begin(), a.undetermined_among.end(), day.masters[p.master].id) !=
                a.undetermined_among.end()) &&
-          std::fabs(a.aired_s - p.aired_s - p.chain_delay_s) <= 2e-3)
+          std::fabs(a.aired_s - p.aired_s - p.chain_delay_s) <= (p.chain.tempo != 1 ? 0.020 : 2e-3))
         ++matched;
   CHECK(matched == static_cast<int>(rec.value().airings.size()));
   CHECK(matched >= found);

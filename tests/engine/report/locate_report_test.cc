@@ -45,5 +45,5 @@ TEST_CASE("JSON carries the documented names and values") {
 TEST_CASE("CSV quotes fields with commas (RFC 4180)") {
   LocateResult r;
   r.matches.push_back(match("spot-a", "air,1.flac", 1.5, 0.9, 1));
-  CHECK(locate_to_csv(r) == "template,recording,offset_s,score,polarity,speed\r\nspot-a,\"air,1.flac\",1.500000,0.9000,1,1.000000\r\n");
+  CHECK(locate_to_csv(r) == "template,recording,offset_s,score,polarity,speed,tempo\r\nspot-a,\"air,1.flac\",1.500000,0.9000,1,1.000000,1.000000\r\n");
 }

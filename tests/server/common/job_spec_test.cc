@@ -11,10 +11,11 @@ TEST_CASE("prepared jobs and tasks read into types and write back as the same JS
   const nlohmann::json locate{{"kind", "locate"},        {"templates", {"/lib/a.wav", "/lib/b.wav"}},
                               {"recordings", {"/air/x.flac"}}, {"threshold", 0.3},
                               {"floor_k", 10.0},         {"fft_size", 0},
-                              {"max_speed_change_pct", 4.5}};
+                              {"max_speed_change_pct", 4.5}, {"max_tempo_change_pct", 5.0}};
   const nlohmann::json reconcile{{"kind", "reconcile"},   {"library", "/lib"},   {"schedule", "/logs/day.csv"},
                                  {"recordings", {"/air/x.flac"}}, {"window_s", 60.0}, {"time_zone", "Europe/Berlin"},
-                                 {"excerpts", false},     {"max_speed_change_pct", 0.0}};
+                                 {"excerpts", false},     {"max_speed_change_pct", 0.0},
+                                 {"max_tempo_change_pct", 2.0}};
   Segment seg;
   seg.stream = {"run:0", {{"/air/x.flac", 8000 * 3600, 0, 8000}}, 8000, 3600};
   seg.read_to_s = 1800;
@@ -22,7 +23,8 @@ TEST_CASE("prepared jobs and tasks read into types and write back as the same JS
                                {"segment", segment_to_json(seg)},
                                {"templates", {"/lib/a.wav"}},
                                {"evidence", true},
-                               {"max_speed_change_pct", 4.5}};
+                               {"max_speed_change_pct", 4.5},
+                               {"max_tempo_change_pct", 0.0}};
   for (const auto& j : {locate, reconcile, segment}) {
     auto s = job_spec_from_json(j);
     REQUIRE_MESSAGE(s.ok(), s.error().describe());
@@ -36,12 +38,14 @@ TEST_CASE("prepared jobs and tasks read into types and write back as the same JS
   const auto r = std::get<ReconcileSpec>(job_spec_from_json(reconcile).value());
   CHECK(r.excerpts == std::optional<bool>(false));
   CHECK(r.time_zone == "Europe/Berlin");
+  CHECK(r.search.max_tempo_change_pct == 2.0);
   // Absent fields: the defaults, written back as stated.
   auto bare = job_spec_from_json({{"kind", "reconcile"}, {"library", "/lib"}, {"schedule", "/s.csv"}, {"recordings", {"/a"}}});
   REQUIRE(bare.ok());
   const auto& b = std::get<ReconcileSpec>(bare.value());
   CHECK(b.window_s == 60);
   CHECK(b.search.max_speed_change_pct == 4.5);
+  CHECK(b.search.max_tempo_change_pct == 5.0);
   CHECK_FALSE(b.excerpts.has_value());
 }
 
@@ -60,6 +64,12 @@ TEST_CASE("the one default speed range is the engine's and covers the film-rate 
   on.apply(lo);
   CHECK(lo.speed.enabled);
   CHECK(lo.speed.max_deviation == doctest::Approx(0.045));
+  CHECK(lo.speed.max_tempo_deviation == doctest::Approx(0.05));
+  SearchFields no_tempo;
+  no_tempo.max_tempo_change_pct = 0;
+  no_tempo.apply(lo);
+  CHECK(lo.speed.enabled);
+  CHECK(lo.speed.max_tempo_deviation == 0);
   CHECK(lo.picker.threshold == 0.25);
 }
 
@@ -80,6 +90,8 @@ TEST_CASE("a job with a field of the wrong kind or out of range is refused namin
   CHECK(with("threshold", 2.0).find("'threshold' must lie in") == 0);
   CHECK(with("threshold", "high").find("'threshold' must be a number") == 0);
   CHECK(with("max_speed_change_pct", 11).find("'max_speed_change_pct'") == 0);
+  CHECK(with("max_tempo_change_pct", -1).find("'max_tempo_change_pct' must lie in") == 0);
+  CHECK(with("max_tempo_change_pct", "5").find("'max_tempo_change_pct' must be a number") == 0);
   CHECK(with("fft_size", 1000).find("'fft_size' must be a power of two") == 0);
   CHECK(with("templates", "/a.wav").find("'templates'") == 0);
   CHECK(with("recordings", nlohmann::json::array({1})).find("'recordings'") == 0);

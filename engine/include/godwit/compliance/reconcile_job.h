@@ -121,6 +121,11 @@ struct AiringRecord {
   // Aired `speed` times faster than the master (speed_search.h); 1 when
   // unchanged. Coverage, missing ranges and the profile are in master time.
   double speed = 1;
+  // Aired lasting length / `tempo` at the master's pitch (a time-stretcher);
+  // 1 when unchanged. At most one of speed and tempo differs from 1.
+  double tempo = 1;
+  // How much faster than the master the airing runs, either way.
+  double time_scale() const { return speed * tempo; }
   double coverage = 0;
   std::vector<std::pair<double, double>> missing_s;
   // The parts of missing_s that fell outside the recorded time (an airing
@@ -221,7 +226,10 @@ struct DetectionEvidence {
   // Spectral shape match (foreground_contrast.h), set with foreground_contrast.
   std::optional<double> shape_match;
   bool weak = false;
-  double aired_score = 0;  // Pearson of the master and the airing over the aired part (polarity applied)
+  // Pearson of the master and the airing over the aired part (polarity
+  // applied); at another tempo, of the aligned master, taken against the
+  // null level of its alignment ((r - r0) / (1 - r0), tempo_refiner.h).
+  double aired_score = 0;
   std::optional<double> spot_lufs, programme_lufs;
 };
 

@@ -70,6 +70,10 @@ struct Match {
   // The airing plays `speed` times faster than the master (duration
   // master / speed, pitch * speed); 1 when unchanged.
   double speed = 1;
+  // The airing lasts master / `tempo` at the master's pitch (a
+  // time-stretcher; speed_search.h); 1 when unchanged. At most one of speed
+  // and tempo differs from 1.
+  double tempo = 1;
   bool refined = false;   // offset refined at the recording's native rate
   // Sibling versions also detected at this airing (version_choice.h), with
   // their scores; this match is the version whose distinguishing audio

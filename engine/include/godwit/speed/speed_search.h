@@ -22,6 +22,19 @@
 //     correlation of the whole master resampled at the fitted speed, and
 //     it must reach the same threshold as a plain detection.
 //
+// Tempo changes with the pitch kept (a time-stretcher) share step 1: their
+// envelopes are the master's, time-scaled, at nearly the same band edges.
+// Each coarse peak is also tried as a tempo change (tempo_refiner.h:
+// envelopes with the band edges in place, 32 ms segments with a consensus
+// line, a confirmation against the master aligned frame by frame,
+// calibrated by a null alignment); it becomes a Match with `tempo` != 1
+// and `speed` 1 when no speed fits, or when it beats the speed fit's score
+// by 0.2 (search/speed_refinement.cc). A fit is a tempo change only when
+// the envelopes match at least as well with the band edges in place as
+// shifted by the tempo (the spectrum did not move), a speed change only
+// when the resampled master's waveform matches: the two kinds are told
+// apart.
+//
 // Detections that the plain search already made (same master, overlapping
 // in time) are left to it; so are those whose fitted speed is within
 // `unit_tolerance` of 1.
@@ -57,6 +70,11 @@ struct SpeedOptions {
   // A fitted speed closer than this to 1 is a plain airing. Default 2e-5
   // (0.6 ms over 30 s).
   double unit_tolerance = 2e-5;
+  // Tempo changes (pitch kept) searched: 1/(1+d) .. 1+d; the coarse grid
+  // spans the larger of this and `max_deviation`. Default 5 %: what a
+  // playout system squeezes a break by (common practice, from memory).
+  // 0 turns the tempo fit off.
+  double max_tempo_deviation = 0.05;
 };
 
 }  // namespace godwit
