@@ -257,11 +257,19 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return exit_status(ExitCode::io);
   }
+  // With the store of record (and no queue), reconcile jobs and the drop
+  // folder's hours and days search each piece of a recording once
+  // (stored_tasks.h); locate jobs from clients run whole, as before.
+  JobExecutor drop_executor = executor;
+  if (record_r && !distributed) {
+    executor = stored_executor(*record_r.value(), runner, true);
+    drop_executor = stored_executor(*record_r.value(), runner);
+  }
   WorkerPool pool(store, runner, cfg.workers, executor);
   std::unique_ptr<DropFolder> dropper;
   if (!cfg.drop.empty()) {
     dropper = std::make_unique<DropFolder>(DropOptions{cfg.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, cfg.schedules},
-                                           runner, executor);
+                                           runner, drop_executor);
     if (auto st = dropper->start(); !st) {
       std::cerr << "godwitd: " << st.error().describe() << "\n";
       return exit_status(ExitCode::io);
