@@ -26,6 +26,7 @@ import time
 import unittest
 
 ARGS = None
+unittest.TestCase.maxDiff = None
 COMMON = ["--planner", "estimate", "--cache-dir", "", "--no-excerpts", "--quiet"]
 
 
@@ -41,19 +42,18 @@ def reconcile(lib, log, recs, out, state=None):
 
 
 def verdicts(doc):
-    """What a reconcile decides: each placement's verdict with its airing's numbers, then the unscheduled airings.
-    Scores and loudness to the reports' own rounding; offsets to the millisecond."""
-    out = []
-    for p in doc["placements"]:
-        row = [p["slot"], p["spot"], p["status"]]
-        if "aired" in p:
-            row += [p["aired"], os.path.basename(p["recording"]), round(p["offset_s"], 3), p["score"], p["coverage"],
-                    p.get("spot_lufs"), p.get("programme_lufs")]
-        out.append(row)
-    for a in doc["unscheduled"]:
-        out.append(["-", a["spot"], "unscheduled", a["aired"], os.path.basename(a["recording"]),
-                    round(a["offset_s"], 3), a["score"], a["coverage"], a.get("spot_lufs"), a.get("programme_lufs")])
-    return out
+    """What a reconcile decides, whole: every placement's verdict with its airing's evidence (offset, score, coverage,
+    profile, aired part, foreground, loudness), the unscheduled and turned-down detections, the recordings, the
+    cautions; files named by their base name (the drop folder's are elsewhere), no excerpts (none are written)."""
+    def clean(x, key=None):
+        if isinstance(x, dict):
+            return {k: clean(v, k) for k, v in x.items() if k not in ("excerpt", "master_excerpt", "searches", "tasks")}
+        if isinstance(x, list):
+            return [clean(v) for v in x]
+        if key in ("recording", "path", "file", "before", "after") and isinstance(x, str):
+            return os.path.basename(x)
+        return x
+    return clean(doc)
 
 
 class Reuse(unittest.TestCase):
