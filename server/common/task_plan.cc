@@ -55,9 +55,12 @@ std::vector<Segment> split_at_files(const Stream& stream, double margin_s) {
     ends_s.push_back(static_cast<double>(at) / stream.rate_hz);
   }
   const double total_s = ends_s.back();
-  const double m = margin_s;
-  std::vector<std::pair<double, double>> zones{{-kInf, m}};
-  for (size_t i = 0; i + 1 < ends_s.size(); ++i) zones.push_back({ends_s[i] - m, ends_s[i] + m});
+  // An airing owned up to `m` before a meeting point ends within the piece
+  // around it; after the point, that piece owns only the lead, which the
+  // next body reads before what it owns.
+  const double m = margin_s, lead = std::min(kPieceLeadS, m);
+  std::vector<std::pair<double, double>> zones{{-kInf, lead}};
+  for (size_t i = 0; i + 1 < ends_s.size(); ++i) zones.push_back({ends_s[i] - m, ends_s[i] + lead});
   zones.push_back({total_s - m, kInf});
   std::vector<std::pair<double, double>> merged;
   for (const auto& z : zones) {
@@ -73,8 +76,8 @@ std::vector<Segment> split_at_files(const Stream& stream, double margin_s) {
     // a piece reads a file at the phase one process reads it at when files
     // start on whole seconds (segment_task.h).
     s.read_from_s = 0;
-    if (std::isfinite(from_s) && from_s - m > 0) {
-      const double want_s = from_s - m;
+    if (std::isfinite(from_s) && from_s - lead > 0) {
+      const double want_s = from_s - lead;
       double file_start_s = 0;
       for (double end_s : ends_s) {
         if (end_s > want_s) break;

@@ -50,13 +50,16 @@ struct PlanOptions {
 double segment_margin_s(const std::vector<std::string>& templates, double max_speed_change_pct);
 
 // A stream of files cut where its files meet: around each meeting point
-// (and the stream's two ends) a piece owning `margin_s` either side of it,
-// and between them each file's body, owning the rest of the file and
-// reading exactly that file. Every piece reads `margin_s` beyond what it
-// owns (within the stream), so an airing across two files is owned by the
-// piece around their meeting point and found once. Pieces that would
-// overlap (files under two margins long) merge. A stream without parts is
-// one segment.
+// a piece owning `margin_s` before it and kPieceLeadS after it (and one at
+// each end of the stream), and between them each file's body, owning the
+// rest of the file and reading exactly that file. A piece reads
+// kPieceLeadS before what it owns (the reach of the noise floor and of
+// peak suppression; from the 64 s grid of the file it starts in) and
+// `margin_s` after it (the longest airing), within the stream, so an airing
+// across two files is owned by the piece around their meeting point and
+// found once. Pieces that would overlap (short files) merge. A stream
+// without parts is one segment.
+constexpr double kPieceLeadS = 12;
 std::vector<Segment> split_at_files(const Stream& stream, double margin_s);
 
 // `base`: what every task carries (its search fields, whether it gathers

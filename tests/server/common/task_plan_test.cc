@@ -142,7 +142,7 @@ TEST_CASE("split at files: pieces tile the stream and a file's body is the same 
   const double rate = 8000, margin = 50;
   auto file = [&](const char* path, double seconds) { return ConcatPart{path, static_cast<int64_t>(seconds * rate), 0, 0}; };
   Stream alone{"run:0", {file("b.wav", 3600)}, rate, 3600};
-  Stream day{"run:0", {file("a.wav", 3600), file("b.wav", 3600), file("c.wav", 100)}, rate, 7300};
+  Stream day{"run:0", {file("a.wav", 3600), file("b.wav", 3600), file("c.wav", 60)}, rate, 7260};
   for (const Stream* st : {&alone, &day}) {
     const auto pieces = split_at_files(*st, margin);
     REQUIRE(!pieces.empty());
@@ -151,21 +151,23 @@ TEST_CASE("split at files: pieces tile the stream and a file's body is the same 
     for (size_t i = 0; i + 1 < pieces.size(); ++i) CHECK(pieces[i].own_to_s == pieces[i + 1].own_from_s);
     for (const auto& p : pieces) {
       CHECK(p.own_from_s < p.own_to_s);
-      // A margin read either side of what it owns (within the stream), from the 64 s grid of its file.
-      if (std::isfinite(p.own_from_s)) CHECK(p.read_from_s <= p.own_from_s - margin);
+      // The lead read before what it owns, from the 64 s grid of its file, and a margin after (within the stream).
+      if (std::isfinite(p.own_from_s)) CHECK(p.read_from_s <= p.own_from_s - kPieceLeadS);
       if (std::isfinite(p.read_to_s)) CHECK(p.read_to_s >= p.own_to_s + margin);
     }
   }
   // Alone: its start, its body, its end.
   const auto a = split_at_files(alone, margin);
   REQUIRE(a.size() == 3);
-  CHECK(a[1].own_from_s == margin);
+  CHECK(a[1].own_from_s == kPieceLeadS);
   CHECK(a[1].own_to_s == 3600 - margin);
-  // In the day: a's start, a's body, a|b, b's body, and b|c with c's end merged (c is under two margins long).
+  // In the day: a's start, a's body, a|b, b's body, and b|c with c's end merged (c is shorter than a margin and a lead).
   const auto d = split_at_files(day, margin);
   REQUIRE(d.size() == 5);
   CHECK(d[2].own_from_s == 3600 - margin);
-  CHECK(d[2].own_to_s == 3600 + margin);
+  CHECK(d[2].own_to_s == 3600 + kPieceLeadS);
+  CHECK(d[2].read_from_s == 55 * 64);  // the grid point at or before 3550 - 12 s, on a's grid
+  CHECK(d[2].read_to_s == 3600 + kPieceLeadS + margin);
   CHECK(d[4].own_from_s == 7200 - margin);
   // b's body reads exactly b, owning the same part of it, in either run.
   const Segment& body = d[3];

@@ -143,7 +143,7 @@ TEST_CASE("store: each piece searched once, and found again in another run at th
   // b's body, reused, reports its airings at day time: 3600 s later than alone.
   const auto offset = [](const nlohmann::json& doc) { return doc["matches"][0]["offset_s"].get<double>(); };
   CHECK(offset(r2[3 * 2]) == doctest::Approx(offset(r1[1 * 2]) + 3600).epsilon(1e-12));
-  CHECK(offset(r1[1 * 2]) == doctest::Approx(margin + 1));
+  CHECK(offset(r1[1 * 2]) == doctest::Approx(kPieceLeadS + 1));
   CHECK(r2[3 * 2]["recordings"][0]["duration_s"].get<double>() == doctest::Approx(3600 + 10));
   // Other search options are other results.
   StoredTaskRunner other(*store, inner, "other options");
