@@ -192,10 +192,13 @@ Result<std::vector<nlohmann::json>> StoredTaskRunner::run(const std::string& job
                        {"unconfirmed_detections", 0},
                        {"matches", nlohmann::json::array()}};
     nlohmann::json rec = fresh_recording[i];
-    for (auto& row : p.rows) {
+    for (size_t m = 0; m < p.rows.size(); ++m) {
+      nlohmann::json& row = p.rows[m];
       if (row.is_null()) continue;
       doc["analysis_rate_hz"] = row.value("analysis_rate_hz", 8000.0);
-      doc["templates"].push_back(row["template"]);
+      nlohmann::json t = row["template"];
+      t["path"] = p.templates[m];  // as this job names it (the same content may be elsewhere now)
+      doc["templates"].push_back(std::move(t));
       if (rec.is_null() && row["recording"].is_object()) rec = row["recording"];
       for (auto mt : row["matches"]) {
         shift_match(mt, at, name);

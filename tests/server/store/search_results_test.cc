@@ -135,6 +135,18 @@ TEST_CASE("store: each piece searched once, and found again in another run at th
   CHECK(run_tasks(again, alone) == r1);
   CHECK(inner.masters_searched == 9);
   CHECK(again.counts().reused == 9);
+  // The same masters named by another path (a library moved or spelled
+  // otherwise): reused, and reported under the path this job names.
+  std::filesystem::create_directories(dir.file("moved"));
+  std::vector<std::string> moved;
+  for (const auto& m : masters) {
+    moved.push_back(dir.file("moved/" + std::filesystem::path(m).filename().string()));
+    std::filesystem::copy_file(m, moved.back());
+  }
+  StoredTaskRunner elsewhere(*store, inner, "options");
+  const auto r3 = run_tasks(elsewhere, plan_tasks("b", base, {hour_b}, moved, margin, plan));
+  CHECK(elsewhere.counts().reused == 9);
+  CHECK(r3[0]["templates"][0]["path"] == moved[0]);
   // The day: b's body and end are the hour's pieces; only a's pieces and a|b are searched.
   StoredTaskRunner whole(*store, inner, "options");
   const auto r2 = run_tasks(whole, both);
