@@ -102,7 +102,9 @@ std::optional<AirDay> make_air_day(const AirDayOptions& o, std::string* error) {
     if (o.log) o.log(s);
   };
   AirDay day;
-  day.day0 = *parse_iso8601_local("2026-05-20T06:00:00");
+  const auto day0 = parse_iso8601_local(o.start);
+  if (!day0) return fail("not a local date-time: " + o.start);
+  day.day0 = *day0;
   const fs::path dir(o.dir);
   fs::create_directories(dir / "library");
   fs::create_directories(dir / "air");

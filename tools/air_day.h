@@ -34,6 +34,7 @@ struct AirDayOptions {
   double file_s = 1200;  // length of each recording. Default: 20 minutes
   uint64_t seed = 1;
   std::string dir;       // library/, air/ and planned.csv are written here
+  std::string start = "2026-05-20T06:00:00";  // the first recording's start (local)
   bool gap = true;       // a gap of 60-150 s in the timeline, mid-day
   bool reuse = false;    // keep audio files already in dir (made by the same seed and options)
   ChainOdds odds;

@@ -15,6 +15,7 @@
 #include <iostream>
 #include <map>
 
+#include "air_day.h"
 #include "godwit/audio/analysis_stream.h"
 #include "godwit/compliance/civil_time.h"
 #include "godwit/report/html_report.h"
@@ -263,8 +264,27 @@ int main(int argc, char** argv) {
   auto* fixture = app.add_subcommand("report-fixture", "an HTML report of a made-up 24 h day, for rendering tests");
   fixture->add_option("--placements", placements, "placements over the day (default 300)");
   fixture->add_option("--out", fixture_out, "output HTML file")->required();
+  synth::AirDayOptions day_options;
+  double file_min = 60;
+  auto* day = app.add_subcommand("day", "a broadcast day with its library and planned log (air_day.h)");
+  day->add_option("--out", day_options.dir, "output folder (library/, air/, planned.csv)")->required();
+  day->add_option("--hours", day_options.hours, "length of the day in hours (default 6)");
+  day->add_option("--file-min", file_min, "length of each recording in minutes (default 60)");
+  day->add_option("--seed", day_options.seed, "scenario seed (default 1)");
+  day->add_option("--start", day_options.start, "the first recording's start, local (default 2026-05-20T06:00:00)");
+  day->add_flag("--reuse", day_options.reuse, "keep audio a previous run with the same options wrote there");
   CLI11_PARSE(app, argc, argv);
   if (*demo) return make_demo(out);
+  if (*day) {
+    day_options.file_s = file_min * 60;
+    day_options.log = [](const std::string& s) { std::cerr << "godwit-synth: " << s << "\n"; };
+    std::string err;
+    if (!synth::make_air_day(day_options, &err)) {
+      std::cerr << "godwit-synth: " << err << "\n";
+      return 1;
+    }
+    return 0;
+  }
   if (*fixture) return make_report_fixture(fixture_out, placements);
   return 0;
 }

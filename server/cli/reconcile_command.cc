@@ -13,7 +13,10 @@
 #include "godwit/compliance/reconcile_job.h"
 #include "godwit/report/html_report.h"
 #include "godwit/report/reconcile_report.h"
+#include "godwit/audio/master_library.h"
+#include "planned_search.h"
 #include "reconcile_record.h"
+#include "stored_tasks.h"
 #include "json_text.h"
 #include "reconcile_inputs.h"
 #include "report_files.h"
@@ -124,7 +127,32 @@ int run(const ReconcileArgs& a) {
   o.loudness.enabled = !a.no_loudness;
   o.loudness.louder_margin_lu = a.loudness_margin_lu;
   o.loudness.target_lufs = a.loudness_target_lufs;
-  auto result = run_reconcile(job, o);
+  // With a store of record, the search runs as tasks split at the files,
+  // each (piece x master) kept and reused (stored_tasks.h): a day searched
+  // before is searched again only where something changed.
+  std::optional<SearchCounts> searches;
+  Result<ReconcileResult> result = Error{ErrorCode::internal, "not run", "", std::nullopt};
+  if (a.state_dir.empty()) {
+    result = run_reconcile(job, o);
+  } else {
+    auto store = RecordStore::open(a.state_dir);
+    if (!store) return fail(store.error());
+    LocateOptions lo = o.locate;
+    lo.masters = std::make_shared<MasterLibrary>(lo.opener, lo.analysis_rate_hz);  // each master decoded once
+    InProcessTaskRunner here(lo);
+    StoredTaskRunner kept(*store.value(), here, search_fingerprint(o.locate));
+    PlanOptions plan;
+    plan.at_files = true;
+    auto report = o.locate.on_progress;
+    result = reconcile_by_tasks(
+        job, o, kept, plan, "cli", [&](double f) { if (report) {
+            Progress pr;
+            pr.fraction = f;
+            report(pr);
+          } }, o.locate.should_stop,
+        [](std::string_view w) { warn(w); });
+    searches = kept.counts();
+  }
   setup.finish();
   if (!result) {
     if (result.error().code == ErrorCode::cancelled) {
@@ -155,7 +183,11 @@ int run(const ReconcileArgs& a) {
     std::string doc;
     if (f == "csv") doc = reconcile_to_csv(r);
     else if (f == "html") doc = report_html(r, files, o.loudness, heard);
-    else doc = json_text(reconcile_to_json(r, o.loudness, heard), 2) + "\n";
+    else {
+      nlohmann::json j = reconcile_to_json(r, o.loudness, heard);
+      if (searches) j["searches"] = searches->to_json();  // (piece x master) searches run and reused
+      doc = json_text(j, 2) + "\n";
+    }
     if (auto st = write_file_atomically(path, doc); !st) return fail(st.error());
   }
   print_table(r);
@@ -191,6 +223,10 @@ int run(const ReconcileArgs& a) {
          t.before + " and " + t.after);
   if (!a.engine.quiet) {
     std::cerr << "godwit: report written to " << a.out << "\n";
+    if (searches)
+      std::fprintf(stderr, "godwit: %zu (piece x master) searches run, %zu reused from the store; evidence of %zu "
+                   "detections gathered, %zu reused\n", searches->searched, searches->reused,
+                   searches->evidence_gathered, searches->evidence_reused);
     if (heard && !heard->airings.empty()) {
       size_t bytes = 0;
       for (const auto& [i, e] : heard->airings) bytes += e.bytes;

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <map>
 
 #include "godwit/report/locate_report.h"
@@ -31,13 +32,78 @@ struct Found {
 
 }  // namespace
 
+double segment_margin_s(const std::vector<std::string>& templates, double max_speed_change_pct) {
+  double longest_s = 0;
+  for (const auto& t : templates) {
+    auto src = open_audio_file(t);
+    // A master whose length is not stated: assume a long one.
+    const double d = src ? src.value()->info().duration_s().value_or(300.0) : 0.0;
+    longest_s = std::max(longest_s, d);
+  }
+  return longest_s / (1 - std::min(max_speed_change_pct, 50.0) / 100) + 12;
+}
+
+std::vector<Segment> split_at_files(const Stream& stream, double margin_s) {
+  if (stream.parts.empty() || !(stream.rate_hz > 0)) return {Segment{stream}};
+  constexpr double kInf = std::numeric_limits<double>::infinity();
+  // Where each file ends, in stream seconds (as window_parts counts frames).
+  std::vector<double> ends_s;
+  int64_t at = 0;
+  for (const auto& p : stream.parts) {
+    const double own_per_stream = (p.rate_hz > 0 ? p.rate_hz : stream.rate_hz) / stream.rate_hz;
+    at += std::max<int64_t>(0, std::llround(static_cast<double>(p.frames - p.skip_frames) / own_per_stream));
+    ends_s.push_back(static_cast<double>(at) / stream.rate_hz);
+  }
+  const double total_s = ends_s.back();
+  // An airing owned up to `m` before a meeting point ends within the piece
+  // around it; after the point, that piece owns only the lead, which the
+  // next body reads before what it owns.
+  const double m = margin_s, lead = std::min(kPieceLeadS, m);
+  std::vector<std::pair<double, double>> zones{{-kInf, lead}};
+  for (size_t i = 0; i + 1 < ends_s.size(); ++i) zones.push_back({ends_s[i] - m, ends_s[i] + lead});
+  zones.push_back({total_s - m, kInf});
+  std::vector<std::pair<double, double>> merged;
+  for (const auto& z : zones) {
+    if (!merged.empty() && z.first <= merged.back().second) merged.back().second = std::max(merged.back().second, z.second);
+    else merged.push_back(z);
+  }
+  std::vector<Segment> out;
+  auto add = [&](double from_s, double to_s) {
+    Segment s{stream};
+    s.own_from_s = from_s;
+    s.own_to_s = to_s;
+    // Reads start on the kSegmentAlignS grid of the file they start in, so
+    // a piece reads a file at the phase one process reads it at when files
+    // start on whole seconds (segment_task.h).
+    s.read_from_s = 0;
+    if (std::isfinite(from_s) && from_s - lead > 0) {
+      const double want_s = from_s - lead;
+      double file_start_s = 0;
+      for (double end_s : ends_s) {
+        if (end_s > want_s) break;
+        file_start_s = end_s;
+      }
+      s.read_from_s = file_start_s + std::floor((want_s - file_start_s) / kSegmentAlignS) * kSegmentAlignS;
+    }
+    s.read_to_s = std::isfinite(to_s) && to_s + m < total_s ? to_s + m : kInf;
+    out.push_back(std::move(s));
+  };
+  for (size_t k = 0; k < merged.size(); ++k) {
+    add(merged[k].first, merged[k].second);
+    if (k + 1 < merged.size()) add(merged[k].second, merged[k + 1].first);  // a file's body
+  }
+  return out;
+}
+
 std::vector<PlannedTask> plan_tasks(const std::string& job_id, const SegmentSpec& base,
                                     const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                     double margin_s, const PlanOptions& options) {
   std::vector<PlannedTask> out;
   const size_t batch = std::max<size_t>(1, options.templates_per_task);
   for (size_t s = 0; s < streams.size(); ++s) {
-    for (const Segment& seg : split_stream(streams[s], options.span_s, margin_s)) {
+    const auto segments =
+        options.at_files ? split_at_files(streams[s], margin_s) : split_stream(streams[s], options.span_s, margin_s);
+    for (const Segment& seg : segments) {
       for (size_t first = 0; first < templates.size(); first += batch) {
         SegmentSpec task = base;
         task.segment = seg;

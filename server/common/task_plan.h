@@ -38,7 +38,30 @@ struct PlannedTask {
 struct PlanOptions {
   size_t templates_per_task = 25;
   double span_s = 3600;  // a stream over 1.5 spans is split into spans. Default: an hour
+  // Instead of spans: a run of files splits at its files (split_at_files),
+  // so that a file's search is the same task whatever run it is part of,
+  // and can be kept and reused (stored_tasks.h).
+  bool at_files = false;
 };
+
+// What a segment reads beyond what it owns: the longest airing (the
+// longest master at the lowest speed or tempo searched: pass the larger of
+// the two ranges) plus the reach of the noise
+// floor (about 4.4 s each side) and of peak suppression, with room.
+double segment_margin_s(const std::vector<std::string>& templates, double max_speed_change_pct);
+
+// A stream of files cut where its files meet: around each meeting point
+// a piece owning `margin_s` before it and kPieceLeadS after it (and one at
+// each end of the stream), and between them each file's body, owning the
+// rest of the file and reading exactly that file. A piece reads
+// kPieceLeadS before what it owns (the reach of the noise floor and of
+// peak suppression; from the 64 s grid of the file it starts in) and
+// `margin_s` after it (the longest airing), within the stream, so an airing
+// across two files is owned by the piece around their meeting point and
+// found once. Pieces that would overlap (short files) merge. A stream
+// without parts is one segment.
+constexpr double kPieceLeadS = 12;
+std::vector<Segment> split_at_files(const Stream& stream, double margin_s);
 
 // `base`: what every task carries (its search fields, whether it gathers
 // evidence); its segment and templates are set per task. `margin_s`: as

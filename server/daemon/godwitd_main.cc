@@ -297,12 +297,20 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return exit_status(ExitCode::io);
   }
+  // With the store of record (and no queue), reconcile jobs and the drop
+  // folder's hours and days search each piece of a recording once
+  // (stored_tasks.h); locate jobs from clients run whole, as before.
+  JobExecutor drop_executor = executor;
+  if (record_r && !distributed) {
+    executor = stored_executor(*record_r.value(), runner, true);
+    drop_executor = stored_executor(*record_r.value(), runner);
+  }
   WorkerPool pool(store, runner, cfg.workers, executor);
   std::vector<std::unique_ptr<DropFolder>> droppers;
   for (const auto& st : stations) {
     DropOptions o{st.drop, cfg.drop_poll_s, cfg.drop_stable_s, cfg.drop_inotify, st.schedules, st.name_pattern,
                   st.name, st.library, st.time_zone};
-    droppers.push_back(std::make_unique<DropFolder>(o, runner, executor));
+    droppers.push_back(std::make_unique<DropFolder>(o, runner, drop_executor));
     if (auto r = droppers.back()->start(); !r) {
       std::cerr << "godwitd: " << r.error().describe() << "\n";
       return exit_status(ExitCode::io);

@@ -2,23 +2,10 @@
 
 #include "godwit/compliance/timeline_locate.h"
 #include "godwit/report/locate_report.h"
+#include "planned_search.h"
 
 namespace godwit {
 namespace {
-
-// What a segment reads beyond what it owns: the longest airing (the
-// longest master at the lowest speed or tempo searched) plus the reach of the noise
-// floor (about 4.4 s each side) and of peak suppression, with room.
-double margin_for(const std::vector<std::string>& templates, double max_speed_change_pct) {
-  double longest_s = 0;
-  for (const auto& t : templates) {
-    auto src = open_audio_file(t);
-    // A master whose length is not stated: assume a long one.
-    const double d = src ? src.value()->info().duration_s().value_or(300.0) : 0.0;
-    longest_s = std::max(longest_s, d);
-  }
-  return longest_s / (1 - std::min(max_speed_change_pct, 50.0) / 100) + 12;
-}
 
 // A locate job's recording as a stream: split only when it is long and
 // states its length (whole otherwise, exactly as one process reads it).
@@ -34,16 +21,6 @@ Stream recording_stream(const std::string& path, double span_s) {
   return s;
 }
 
-// Every run of a plan's timeline as a stream, under its search name, at its
-// first file's rate (the rate ConcatSource reads it at; later files may
-// have others).
-void add_runs(const ReconcilePlan& plan, std::vector<Stream>& streams) {
-  const Timeline& timeline = plan.timeline;
-  for (size_t i = 0; i < timeline.runs.size(); ++i)
-    streams.push_back({plan.streams.name(RunId{i}), run_parts(timeline, i), timeline.runs[i].files.front().native_rate_hz,
-                       timeline.runs[i].duration_s()});
-}
-
 }  // namespace
 
 Result<std::vector<nlohmann::json>> LocalTaskRunner::run(const std::string& /*job_id*/,
@@ -56,6 +33,7 @@ Result<std::vector<nlohmann::json>> LocalTaskRunner::run(const std::string& /*jo
     if (should_stop()) return Error{ErrorCode::cancelled, "cancelled", "", std::nullopt};
     auto r = runner_.run(tasks[i].spec, [](double) {}, should_stop, warn);
     if (!r) return r.error();
+    counts_.searched += tasks[i].spec.value("templates", nlohmann::json::array()).size();
     results.push_back(std::move(r.value()));
     progress(static_cast<double>(i + 1) / static_cast<double>(tasks.size()));
   }
@@ -78,7 +56,6 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
   base.search.max_speed_change_pct = stated.max_speed_change_pct;
   base.search.max_tempo_change_pct = stated.max_tempo_change_pct;
   base.evidence = true;  // tasks verify their detections (and, for reconcile, measure loudness)
-  const double speed_pct = std::max(base.search.max_speed_change_pct, base.search.max_tempo_change_pct);
   std::vector<Stream> streams;
   std::vector<std::string> templates;
   std::optional<JobRunner::Reconcile> rec;
@@ -90,7 +67,7 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
     if (!r) return r.error();
     rec = std::move(r.value());
     rplan = plan_reconcile(rec->job, rec->options);
-    add_runs(rplan, streams);
+    add_run_streams(rplan, streams);
     templates = rec->job.masters;
   } else {
     base.search = lspec->search;
@@ -101,35 +78,27 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
     lo = runner.locate_options(lspec->search, warn);
     lplan = plan_locate({templates, lspec->recordings}, lo, {});
     for (const auto& a : lplan.alone) streams.push_back(recording_stream(a, plan.span_s));
-    add_runs(lplan.plan, streams);
+    add_run_streams(lplan.plan, streams);
   }
-  const auto tasks = plan_tasks(job_id, base, streams, templates, margin_for(templates, speed_pct), plan);
   // A reconcile job's finish (verification, loudness) follows the tasks.
   const double share = reconcile ? 0.95 : 1.0;
-  auto results = tasks_runner.run(job_id, tasks, [&](double f) { progress(share * f); }, should_stop, warn);
-  if (!results) return results.error();
-  auto merged = merge_results(streams, templates, tasks, results.value());
-  if (!merged) return merged.error();
-  LocateResult& search = merged.value().search;
+  ReconcileOptions evidence_options;
+  if (reconcile) evidence_options = rec->options;
+  else evidence_options.locate = lo;
+  auto found = search_by_tasks(tasks_runner, job_id, base, streams, templates, plan, evidence_options,
+                               [&](double f) { progress(share * f); }, should_stop, warn);
+  if (!found) return found.error();
+  const auto& tasks = found.value().tasks;
+  LocateResult& search = found.value().search;
+  std::vector<std::optional<DetectionEvidence>>& evidence = found.value().evidence;
   auto forget = [&] { tasks_runner.finished(job_id, tasks); };
-  // The evidence the tasks gathered; gathered here should any task have
-  // given none.
-  std::vector<std::optional<DetectionEvidence>> evidence;
-  for (const auto& e : merged.value().evidence) {
-    if (e.is_null()) {
-      evidence.clear();
-      break;
-    }
-    auto x = evidence_from_json(e);
-    if (!x) return x.error();
-    evidence.push_back(std::move(x.value()));
-  }
   if (!reconcile) {
     lo.should_stop = should_stop;
     auto r = finish_locate(lplan, std::move(search), lo, {}, std::move(evidence));
     if (!r) return r.error();
     nlohmann::json out = locate_to_json(r.value());
     out["tasks"] = tasks.size();
+    out["searches"] = tasks_runner.counts().to_json();
     forget();
     return out;
   }
@@ -141,6 +110,7 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
   if (!documents) return documents.error();
   nlohmann::json out = std::move(documents.value());
   out["tasks"] = tasks.size();
+  out["searches"] = tasks_runner.counts().to_json();
   forget();
   return out;
 }

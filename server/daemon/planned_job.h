@@ -24,21 +24,9 @@
 
 #include "job_runner.h"
 #include "task_plan.h"
+#include "task_runner.h"
 
 namespace godwit {
-
-class TaskRunner {
- public:
-  virtual ~TaskRunner() = default;
-  // The results of `tasks` in plan order. Errors: cancelled, a task that
-  // failed (its error), the runner's own (internal).
-  virtual Result<std::vector<nlohmann::json>> run(const std::string& job_id, const std::vector<PlannedTask>& tasks,
-                                                  const std::function<void(double)>& progress,
-                                                  const std::function<bool()>& should_stop,
-                                                  const std::function<void(std::string_view)>& warn) = 0;
-  // Called once the job's result exists: what the runner kept for it may go.
-  virtual void finished(const std::string& /*job_id*/, const std::vector<PlannedTask>& /*tasks*/) {}
-};
 
 // Runs each task here with `runner` (which must outlive it), in plan order.
 class LocalTaskRunner : public TaskRunner {
@@ -54,7 +42,8 @@ class LocalTaskRunner : public TaskRunner {
 };
 
 // A prepared locate or reconcile job (JSON as journaled) run as tasks on
-// `tasks`; the same document as JobRunner::run, plus "tasks": their count.
+// `tasks`; the same document as JobRunner::run, plus "tasks": their count,
+// and "searches": the runner's SearchCounts (task_runner.h).
 // `report`: as JobRunner::run's.
 Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks, const PlanOptions& plan,
                                    const std::string& job_id, const nlohmann::json& spec,

@@ -2,6 +2,7 @@
 
 #include "reconcile_record.h"
 #include "record_requests.h"
+#include "stored_tasks.h"
 
 namespace godwit {
 
@@ -15,6 +16,26 @@ void attach_record_unavailable(const Error& why, Dispatcher& dispatcher) {
     dispatcher.add_op(op, [why](const nlohmann::json&) -> Result<nlohmann::json> {
       return Error{ErrorCode::unavailable, "the store of record is unavailable: " + why.describe(), "", std::nullopt};
     });
+}
+
+JobExecutor stored_executor(RecordStore& store, const JobRunner& runner, bool reconcile_only, JobExecutor otherwise) {
+  if (!otherwise) otherwise = local_executor(runner);
+  return [&store, &runner, reconcile_only, otherwise](
+             const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
+             const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
+             const ReportFiles* report) -> Result<nlohmann::json> {
+    auto typed = job_spec_from_json(spec);
+    if (!typed) return typed.error();
+    const auto* rs = std::get_if<ReconcileSpec>(&typed.value());
+    const auto* ls = std::get_if<LocateSpec>(&typed.value());
+    if (!rs && (!ls || reconcile_only)) return otherwise(id, spec, progress, should_stop, warn, report);
+    const SearchFields& fields = rs ? rs->search : ls->search;
+    LocalTaskRunner here(runner);
+    StoredTaskRunner kept(store, here, search_fingerprint(runner.locate_options(fields, warn)));
+    PlanOptions plan;
+    plan.at_files = true;
+    return run_planned(runner, kept, plan, id, spec, progress, should_stop, warn, report);
+  };
 }
 
 void attach_record(RecordStore& store, RunnerConfig& runner) {

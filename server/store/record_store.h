@@ -122,6 +122,15 @@ struct JobRecord {
   bool searched_all = true;
 };
 
+// A kept search result (stored_tasks.h).
+struct StoredResult {
+  std::string kind;  // "search", "evidence"
+  std::string key_sha256;
+  std::string master_sha256;
+  std::string template_id;
+  std::string result_json;
+};
+
 struct StoreCounts {
   int64_t stations = 0, jobs = 0, recordings = 0, masters = 0, detections = 0, placements = 0, searches = 0;
 };
@@ -153,6 +162,18 @@ class RecordStore {
   // read again); empty otherwise.
   std::optional<std::string> known_sha256(const std::string& station, const std::string& path, int64_t size_bytes,
                                           int64_t mtime_ns);
+
+  // Kept search results (search_results.cc): the one of `kind` under
+  // `key` for the master, if any; rows written in one transaction
+  // (replacing rows of the same keys).
+  std::optional<std::string> stored_result(const std::string& kind, const std::string& key_sha256,
+                                           const std::string& master_sha256, const std::string& template_id);
+  Status store_results(const std::vector<StoredResult>& rows);
+  int64_t stored_results(const std::string& kind);
+  // A file's SHA-256, read from the file_digests table while the file's
+  // device, inode, size and modification time are unchanged (a rename
+  // keeps them), else computed and kept. Errors: file_sha256's.
+  Result<std::string> file_digest(const std::string& path);
 
   Result<StoreCounts> counts();
   int schema_version();

@@ -121,6 +121,26 @@ CREATE INDEX placements_advertiser_time ON placements(advertiser, planned_local)
 CREATE INDEX recordings_station_start ON recordings(station_id, start_local);
 CREATE INDEX jobs_finished ON jobs(finished_utc);
 )sql",
+      // 3: search results kept for reuse, and files' digests by their stat.
+      R"sql(
+CREATE TABLE search_results(
+  kind TEXT NOT NULL,                   -- 'search': a piece's matches; 'evidence': one detection's
+  key_sha256 TEXT NOT NULL,             -- what was read (files by SHA-256, frames), owned, the options, the version
+  master_sha256 TEXT NOT NULL,
+  template_id TEXT NOT NULL,
+  result_json TEXT NOT NULL,
+  stored_utc INTEGER NOT NULL,
+  PRIMARY KEY(kind, key_sha256, master_sha256, template_id)) WITHOUT ROWID;
+CREATE TABLE file_digests(
+  device INTEGER NOT NULL,
+  inode INTEGER NOT NULL,
+  size_bytes INTEGER NOT NULL,
+  mtime_ns INTEGER NOT NULL,
+  sha256 TEXT NOT NULL,
+  path TEXT NOT NULL,                   -- where it was last seen (a rename keeps the rest)
+  PRIMARY KEY(device, inode, size_bytes, mtime_ns)) WITHOUT ROWID;
+CREATE INDEX search_results_stored ON search_results(stored_utc);
+)sql",
   };
   return m;
 }

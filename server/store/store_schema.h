@@ -10,6 +10,9 @@
 //   2  searches (recording x master x search-options fingerprint: what has
 //      been searched, for reusing a recording's search) and the indexes of
 //      the history queries (airings, proof of performance)
+//   3  search_results (a piece of a run x a master: its matches; a
+//      detection's evidence: kept for reuse, stored_tasks.h) and
+//      file_digests (a file's SHA-256 by device, inode, size and mtime)
 //
 // Every row carries its station and the job that wrote it; times on the
 // station's local clock are LocalSeconds (civil_time.h) in *_local columns,

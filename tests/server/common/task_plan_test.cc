@@ -3,6 +3,8 @@
 
 #include <doctest/doctest.h>
 
+#include <cmath>
+#include <limits>
 #include <set>
 
 #include "redis_connection.h"
@@ -129,4 +131,53 @@ TEST_CASE("a detection reported by two neighbouring segments is kept once, with 
   results[1]["evidence"].erase(1);  // evidence for other matches than the task's: refused
   CHECK(!merge_results({s}, templates, tasks, results));
   CHECK(m.value().search.recordings[0].duration_s == 7500);  // the furthest decoded
+}
+
+// Plans split at files (PlanOptions::at_files): the pieces tile the
+// stream, each file's body reads exactly that file wherever it sits in a
+// run, and the point where two files meet is owned by one piece reading
+// a margin into both (so an airing across them is found once).
+TEST_CASE("split at files: pieces tile the stream and a file's body is the same piece in any run") {
+  constexpr double kInf = std::numeric_limits<double>::infinity();
+  const double rate = 8000, margin = 50;
+  auto file = [&](const char* path, double seconds) { return ConcatPart{path, static_cast<int64_t>(seconds * rate), 0, 0}; };
+  Stream alone{"run:0", {file("b.wav", 3600)}, rate, 3600};
+  Stream day{"run:0", {file("a.wav", 3600), file("b.wav", 3600), file("c.wav", 60)}, rate, 7260};
+  for (const Stream* st : {&alone, &day}) {
+    const auto pieces = split_at_files(*st, margin);
+    REQUIRE(!pieces.empty());
+    CHECK(pieces.front().own_from_s == -kInf);
+    CHECK(pieces.back().own_to_s == kInf);
+    for (size_t i = 0; i + 1 < pieces.size(); ++i) CHECK(pieces[i].own_to_s == pieces[i + 1].own_from_s);
+    for (const auto& p : pieces) {
+      CHECK(p.own_from_s < p.own_to_s);
+      // The lead read before what it owns, from the 64 s grid of its file, and a margin after (within the stream).
+      if (std::isfinite(p.own_from_s)) CHECK(p.read_from_s <= p.own_from_s - kPieceLeadS);
+      if (std::isfinite(p.read_to_s)) CHECK(p.read_to_s >= p.own_to_s + margin);
+    }
+  }
+  // Alone: its start, its body, its end.
+  const auto a = split_at_files(alone, margin);
+  REQUIRE(a.size() == 3);
+  CHECK(a[1].own_from_s == kPieceLeadS);
+  CHECK(a[1].own_to_s == 3600 - margin);
+  // In the day: a's start, a's body, a|b, b's body, and b|c with c's end merged (c is shorter than a margin and a lead).
+  const auto d = split_at_files(day, margin);
+  REQUIRE(d.size() == 5);
+  CHECK(d[2].own_from_s == 3600 - margin);
+  CHECK(d[2].own_to_s == 3600 + kPieceLeadS);
+  CHECK(d[2].read_from_s == 55 * 64);  // the grid point at or before 3550 - 12 s, on a's grid
+  CHECK(d[2].read_to_s == 3600 + kPieceLeadS + margin);
+  CHECK(d[4].own_from_s == 7200 - margin);
+  // b's body reads exactly b, owning the same part of it, in either run.
+  const Segment& body = d[3];
+  CHECK(body.own_from_s - body.read_from_s == doctest::Approx(a[1].own_from_s - a[1].read_from_s));
+  CHECK(body.own_to_s - body.read_from_s == doctest::Approx(a[1].own_to_s - a[1].read_from_s));
+  const auto w = window_parts(day.parts, rate, std::llround(body.read_from_s * rate), std::llround(body.read_to_s * rate));
+  REQUIRE(w.size() == 1);
+  CHECK(w[0].path == "b.wav");
+  CHECK(w[0].skip_frames == 0);
+  CHECK(w[0].frames == static_cast<int64_t>(3600 * rate));
+  // A stream read whole stays one segment.
+  CHECK(split_at_files(Stream{"x.wav", {}, rate, 10}, margin).size() == 1);
 }
