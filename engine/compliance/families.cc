@@ -4,6 +4,7 @@
 #include <cmath>
 #include <numeric>
 
+#include "godwit/audio/resampler.h"
 #include "godwit/search/correlator.h"
 #include "godwit/search/template_bank.h"
 #include "search/pearson.h"
@@ -79,11 +80,24 @@ Families find_families(const std::vector<std::string>& ids, const std::vector<Sa
   Families f;
   UnionFind uf(n);
   const size_t seg = std::max<size_t>(16, static_cast<size_t>(o.segment_s * rate_hz));
+  // Screening (FamilyOptions::screen_rate_hz): every pair is first scored
+  // the same way at a low rate, where it costs a few hundredth of the
+  // exact score; only pairs that reach screen_below there are scored
+  // exactly. Siblings share their audio sample for sample, and what they
+  // share stays shared at any rate.
+  const bool screen = o.screen_rate_hz > 0 && o.screen_rate_hz < 0.5 * rate_hz;
+  std::vector<Samples> low;
+  if (screen)
+    for (const auto& m : masters) low.push_back(resample_all(m, rate_hz, o.screen_rate_hz));
   for (size_t i = 0; i < n; ++i) {
     for (size_t j = i + 1; j < n; ++j) {
       const bool declared_pair = declared.count(i) && declared.count(j) && declared.at(i) == declared.at(j);
       // Shorter against longer; lag expressed as j's start in i's time.
       const bool i_short = masters[i].size() <= masters[j].size();
+      if (screen && !declared_pair) {
+        const auto [s, unused] = i_short ? best_alignment(low[i], low[j]) : best_alignment(low[j], low[i]);
+        if (!(s >= o.screen_below)) continue;
+      }
       auto [score, lag] = i_short ? best_alignment(masters[i], masters[j]) : best_alignment(masters[j], masters[i]);
       const double lag_j_in_i = i_short ? -lag : lag;
       if (!(score >= o.threshold) && !declared_pair) continue;

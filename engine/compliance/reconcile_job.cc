@@ -229,7 +229,8 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     if (evidence[i]->weak) {
       ++res.rejected_weak;
       res.rejected.push_back({m.template_id, f.start_s + in_file_s, m.score, m.speed, evidence[i]->profile.coverage,
-                              evidence[i]->aired_score, evidence[i]->foreground_contrast, evidence[i]->shape_match});
+                              evidence[i]->aired_score, evidence[i]->foreground_contrast, evidence[i]->shape_match,
+                              m.tempo});
       continue;
     }
     d.profile = std::move(evidence[i]->profile);

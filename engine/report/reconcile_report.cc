@@ -169,6 +169,7 @@ nlohmann::json reconcile_to_json(const ReconcileResult& r, const LoudnessOptions
                      {"aired", format_iso8601_local(x.aired_s, 3)},
                      {"score", detail::round_decimals(x.score, 4)},
                      {"speed", detail::round_decimals(x.speed, 6)},
+                     {"tempo", detail::round_decimals(x.tempo, 6)},
                      {"coverage", detail::round_decimals(x.coverage, 3)},
                      {"aired_score", detail::round_decimals(x.aired_score, 3)}};
     if (x.foreground_contrast) d["foreground_contrast"] = detail::round_decimals(*x.foreground_contrast, 3);

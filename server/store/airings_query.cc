@@ -107,7 +107,7 @@ Result<AiringsPage> query_airings(SqliteDb& db, const AiringsQuery& q) {
       "SELECT d.id, s.name, d.aired_local, d.spot, d.advertiser, m.title, r.path, r.sha256, d.offset_s, d.score, "
       "d.speed, d.coverage, d.length_s, d.polarity, d.foreground_contrast, d.spot_lufs, d.programme_lufs, "
       "d.missing_json, d.unrecorded_json, d.versions_json, d.undetermined_json, p.status, p.slot, p.spot, p.planned, "
-      "p.deviation_s, j.key "
+      "p.deviation_s, j.key, d.tempo "
       "FROM detections d JOIN stations s ON s.id = d.station_id JOIN recordings r ON r.id = d.recording_id "
       "JOIN masters m ON m.id = d.master_id JOIN jobs j ON j.id = d.job_id "
       "LEFT JOIN placements p ON p.detection_id = d.id "
@@ -148,6 +148,7 @@ Result<AiringsPage> query_airings(SqliteDb& db, const AiringsQuery& q) {
     a.offset_s = s.real(8);
     a.score = s.real(9);
     a.speed = s.real(10);
+    a.tempo = s.real(27);
     a.coverage = s.real(11);
     a.length_s = s.real(12);
     a.polarity = static_cast<int>(s.integer(13));
@@ -180,6 +181,7 @@ nlohmann::json airing_to_json(const AiringRow& a) {
                    {"coverage", rounded(a.coverage, 3)},
                    {"polarity", a.polarity},
                    {"speed", rounded(a.speed, 6)},
+                   {"tempo", rounded(a.tempo, 6)},
                    {"recording", a.recording},
                    {"recording_sha256", a.recording_sha256},
                    {"offset_s", rounded(a.offset_s, 6)},
@@ -205,7 +207,7 @@ nlohmann::json airing_to_json(const AiringRow& a) {
 }
 
 std::string airings_csv_header() {
-  return "station,aired,spot,advertiser,status,slot,planned,deviation_s,score,coverage,polarity,speed,spot_lufs,"
+  return "station,aired,spot,advertiser,status,slot,planned,deviation_s,score,coverage,polarity,speed,tempo,spot_lufs,"
          "programme_lufs,recording,recording_sha256,offset_s\r\n";
 }
 
@@ -226,6 +228,7 @@ std::string airing_to_csv(const AiringRow& a) {
   cell(num(a.coverage, 3));
   cell(std::to_string(a.polarity));
   cell(num(a.speed, 6));
+  cell(num(a.tempo, 6));
   cell(a.spot_lufs ? num(*a.spot_lufs, 1) : std::string());
   cell(a.programme_lufs ? num(*a.programme_lufs, 1) : std::string());
   cell(csv(a.recording));

@@ -41,7 +41,7 @@ struct AiringRow {
   LocalSeconds aired_local = 0;
   std::string spot, advertiser, title;
   std::string recording, recording_sha256;
-  double offset_s = 0, score = 0, speed = 1, coverage = 0, length_s = 0;
+  double offset_s = 0, score = 0, speed = 1, tempo = 1, coverage = 0, length_s = 0;
   int polarity = 1;
   std::optional<double> foreground_contrast, spot_lufs, programme_lufs;
   nlohmann::json missing, not_recorded, versions, undetermined;

@@ -86,13 +86,14 @@ Result<nlohmann::json> build_proof(SqliteDb& db, const ProofQuery& q, const std:
   auto airing = [&](SqliteStatement& s, int col) {
     // aired_local, spot, score, coverage, polarity, speed, spot_lufs,
     // programme_lufs, missing_json, versions_json, undetermined_json, path,
-    // sha256, offset_s (14 columns from `col`)
+    // sha256, offset_s, tempo (15 columns from `col`)
     nlohmann::json a{{"aired", format_iso8601_local(s.real(col), 3)},
                      {"spot", s.text(col + 1)},
                      {"score", rounded(s.real(col + 2), 4)},
                      {"coverage", rounded(s.real(col + 3), 3)},
                      {"polarity", s.integer(col + 4)},
                      {"speed", rounded(s.real(col + 5), 6)},
+                     {"tempo", rounded(s.real(col + 14), 6)},
                      {"missing", parsed(s.text(col + 8))},
                      {"recording", s.text(col + 11)},
                      {"recording_sha256", s.text(col + 12)},
@@ -111,7 +112,7 @@ Result<nlohmann::json> build_proof(SqliteDb& db, const ProofQuery& q, const std:
   };
   const std::string airing_cols =
       "d.aired_local, d.spot, d.score, d.coverage, d.polarity, d.speed, d.spot_lufs, d.programme_lufs, d.missing_json, "
-      "d.versions_json, d.undetermined_json, r.path, r.sha256, d.offset_s";
+      "d.versions_json, d.undetermined_json, r.path, r.sha256, d.offset_s, d.tempo";
 
   // Placements.
   {

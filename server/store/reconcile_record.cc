@@ -80,8 +80,11 @@ std::string search_options_json(const ReconcileOptions& o) {
                    {"threshold", l.picker.threshold},
                    {"floor_k", l.picker.floor_k},
                    {"refine", l.refine},
-                   {"speed", {{"enabled", l.speed.enabled}, {"max_deviation", l.speed.max_deviation}}},
+                   {"speed", {{"enabled", l.speed.enabled},
+                              {"max_deviation", l.speed.max_deviation},
+                              {"max_tempo_deviation", l.speed.max_tempo_deviation}}},
                    {"min_airing_score", o.min_airing_score},
+                   {"min_foreground_evidence", o.min_foreground_evidence},
                    {"min_coverage", o.min_coverage},
                    {"max_foreground_deficit", o.max_foreground_deficit},
                    {"version_margin", o.version_margin},
@@ -159,6 +162,7 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
     d.score = a.score;
     d.polarity = a.polarity;
     d.speed = a.speed;
+    d.tempo = a.tempo;
     d.coverage = a.coverage;
     d.length_s = a.length_s;
     d.foreground_contrast = a.foreground_contrast;

@@ -127,6 +127,7 @@ int run_airings(const RecordArgs& a) {
         r.coverage = j.value("coverage", 0.0);
         r.polarity = j.value("polarity", 1);
         r.speed = j.value("speed", 1.0);
+        r.tempo = j.value("tempo", 1.0);
         const auto l = j.value("loudness", nlohmann::json::object());
         if (l.contains("spot_lufs")) r.spot_lufs = l["spot_lufs"].get<double>();
         if (l.contains("programme_lufs")) r.programme_lufs = l["programme_lufs"].get<double>();

@@ -111,7 +111,7 @@ Status RecordStore::write_job(const JobRecord& job, const std::function<Status(s
 Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(std::string_view, size_t)>& before_row) {
   SqliteDb& db = *writer_;
   auto hook = [&](std::string_view table, size_t i) -> Status { return before_row ? before_row(table, i) : ok_status(); };
-  auto prep = [&](const char* sql) { return db.prepare(sql); };
+  auto prep = [&](const std::string& sql) { return db.prepare(sql); };
 
   // Station.
   auto station_st = prep(
@@ -209,20 +209,30 @@ Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(
     master_rows[m.spot] = &m;
   }
 
-  // Detections: upserted by (recording, master, offset to the ms).
+  // Detections: upserted by (recording, master, offset to the ms). A store
+  // opened at an older schema (tests, and a store being migrated) has no
+  // tempo column: the value is then left out.
+  auto has_tempo = db.scalar("SELECT count(*) FROM pragma_table_info('detections') WHERE name = 'tempo'");
+  if (!has_tempo) return has_tempo.error();
+  const bool tempo_column = has_tempo.value() > 0;
   auto det_st = prep(
-      "INSERT INTO detections(station_id, recording_id, master_id, job_id, spot, advertiser, offset_ms, offset_s, "
-      "aired_local, score, polarity, speed, coverage, length_s, foreground_contrast, spot_lufs, programme_lufs, "
-      "missing_json, unrecorded_json, versions_json, undetermined_json, profile_json, unscheduled) "
-      "VALUES(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18, ?19, ?20, ?21, ?22, ?23) "
+      std::string("INSERT INTO detections(station_id, recording_id, master_id, job_id, spot, advertiser, offset_ms, "
+                  "offset_s, aired_local, score, polarity, speed, coverage, length_s, foreground_contrast, spot_lufs, "
+                  "programme_lufs, missing_json, unrecorded_json, versions_json, undetermined_json, profile_json, "
+                  "unscheduled") +
+      (tempo_column ? ", tempo" : "") +
+      ") VALUES(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18, ?19, ?20, ?21, ?22, "
+      "?23" +
+      (tempo_column ? ", ?24" : "") +
+      ") "
       "ON CONFLICT(recording_id, master_id, offset_ms) DO UPDATE SET job_id = excluded.job_id, spot = excluded.spot, "
       "advertiser = excluded.advertiser, offset_s = excluded.offset_s, aired_local = excluded.aired_local, score = "
       "excluded.score, polarity = excluded.polarity, speed = excluded.speed, coverage = excluded.coverage, length_s = "
       "excluded.length_s, foreground_contrast = excluded.foreground_contrast, spot_lufs = excluded.spot_lufs, "
       "programme_lufs = excluded.programme_lufs, missing_json = excluded.missing_json, unrecorded_json = "
       "excluded.unrecorded_json, versions_json = excluded.versions_json, undetermined_json = "
-      "excluded.undetermined_json, profile_json = excluded.profile_json, unscheduled = excluded.unscheduled "
-      "RETURNING id");
+      "excluded.undetermined_json, profile_json = excluded.profile_json, unscheduled = excluded.unscheduled" +
+      (tempo_column ? ", tempo = excluded.tempo" : "") + " RETURNING id");
   if (!det_st) return det_st.error();
   std::vector<int64_t> detection_ids;
   for (size_t i = 0; i < job.detections.size(); ++i) {
@@ -256,6 +266,7 @@ Status RecordStore::write_rows(const JobRecord& job, const std::function<Status(
         .bind(21, d.undetermined_json)
         .bind(22, d.profile_json)
         .bind(23, d.unscheduled ? 1 : 0);
+    if (tempo_column) det_st.value().bind(24, d.tempo);
     auto id = returned_id(det_st.value(), db, "a detection");
     if (!id) return id.error();
     detection_ids.push_back(id.value());

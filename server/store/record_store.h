@@ -79,6 +79,7 @@ struct DetectionRow {
   double score = 0;
   int polarity = 1;
   double speed = 1;
+  double tempo = 1;  // time-stretched with the pitch kept (speed_search.h)
   double coverage = 0;
   double length_s = 0;
   std::optional<double> foreground_contrast, spot_lufs, programme_lufs;

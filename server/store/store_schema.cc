@@ -141,6 +141,11 @@ CREATE TABLE file_digests(
   PRIMARY KEY(device, inode, size_bytes, mtime_ns)) WITHOUT ROWID;
 CREATE INDEX search_results_stored ON search_results(stored_utc);
 )sql",
+      // 4: an airing's tempo (time-stretched with the pitch kept; 1 when
+      // unchanged, and for every detection stored before it was measured).
+      R"sql(
+ALTER TABLE detections ADD COLUMN tempo REAL NOT NULL DEFAULT 1;
+)sql",
   };
   return m;
 }

@@ -19,6 +19,10 @@
 //                sox's WSOLA `tempo` effect: the same job with the speed
 //                search off and on, CPU time side by side, recall, speed and
 //                offset errors, other detections.
+//   families     sibling discovery over a library of N masters of 20-30 s
+//                (families of 2-3 versions among independent spots): every
+//                pair scored exactly, and screened at 1 kHz first, CPU time
+//                side by side, the families found compared.
 #include <sys/resource.h>
 
 #include <CLI/CLI.hpp>
@@ -31,6 +35,7 @@
 #include <thread>
 
 #include "cache_dir.h"
+#include "godwit/compliance/families.h"
 #include "search/fft_plans.h"
 #include "godwit/search/job.h"
 #include "godwit/audio/memory_source.h"
@@ -428,6 +433,48 @@ int speed(const std::string& cache_dir, double hours) {
   return 0;
 }
 
+int families(size_t n) {
+  const double rate = 8000;
+  std::vector<std::string> ids;
+  std::vector<Samples> masters;
+  for (size_t k = 0; k < n; ++k) {
+    const bool sibling = k % 5 >= 3;  // of every 5: 3 alone, then a version of the one before
+    if (sibling) {
+      Samples m = masters.back();
+      const size_t tag_from = m.size() - static_cast<size_t>(3.5 * rate);
+      const Samples tag = synth::voice(3.0, rate, 9000 + k);
+      std::copy(tag.begin(), tag.end(), m.begin() + static_cast<std::ptrdiff_t>(tag_from));
+      masters.push_back(std::move(m));
+    } else {
+      masters.push_back(synth::spot(20.0 + static_cast<double>(k % 11), rate, 5000 + k));
+    }
+    ids.push_back("m" + std::to_string(k));
+  }
+  std::printf("workload families: %zu masters of 20-30 s at 8 kHz, %zu pairs\n", n, n * (n - 1) / 2);
+  auto timed = [&](const FamilyOptions& o, Families& out) {
+    const double c0 = cpu_seconds();
+    out = find_families(ids, masters, rate, {}, o);
+    return cpu_seconds() - c0;
+  };
+  FamilyOptions exact;
+  exact.screen_rate_hz = 0;
+  Families a, b;
+  const double t_screened = timed(FamilyOptions{}, b);
+  const double t_exact = timed(exact, a);
+  size_t groups = 0;
+  {
+    std::map<size_t, size_t> size;
+    for (size_t f : a.family_of) ++size[f];
+    for (const auto& [f, c] : size) groups += c > 1;
+  }
+  std::printf("                              CPU s   families\n");
+  std::printf("  every pair exact          %7.2f   %zu\n", t_exact, groups);
+  std::printf("  screened at 1 kHz         %7.2f   %s\n", t_screened,
+              a.family_of == b.family_of ? "the same" : "DIFFERENT");
+  std::printf("  exact / screened = %.1f\n", t_exact / std::max(1e-9, t_screened));
+  return a.family_of == b.family_of ? 0 : 1;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -455,7 +502,11 @@ int main(int argc, char** argv) {
   double speed_h = 2;
   auto* sp = app.add_subcommand("speed", "speed-changed airings: cost of the speed search and its recall");
   sp->add_option("--hours", speed_h, "hours (default 2)");
+  size_t fam_n = 100;
+  auto* fm = app.add_subcommand("families", "sibling discovery: every pair exact vs screened at a low rate");
+  fm->add_option("--masters", fam_n, "masters in the library (default 100)");
   CLI11_PARSE(app, argc, argv);
+  if (*fm) return families(fam_n);
   if (*tp) return throughput(k, hours, cache, !no_peers, threads);
   if (*dy) return day(day_k, day_h, cache, !day_plain);
   if (*fa) return false_alarms(cache);

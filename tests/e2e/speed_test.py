@@ -266,6 +266,35 @@ class TempoChanged(unittest.TestCase):
         with open(os.path.join(out, "reconcile.html")) as f:
             self.assertIn("pitch kept", f.read())
 
+    def test_the_record_keeps_each_airings_tempo(self):
+        """Reconciled with --state-dir (each piece searched through the store),
+        the verdicts and tempos equal the plain reconcile's, and `godwit
+        airings` gives every stretched airing its tempo back."""
+        sched = os.path.join(self.tmp.name, "plan-store.csv")
+        with open(sched, "w") as f:
+            f.write("slot,spot,planned,window_s\n")
+            for k, (spot, at, *_) in enumerate(TEMPO_AIRINGS):
+                f.write(f"T{k + 1},{spot},{(START + datetime.timedelta(seconds=at)).isoformat()},30\n")
+        state = os.path.join(self.tmp.name, "record")
+        out = os.path.join(self.tmp.name, "report-store")
+        run("reconcile", "--library", self.lib, "--schedule", sched, "--recording", self.rec, "--out", out,
+            "--state-dir", state, *self.common, check=0)
+        with open(os.path.join(out, "reconcile.json")) as f:
+            stored_doc = json.load(f)
+        p = run("airings", "--state-dir", state, "--from", "2026-03-14", "--to", "2026-03-14", check=0)
+        airings = json.loads(p.stdout)
+        airings = airings["airings"] if isinstance(airings, dict) else airings
+        for spot, at, tempo, how, aired, polarity in TEMPO_AIRINGS:
+            with self.subTest(spot=spot, at=at):
+                when = START + datetime.timedelta(seconds=at)
+                hits = [a for a in airings if a["spot"] == spot and
+                        abs((datetime.datetime.fromisoformat(a["aired"]) - when).total_seconds()) < 0.5]
+                self.assertEqual(len(hits), 1, airings)
+                self.assertLess(abs(hits[0]["tempo"] / tempo - 1), 0.002, hits[0])
+                self.assertEqual(hits[0]["speed"], 1, hits[0])
+        self.assertEqual({p["slot"]: p["status"] for p in stored_doc["placements"]},
+                         {"T1": "aired", "T2": "aired", "T3": "partial", "T4": "aired", "T5": "aired"})
+
     def test_daemon_jobs_find_the_same_and_honour_the_tempo_range(self):
         """A locate job through godwitd on loopback finds what the command
         line finds, tempo included; `max_tempo_change_pct` 0 turns the

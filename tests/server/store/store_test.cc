@@ -87,6 +87,37 @@ TEST_CASE("store: a store created at schema 1 migrates and keeps its rows") {
   CHECK(store->counts().value().detections == 80);
 }
 
+TEST_CASE("store: an airing's tempo is kept, and detections stored before schema 4 read tempo 1") {
+  TempDir dir;
+  {
+    auto v3 = open_store(dir, 3);
+    REQUIRE(v3->write_job(synthetic_day({.airings = 10})).ok());
+  }
+  auto store = open_store(dir);
+  REQUIRE(store->schema_version() == store_schema_version());
+  SyntheticDay later{.day = "2026-03-15", .airings = 10};
+  JobRecord job = synthetic_day(later);
+  REQUIRE(job.detections.size() == 10);
+  job.detections[3].tempo = 0.9712;  // time-stretched, pitch kept
+  REQUIRE(store->write_job(job).ok());
+  AiringsQuery q;
+  q.from_local = at("2026-03-14T00:00:00");
+  q.to_local = at("2026-03-16T00:00:00");
+  const auto rows = all_airings(*store, q);
+  REQUIRE(rows.size() == 20);
+  size_t stretched = 0;
+  for (const auto& a : rows) {
+    if (a.tempo != 1.0) {
+      ++stretched;
+      CHECK(a.tempo == doctest::Approx(0.9712));
+      CHECK(a.aired_local >= at("2026-03-15T00:00:00"));
+      CHECK(airing_to_json(a)["tempo"].get<double>() == doctest::Approx(0.9712));
+    }
+  }
+  CHECK(stretched == 1);
+  CHECK(airings_csv_header().find("speed,tempo,") != std::string::npos);
+}
+
 TEST_CASE("store: a store newer than this build is refused") {
   TempDir dir;
   open_store(dir);

@@ -174,6 +174,7 @@ struct RejectedDetection {
   double score = 0, speed = 1;
   double coverage = 0, aired_score = 0;
   std::optional<double> foreground_contrast, shape_match;
+  double tempo = 1;
 };
 
 struct ReconcileResult {
