@@ -62,6 +62,10 @@ Status load_daemon_config(const std::string& path, DaemonConfig& c) {
   num(t["limits"]["max_inline_mb"], c.max_inline_mb, "limits.max_inline_mb");
   num(t["drop_folder"]["poll_s"], c.drop_poll_s, "drop_folder.poll_s");
   num(t["drop_folder"]["stable_s"], c.drop_stable_s, "drop_folder.stable_s");
+  if (auto n = t["idle_class"]) {
+    if (auto v = n.value<bool>()) c.idle_class = *v;
+    else bad = "idle_class";
+  }
   if (auto n = t["excerpts"]) {
     if (auto v = n.value<bool>()) c.excerpts = *v;
     else bad = "excerpts";

@@ -31,6 +31,9 @@ struct DaemonConfig {
   size_t workers = 1;
   int threads_per_job = 1;
   int job_nice = 10;  // jobs' threads run this much nicer than requests' (job_priority.h)
+  // Jobs' threads and those parsing long request lines in Linux's idle
+  // class: they take only CPU time the I/O and request threads leave.
+  bool idle_class = true;
   std::string token_file;
   std::string log_level = "info";
   std::string planner = "measure";

@@ -74,7 +74,7 @@ void DropFolder::stop() {
 }
 
 void DropFolder::loop() {
-  (void)lower_this_thread_priority(runner_.config().job_nice);  // its jobs run below requests
+  (void)lower_this_thread_priority(runner_.config().job_nice, runner_.config().idle_class);  // its jobs run below requests
   const fs::path incoming = fs::path(o_.dir) / "incoming", work = fs::path(o_.dir) / "work";
   // Claimed before a crash: run again (under a name JSON can carry, for
   // files claimed before names were made so). Anything but a regular file

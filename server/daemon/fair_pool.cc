@@ -58,7 +58,7 @@ size_t FairPool::waiting() const {
 
 void FairPool::loop() {
   ::pthread_setname_np(::pthread_self(), options_.name.substr(0, 15).c_str());
-  lower_this_thread_priority(options_.nice);  // when refused, the thread runs as before
+  lower_this_thread_priority(options_.nice, options_.idle_class);  // when refused, the thread runs as before
   std::unique_lock lock(mu_);
   for (;;) {
     wake_.wait(lock, [this] { return stopping_ || waiting_ > 0; });

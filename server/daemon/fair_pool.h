@@ -41,6 +41,7 @@ class FairPool {
     std::string name = "gw-request";  // at most 15 bytes (Linux thread names)
     int nice = 0;                     // added to the threads' nice value
     double decay_s = 2;               // the cost's time constant
+    bool idle_class = false;          // the threads in Linux's idle class too (job_priority.h)
   };
   explicit FairPool(Options options);
   ~FairPool();

@@ -241,6 +241,7 @@ int main(int argc, char** argv) {
     if (!s.name.empty()) rc.stations.push_back(s);
   rc.threads_per_job = cfg.threads_per_job;
   rc.job_nice = cfg.job_nice;
+  rc.idle_class = cfg.idle_class;
   rc.planner = cfg.planner == "estimate" ? Planner::estimate : Planner::measure;
   rc.costs = cache.load();
   rc.excerpts = cfg.excerpts;
@@ -288,11 +289,11 @@ int main(int argc, char** argv) {
 
   boost::asio::io_context io;
   std::unique_ptr<Server> server;
+  ServerLimits limits{cfg.max_line_bytes, cfg.max_connections, cfg.idle_timeout_s, cfg.read_timeout_s,
+                      cfg.max_connections_per_address, cfg.max_reply_bytes, cfg.watch_heartbeat_s};
+  limits.idle_class = cfg.idle_class;
   try {
-    server = std::make_unique<Server>(io, boost::asio::ip::tcp::endpoint(address, port), dispatcher, store,
-                                      ServerLimits{cfg.max_line_bytes, cfg.max_connections, cfg.idle_timeout_s,
-                                                   cfg.read_timeout_s, cfg.max_connections_per_address,
-                                                   cfg.max_reply_bytes, cfg.watch_heartbeat_s});
+    server = std::make_unique<Server>(io, boost::asio::ip::tcp::endpoint(address, port), dispatcher, store, limits);
   } catch (const std::exception& e) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return exit_status(ExitCode::io);

@@ -260,7 +260,7 @@ Server::Server(boost::asio::io_context& io, const tcp::endpoint& at, Dispatcher&
       limits_(limits),
       counts_(std::make_shared<ConnectionCounts>()),
       requests_(FairPool::Options{4, "gw-request", 0, 2}),
-      heavy_(FairPool::Options{2, "gw-heavy", limits.heavy_nice, 2}) {
+      heavy_(FairPool::Options{2, "gw-heavy", limits.heavy_nice, 2, limits.idle_class}) {
   acceptor_.open(at.protocol());
   acceptor_.set_option(tcp::acceptor::reuse_address(true));
   if (at.address().is_v6()) acceptor_.set_option(boost::asio::ip::v6_only(false));

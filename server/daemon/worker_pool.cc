@@ -55,7 +55,7 @@ void WorkerPool::drain() {
 }
 
 void WorkerPool::loop() {
-  if (!lower_this_thread_priority(runner_.config().job_nice))
+  if (!lower_this_thread_priority(runner_.config().job_nice, runner_.config().idle_class))
     spdlog::warn("cannot lower the priority of a job thread; jobs compete with requests");
   const Fault fault = fault_from_environment();
   while (auto job = store_.take()) {

@@ -67,7 +67,7 @@ void QueueWorker::heartbeat_loop() {
 }
 
 void QueueWorker::loop(size_t slot) {
-  (void)lower_this_thread_priority(runner_.config().job_nice);  // tasks run below requests
+  (void)lower_this_thread_priority(runner_.config().job_nice, runner_.config().idle_class);  // tasks run below requests
   // Each slot reads as its own consumer, so a slot's pending tasks are its own.
   TaskQueue q(url_, name_ + "/" + std::to_string(slot), options_);
   bool group_ready = false;

@@ -21,8 +21,9 @@ Usage: daemon_bench.py --godwit PATH --godwitd PATH --synth PATH [--jobs 6] [--c
    per hostile kind the requests answered or closed within their deadline
    (target: all). Well-behaved and hostile clients run in two processes
    of their own (asyncio; threads), apart from this one; the hostile one,
-   standing for other hosts, in a session of its own at nice +19
-   (--hostile-nice; hostile_clients.py says why). The daemon's cores are
+   standing for other hosts, in a session of its own whose scheduling
+   group runs at nice +19 (--hostile-nice; hostile_clients.py says why);
+   with --clients-nice N the well-behaved ones too, in a group at nice N. The daemon's cores are
    also given by thread: io, requests, heavy (long lines), jobs.
 """
 import argparse
@@ -43,9 +44,13 @@ import hostile_clients
 READ_TIMEOUT_S = 3  # the daemon's, in this benchmark: slowloris lines are closed within the run
 
 
-def well_behaved(port, job, clients, seconds, queue, start_at, interval_s):
+def well_behaved(port, job, clients, seconds, queue, start_at, interval_s, clients_nice=None):
     """`clients` connections, each sending status and health alternately: back to back (interval_s 0), or
     one every interval_s (a late answer delays the next request, no burst follows); latencies by op."""
+    if clients_nice is not None:  # they stand for other hosts: a scheduling group of their own (see --clients-nice)
+        os.setsid()
+        with open("/proc/self/autogroup", "w") as f:
+            f.write(str(clients_nice))
     async def one(k, lat, stop):
         reader, writer = await asyncio.open_connection("127.0.0.1", port)
         reqs = [(json.dumps({"op": "status", "job": job}) + "\n").encode(), b'{"op":"health"}\n']
@@ -131,7 +136,7 @@ def daemon_cpu_split(pid, before, after, total_s):
     return split
 
 
-def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid=None, hostile_nice=19):
+def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid=None, hostile_nice=19, clients_nice=None):
     """Well-behaved clients for `seconds` (and hostile ones beside them): their percentiles, the hostile tally,
     and where the machine's CPU went meanwhile (cores busy: the daemon, split by its threads' work, the clients,
     everything else)."""
@@ -142,7 +147,7 @@ def latency_run(port, job, clients, seconds, hostile, interval_s=0.0, daemon_pid
     ctx = multiprocessing.get_context("fork")
     q_good, q_bad = ctx.Queue(), ctx.Queue()
     start_at = time.time() + 3.0  # both processes connect (and the hostile one makes its lines) first
-    good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at, interval_s))
+    good = ctx.Process(target=well_behaved, args=(port, job, clients, seconds, q_good, start_at, interval_s, clients_nice))
     procs = [good]
     if hostile:
         procs.append(ctx.Process(target=hostile_clients.run, args=(port, seconds, READ_TIMEOUT_S, q_bad, start_at, hostile_nice)))
@@ -177,7 +182,11 @@ def main():
     ap.add_argument("--hostile", action="store_true", help="also measure latency beside hostile clients")
     ap.add_argument("--hostile-seconds", type=float, default=10)
     ap.add_argument("--hostile-nice", type=int, default=19,
-                    help="nice value added to the hostile clients' process (they stand for other hosts)")
+                    help="nice value of the hostile clients' scheduling group (they stand for other hosts)")
+    ap.add_argument("--clients-nice", type=int, default=None,
+                    help="run the well-behaved clients in a scheduling group of their own at this nice value "
+                         "(root for a negative one; they stand for other hosts: their own wait for a core is then "
+                         "not counted as the daemon's latency); default: in the benchmark's group")
     ap.add_argument("--no-throughput", action="store_true", help="skip the throughput comparison")
     a = ap.parse_args()
     tmp = tempfile.mkdtemp(prefix="godwit-dbench-")
@@ -260,12 +269,13 @@ def main():
             runs = {}
             for hostile in (False, True):
                 runs[hostile] = latency_run(port, long_job, a.clients, a.hostile_seconds, hostile, interval_s,
-                                            daemon.pid, a.hostile_nice)
+                                            daemon.pid, a.hostile_nice, a.clients_nice)
             running = req(f, {"op": "status", "job": long_job})["state"]
             pace = "back to back" if not interval_s else f"each one request every {1e3 * interval_s:.0f} ms"
             print(f"latency beside hostile clients: {a.clients} well-behaved clients (asyncio, own process), "
                   f"status+health {pace} for {a.hostile_seconds:.0f} s while a job runs ({running}), "
                   f"alone and beside hostile clients (own process, nice +{a.hostile_nice}); "
+                  + (f"well-behaved clients in a group of their own at nice {a.clients_nice}; " if a.clients_nice is not None else "") +
                   f"daemon read_timeout_s = {READ_TIMEOUT_S}")
             print(f"  {'':24} {'alone':>28} {'beside hostile clients':>28}")
             for op in ("status", "health", "all"):

@@ -938,6 +938,38 @@ class DaemonTests(unittest.TestCase):
         self.assertEqual(set(heavy.values()), {min(base + 5, 19)}, heavy)
         self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
 
+    def test_job_threads_run_in_the_idle_class(self):
+        # By default (idle_class) the threads running a job, the engine's and
+        # those for long request lines are in Linux's idle scheduling class
+        # (SCHED_IDLE, 5 in sched(7)'s numbering, proc(5) stat field 41); the
+        # I/O and request threads are not. idle_class = false leaves them all
+        # in the normal class (0).
+        def policies(d):
+            pol = {}
+            for tid in os.listdir(f"/proc/{d.proc.pid}/task"):
+                with open(f"/proc/{d.proc.pid}/task/{tid}/stat") as f:
+                    head, tail = f.read().rsplit(")", 1)
+                pol[int(tid)] = (head.split("(", 1)[1], int(tail.split()[38]))
+            return pol
+
+        for idle, want in ((True, 5), (False, 0)):
+            d = self.start(extra_config="" if idle else "idle_class = false\n")
+            c = d.connect()
+            job = c.req({"op": "submit", "job": long_job()})["job"]
+            wait_state(c, job, ("running",))
+            time.sleep(0.5)  # the engine's threads started
+            pol = policies(d)
+            self.assertEqual(pol[d.proc.pid][1], 0, pol)  # the I/O thread
+            self.assertEqual({p for n, p in pol.values() if n.startswith("gw-request")}, {0}, pol)
+            self.assertEqual({p for n, p in pol.values() if n.startswith("gw-heavy")}, {want}, pol)
+            # The job's threads (the worker's and the engine's, unnamed).
+            others = {p for tid, (n, p) in pol.items() if tid != d.proc.pid and not n.startswith(("gw-request", "gw-heavy"))}
+            self.assertIn(want, others, pol)
+            if not idle:
+                self.assertNotIn(5, {p for n, p in pol.values()}, pol)
+            self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
+            d.stop()
+
     def test_idle_connections_and_watchers_cannot_lock_clients_out(self):
         d = self.start(extra_config="[limits]\nmax_connections = 8\nmax_connections_per_address = 4\n"
                                     "idle_timeout_s = 2\nwatch_heartbeat_s = 1\n")

@@ -3,6 +3,7 @@
 #include <doctest/doctest.h>
 
 #include <pthread.h>
+#include <sched.h>
 #include <sys/resource.h>
 #include <sys/syscall.h>
 #include <unistd.h>
@@ -123,4 +124,24 @@ TEST_CASE("fair pool: threads are named and run below the caller's priority by t
   CHECK(name == "gw-heavy-test");  // 13 bytes: within Linux's 15
   // Linux caps the nice value at 19 (sched(7)).
   CHECK(nice_seen == std::min(own + 5, 19));
+}
+
+TEST_CASE("fair pool: with idle_class its threads run in Linux's idle scheduling class") {
+  // sched(7): SCHED_IDLE threads run only when nothing else wants the core.
+  for (const bool idle : {true, false}) {
+    FairPool pool(FairPool::Options{1, "gw-idle-test", 0, 2, idle});
+    std::mutex mu;
+    std::condition_variable cv;
+    int policy = -1;
+    pool.post("a", [&] {
+      std::lock_guard lock(mu);
+      policy = ::sched_getscheduler(0);
+      cv.notify_all();
+    });
+    std::unique_lock lock(mu);
+    cv.wait(lock, [&] { return policy != -1; });
+    CHECK(policy == (idle ? SCHED_IDLE : SCHED_OTHER));
+  }
+  // The caller's own thread is left as it was.
+  CHECK(::sched_getscheduler(0) == SCHED_OTHER);
 }
