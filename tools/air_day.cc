@@ -1,3 +1,4 @@
+// Over 400 lines: one day is made in the order it airs (schedule, placements, chains, files), its ground truth written as its audio is.
 #include "air_day.h"
 
 #include <algorithm>

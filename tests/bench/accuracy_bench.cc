@@ -497,6 +497,85 @@ int main(int argc, char** argv) {
   for (const auto& [k, c] : confusion) std::printf("    %-34s %d\n", k.c_str(), c);
   for (const auto& w : wrong) std::printf("    %s\n", w.c_str());
 
+  // The same verdicts judged against what the documented rules
+  // (reconciler.h) give when fed the true airings, as a detector that
+  // found every airing exactly would: where the generator aired two
+  // placements of one spot (or family) the other way round from the
+  // nearest pairing, no audio and no log can tell which airing served
+  // which, and the rules' pairing is the one a person would defend.
+  // Scored over the same placements as above.
+  {
+    std::vector<AiringRef> truth;
+    std::vector<const Planted*> truth_of;
+    for (const auto& p : day.planted) {
+      if (p.kind != PlantKind::airing || p.coverage <= 0) continue;
+      const AirMaster& m = day.masters[p.master];
+      AiringRef a;
+      a.spot = m.id;
+      a.aired_s = p.aired_s;
+      // What was not recorded is not held against the airing (reconcile_job.cc).
+      a.coverage = (p.cut.empty() || p.cut == "truncated") ? p.coverage : 1.0;
+      const bool tag_aired = m.family.empty() || p.cut == "recording_start" ||
+                             p.coverage * m.duration_s >= m.duration_s - 0.5 * m.tag_s;
+      if (!tag_aired)
+        for (const auto& other : day.masters)
+          if (other.family == m.family) a.undetermined_among.push_back(other.id);
+      truth.push_back(std::move(a));
+      truth_of.push_back(&p);
+    }
+    VerdictContext ctx;
+    for (const auto& m : day.masters) ctx.library_length_s[m.id] = m.duration_s;
+    ctx.recorded = recorded;
+    const Reconciliation ideal = reconcile(
+        r.placements, truth, [&](const std::string& a, const std::string& b) { return a != b && same_family(day, a, b); },
+        o.verdicts, ctx);
+    int ok2 = 0, n2 = 0;
+    std::vector<std::string> wrong2;
+    for (const auto& v : r.verdicts) {
+      const auto& pl = r.placements[v.placement];
+      if (auto it = by_slot.find(pl.slot); it != by_slot.end() && !eligible(*it->second)) continue;
+      ++n2;
+      const std::string want = verdict_name(ideal.verdicts[v.placement].status), got = verdict_name(v.status);
+      if (want == got) ++ok2;
+      else if (wrong2.size() < 10)
+        wrong2.push_back(pl.slot + " " + pl.spot + " planned " + format_iso8601_local(pl.planned_s, 0) + ": rules give " +
+                         want + ", got " + got);
+    }
+    std::printf("  verdicts against the rules applied to the true airings: %.1f %% (%d/%d)   target >= 99 %%\n",
+                100.0 * ok2 / std::max(1, n2), ok2, n2);
+    for (const auto& w : wrong2) std::printf("    %s\n", w.c_str());
+    // Unscheduled by the rules on the true airings, against reconcile's.
+    int ideal_n = 0, ideal_found = 0, right = 0;
+    std::vector<bool> used(r.unscheduled.size(), false);
+    std::vector<std::string> notes;
+    for (size_t t : ideal.unscheduled) {
+      const Planted& p = *truth_of[t];
+      if (!eligible(p)) continue;
+      ++ideal_n;
+      bool found = false;
+      for (size_t k = 0; k < r.unscheduled.size() && !found; ++k) {
+        const auto& a = r.airings[r.unscheduled[k]];
+        if (used[k] || std::fabs(a.aired_s - p.aired_s) > 0.5 || !same_family(day, a.spot, day.masters[p.master].id)) continue;
+        used[k] = found = true;
+      }
+      ideal_found += found;
+      if (!found) notes.push_back("not reported unscheduled: " + day.masters[p.master].id + " at " + format_iso8601_local(p.aired_s, 3));
+    }
+    for (size_t k = 0; k < r.unscheduled.size(); ++k) {
+      bool ok_k = used[k];
+      const auto& a = r.airings[r.unscheduled[k]];
+      for (size_t t : ideal.unscheduled)  // one outside the conditions is still right
+        ok_k = ok_k || (std::fabs(a.aired_s - truth_of[t]->aired_s) <= 0.5 &&
+                        same_family(day, a.spot, day.masters[truth_of[t]->master].id));
+      right += ok_k;
+      if (!ok_k) notes.push_back("reported unscheduled, the rules do not: " + a.spot + " at " + format_iso8601_local(a.aired_s, 3));
+    }
+    std::printf("  unscheduled against the rules on the true airings: recall %.1f %% (%d/%d)   precision %.1f %% (%d of %zu)   targets >= 98 %%\n",
+                100.0 * ideal_found / std::max(1, ideal_n), ideal_found, ideal_n,
+                100.0 * right / static_cast<double>(std::max<size_t>(1, r.unscheduled.size())), right, r.unscheduled.size());
+    for (size_t i = 0; i < notes.size() && i < 8; ++i) std::printf("    %s\n", notes[i].c_str());
+  }
+
   // Unscheduled airings: planted airings no placement names, against the
   // airings reconcile left unscheduled.
   int truly_unscheduled = 0, found_unscheduled = 0, right_unscheduled = 0;

@@ -1,4 +1,5 @@
 #!/usr/bin/python3
+# Over 400 lines: every scenario of the record shares one fixture, two stations' mornings made once (minutes of audio).
 """End-to-end tests of the store of record, with real files and real SQLite.
 
 Two fictional stations' mornings (the demo's Kestrel FM, and the same audio
