@@ -32,8 +32,10 @@ struct DaemonConfig {
   int threads_per_job = 1;
   int job_nice = 10;  // jobs' threads run this much nicer than requests' (job_priority.h)
   // Jobs' threads and those parsing long request lines in Linux's idle
-  // class: they take only CPU time the I/O and request threads leave.
-  bool idle_class = true;
+  // class: they take only CPU time the I/O and request threads leave (and,
+  // Linux weighing a group's share of a core by its threads' load, that
+  // other programs leave: for a machine that serves godwitd alone).
+  bool idle_class = false;
   std::string token_file;
   std::string log_level = "info";
   std::string planner = "measure";

@@ -52,7 +52,7 @@ struct RunnerConfig {
   std::vector<StationConfig> stations;
   int threads_per_job = 1;
   int job_nice = 10;  // threads that run jobs lower their priority by this (job_priority.h)
-  bool idle_class = true;  // and run in Linux's idle class (job_priority.h)
+  bool idle_class = false;  // and run in Linux's idle class (job_priority.h)
   Planner planner = Planner::measure;
   FftCostTable costs;  // the cache's, at start
   // Reconcile jobs write excerpts beside their page (a job may say

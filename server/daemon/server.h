@@ -58,7 +58,7 @@ struct ServerLimits {
   size_t heavy_line_bytes = 1u << 20;  // longer request lines are handled on the heavy threads
   size_t heavy_read_bytes = 256u << 10;  // a line longer is read 256 KiB at a time
   int heavy_nice = 5;                  // added to the heavy threads' nice value: below requests, above jobs (job_nice 10)
-  bool idle_class = true;              // the heavy threads in Linux's idle class (job_priority.h; config idle_class)
+  bool idle_class = false;             // the heavy threads in Linux's idle class (job_priority.h; config idle_class)
 };
 
 struct ConnectionCounts;

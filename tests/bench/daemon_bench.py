@@ -183,6 +183,8 @@ def main():
     ap.add_argument("--hostile-seconds", type=float, default=10)
     ap.add_argument("--hostile-nice", type=int, default=19,
                     help="nice value of the hostile clients' scheduling group (they stand for other hosts)")
+    ap.add_argument("--idle-class", action="store_true",
+                    help="the daemon with idle_class = true (jobs and long lines in Linux's idle scheduling class)")
     ap.add_argument("--clients-nice", type=int, default=None,
                     help="run the well-behaved clients in a scheduling group of their own at this nice value "
                          "(root for a negative one; they stand for other hosts: their own wait for a core is then "
@@ -206,7 +208,8 @@ def main():
         cfg = os.path.join(tmp, "d.toml")
         open(cfg, "w").write(f'listen = "127.0.0.1:0"\nstate_dir = "{tmp}/state"\nroots = ["{demo}"]\n'
                              f'library = "{demo}/library"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 2\n'
-                             f'log_level = "warn"\n[limits]\nread_timeout_s = {READ_TIMEOUT_S}\n')
+                             f'log_level = "warn"\nidle_class = {"true" if a.idle_class else "false"}\n'
+                             f'[limits]\nread_timeout_s = {READ_TIMEOUT_S}\n')
         daemon = subprocess.Popen([a.godwitd, "--config", cfg], stdout=subprocess.PIPE, text=True)
         port = json.loads(daemon.stdout.readline())["port"]
 

@@ -939,11 +939,11 @@ class DaemonTests(unittest.TestCase):
         self.assertTrue(c.req({"op": "cancel", "job": job})["ok"])
 
     def test_job_threads_run_in_the_idle_class(self):
-        # By default (idle_class) the threads running a job, the engine's and
+        # With idle_class = true the threads running a job, the engine's and
         # those for long request lines are in Linux's idle scheduling class
         # (SCHED_IDLE, 5 in sched(7)'s numbering, proc(5) stat field 41); the
-        # I/O and request threads are not. idle_class = false leaves them all
-        # in the normal class (0).
+        # I/O and request threads are not. By default (false) all are in the
+        # normal class (0).
         def policies(d):
             pol = {}
             for tid in os.listdir(f"/proc/{d.proc.pid}/task"):
@@ -953,7 +953,7 @@ class DaemonTests(unittest.TestCase):
             return pol
 
         for idle, want in ((True, 5), (False, 0)):
-            d = self.start(extra_config="" if idle else "idle_class = false\n")
+            d = self.start(extra_config="idle_class = true\n" if idle else "")
             c = d.connect()
             job = c.req({"op": "submit", "job": long_job()})["job"]
             wait_state(c, job, ("running",))
