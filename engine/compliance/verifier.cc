@@ -101,12 +101,25 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   std::vector<bool> loud(n);
   for (size_t k = 0; k < n; ++k) loud[k] = energy[k] > kSilentEnergy && energy[k] >= quiet;
 
-  // Weights s - mu/2: loud frames the recording holds; quiet frames weigh
-  // nothing; frames it does not hold weigh -mu/2 (nothing of them aired on
-  // the record).
+  // The level each frame would score if it aired: mu * shape[k]. In noise
+  // of power N a frame of the master's power E scores about
+  // sqrt(E / (E + N)) of what it scores without (the correlation of a
+  // signal with itself plus independent noise), so at a low SNR a quieter
+  // stretch (a soft ending) scores under the airing's level though it
+  // aired. N is fitted to the aired part (fit_shape); shape is 1 (a level
+  // alike for every loud frame) until then, and where noise is slight.
+  std::vector<double> shape(n, 1.0);
+  // Weights, the log-likelihood ratio of "aired at level m = mu * shape"
+  // against the null level 0 for Gaussian scores of equal spread, in units
+  // of mu / sigma^2: (m / mu) (s - m / 2). Loud frames the recording
+  // holds; quiet frames weigh nothing; frames it does not hold weigh as a
+  // score of 0 (nothing of them aired on the record).
   auto weights = [&](double mu) {
     std::vector<double> w(n, 0);
-    for (size_t k = 0; k < n; ++k) w[k] = !held[k] ? -mu / 2 : loud[k] ? score[k] - mu / 2 : 0;
+    for (size_t k = 0; k < n; ++k) {
+      const double m = mu * shape[k];
+      w[k] = !held[k] ? -m * m / (2 * mu) : loud[k] ? m / mu * (score[k] - m / 2) : 0;
+    }
     return w;
   };
   std::vector<double> loud_scores;
@@ -115,6 +128,40 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   std::sort(loud_scores.begin(), loud_scores.end());
   double mu = loud_scores.empty() ? 0 : loud_scores[loud_scores.size() * 3 / 4];  // the upper quartile first
   std::pair<size_t, size_t> iv{0, 0};
+  // Fits the noise power N over the aired part [from, to): among N from 0
+  // to 16 times the median frame's power, the one whose shape explains the
+  // loud frames' scores best (least squares, the level q fitted with it);
+  // sets shape and returns q (0 when no frame can tell).
+  auto fit_shape = [&](size_t from, size_t to) {
+    double best_sse = -1, best_q = 0, best_n = 0;
+    const double e_med = median(audible_energy);
+    for (double c : {0.0, 1.0 / 64, 1.0 / 32, 1.0 / 16, 1.0 / 8, 0.25, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0}) {
+      const double noise = c * e_med;
+      double sf = 0, ff = 0, ss = 0;
+      for (size_t k = from; k < to; ++k) {
+        if (!loud[k] || !held[k]) continue;
+        const double f = std::sqrt(energy[k] / (energy[k] + noise));
+        sf += score[k] * f, ff += f * f, ss += score[k] * score[k];
+      }
+      if (ff <= 0) return 0.0;
+      const double q = sf / ff, sse = ss - q * sf;
+      if (best_sse < 0 || sse < best_sse - 1e-12) best_sse = sse, best_q = q, best_n = noise;
+    }
+    // Normalized to the loud frames' median, so that mu keeps its meaning
+    // (the aired part's typical score).
+    std::vector<double> f_loud;
+    for (size_t k = 0; k < n; ++k) {
+      shape[k] = energy[k] > 0 ? std::sqrt(energy[k] / (energy[k] + best_n)) : 0.0;
+      if (k >= from && k < to && loud[k] && held[k]) f_loud.push_back(shape[k]);
+    }
+    const double f_med = median(f_loud);
+    if (f_med <= 0) {
+      std::fill(shape.begin(), shape.end(), 1.0);
+      return 0.0;
+    }
+    for (double& f : shape) f /= f_med;
+    return best_q * f_med;
+  };
   for (int pass = 0; pass < 2 && mu > 0; ++pass) {
     iv = best_interval(weights(mu));
     std::vector<double> inside;
@@ -122,6 +169,15 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
       if (loud[k] && held[k]) inside.push_back(score[k]);
     if (inside.empty()) break;
     mu = median(inside);
+  }
+  // The level frame by frame, fitted to the aired part found so far; the
+  // aired part again with it.
+  if (mu > 0 && iv.first < iv.second && fit_shape(iv.first, iv.second) > 0) {
+    iv = best_interval(weights(mu));
+    std::vector<double> inside;
+    for (size_t k = iv.first; k < iv.second; ++k)
+      if (loud[k] && held[k]) inside.push_back(score[k]);
+    if (!inside.empty()) mu = median(inside);
   }
   if (mu <= 0 || iv.first == iv.second) {  // nothing aired that the frames can tell
     p.coverage = 0;
@@ -133,8 +189,9 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   p.aired_level = mu;
   // Widen over quiet frames, and over a crossfade, at each edge.
   const size_t fade = static_cast<size_t>(std::ceil(kCrossfadeS / frame_s));
-  const double faded = std::max(kCrossfadeFloor, mu * kCrossfadeLevel);
-  auto widen = [&](size_t k) { return held[k] && (!loud[k] || score[k] >= faded); };
+  auto widen = [&](size_t k) {
+    return held[k] && (!loud[k] || score[k] >= std::max(kCrossfadeFloor, mu * shape[k] * kCrossfadeLevel));
+  };
   for (size_t f = 0; iv.first > 0 && widen(iv.first - 1) && (!loud[iv.first - 1] || f < fade); ++f) --iv.first;
   for (size_t f = 0; iv.second < n && widen(iv.second) && (!loud[iv.second] || f < fade); ++f) ++iv.second;
   const size_t edge = static_cast<size_t>(std::floor(kEdgeS / frame_s + 1e-9));
@@ -150,7 +207,7 @@ Profile verify_airing(const Samples& master, const Samples& airing, double rate_
   // the spread of the aired frames' scores (robust, at least 0.02).
   std::vector<double> dev;
   for (size_t k = iv.first; k < iv.second; ++k)
-    if (loud[k] && held[k]) dev.push_back(std::fabs(score[k] - mu));
+    if (loud[k] && held[k]) dev.push_back(std::fabs(score[k] - mu * shape[k]));
   const double sigma = std::max(0.02, 1.4826 * median(dev));
   const double scale = mu / (sigma * sigma);
   const std::vector<double> w = weights(mu);

@@ -12,14 +12,20 @@
 // aired part of an airing is contiguous (a truncation cuts the end, a late
 // join cuts the start; a crossfaded edge still aired). In frames of a
 // quarter segment, each frame where the master is audible (within 15 dB of
-// its median frame energy) is evidence: its score s against the airing's
-// own level mu (the median score of the aired part) and the null level 0.
-// For Gaussian scores of equal spread this log-likelihood ratio is
-// proportional to s - mu/2, so the aired part is the interval with the
-// largest sum of (s - mu/2) (a change-point pair, found exactly); quiet
-// frames weigh nothing and frames the recording does not hold weigh
-// against. mu is estimated twice (from the loud frames, then from the
-// interval). The interval is then widened over quiet frames at its edges
+// its median frame energy) is evidence: its score s against the level m
+// it would score if it aired and the null level 0. For Gaussian scores of
+// equal spread this log-likelihood ratio is proportional to m (s - m/2),
+// so the aired part is the interval with the largest sum of it (a
+// change-point pair, found exactly); quiet frames weigh nothing and frames
+// the recording does not hold weigh against. m is the airing's own level
+// mu (the median score of the aired part, estimated twice: from the loud
+// frames, then from the interval) times the frame's share of it in noise:
+// a frame of the master's power E in noise of power N scores about
+// sqrt(E / (E + N)) of its noiseless score, so at a low SNR a quieter
+// stretch (a soft ending) scores lower though it aired. N is fitted to the
+// interval's scores (least squares over a grid from 0, where every loud
+// frame's level is mu, to 16 times the median frame's power), and the
+// interval found again with it. The interval is then widened over quiet frames at its edges
 // and over up to 2 s of crossfade (frames still scoring mu/8 or more).
 // A noisy or band-limited airing scores low everywhere, not only in some
 // seconds, so it stays complete; a cut airing drops to the null level.
