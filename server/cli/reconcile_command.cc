@@ -198,7 +198,7 @@ int run(const ReconcileArgs& a) {
     rc.schedule = a.schedule;
     if (auto st = record_reconcile_in(a.state_dir, r, o, rc); !st) {
       std::cerr << "godwit: the store of record was not written: " << st.error().describe() << "\n";
-      return 5;
+      return exit_status(ExitCode::io);
     }
   }
   size_t unknown = 0, not_recorded = 0;

@@ -1,9 +1,11 @@
 #include "job_spec.h"
 
+#include "wire_code.h"
+
 namespace godwit {
 namespace {
 
-Error bad(const std::string& msg) { return Error{ErrorCode::bad_request, msg, "", std::nullopt}; }
+Error bad(const std::string& msg) { return Error{ProtocolCode::bad_request, msg, "", std::nullopt}; }
 
 template <class... F>
 struct Overload : F... {
