@@ -119,9 +119,9 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
                      std::to_string(config_.max_recording_s) + " s per job",
                  "", std::nullopt};
   // 0 turns the speed search off.
-  auto speed = number_field(job, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
+  auto speed = number_field(job, "max_speed_change_pct", kSpeedChangePctRange, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
-  auto tempo = number_field(job, "max_tempo_change_pct", 0, 10, kDefaultMaxTempoChangePct);  // 0: no tempo fit
+  auto tempo = number_field(job, "max_tempo_change_pct", kTempoChangePctRange, kDefaultMaxTempoChangePct);  // 0: no tempo fit
   if (!tempo) return tempo.error();
 
   if (kind == "reconcile") {
@@ -147,7 +147,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (!lib) return lib.error();
     auto sched = guarded(guard_, job["schedule"], "schedule");
     if (!sched) return sched.error();
-    auto w = number_field(job, "window_s", 0, 86400, kDefaultWindowS);
+    auto w = number_field(job, "window_s", kWindowSRange, kDefaultWindowS);
     if (!w) return w.error();
     auto files = library_files(lib.value());
     if (!files) return files.error();
