@@ -10,7 +10,8 @@ struct CodeRow {
   std::string_view wire;
 };
 
-// The one table of wire names.
+// The one table of the engine's wire names (the daemon's own codes are
+// named in server/common/wire_code.cc).
 constexpr CodeRow kRows[] = {
     {ErrorCode::usage, "usage"},
     {ErrorCode::not_found, "not_found"},
@@ -21,12 +22,6 @@ constexpr CodeRow kRows[] = {
     {ErrorCode::io, "io"},
     {ErrorCode::cancelled, "cancelled"},
     {ErrorCode::invalid_template, "invalid_template"},
-    {ErrorCode::forbidden, "forbidden"},
-    {ErrorCode::busy, "busy"},
-    {ErrorCode::unavailable, "unavailable"},
-    {ErrorCode::not_found_job, "unknown_job"},
-    {ErrorCode::bad_request, "bad_request"},
-    {ErrorCode::too_large, "too_large"},
     {ErrorCode::no_placements, "no_placements"},
     {ErrorCode::internal, "internal"},
 };

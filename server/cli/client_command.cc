@@ -13,6 +13,7 @@
 #include "exit_code.h"
 #include "host_port.h"
 #include "json_text.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -43,7 +44,7 @@ class Connection {
       tcp::resolver r(io_);
       boost::asio::connect(socket_, r.resolve(host, std::to_string(port)));
     } catch (const std::exception& e) {
-      return Error{ErrorCode::unavailable, "cannot connect to godwitd at " + where + ": " + e.what(), "", std::nullopt};
+      return Error{ProtocolCode::unavailable, "cannot connect to godwitd at " + where + ": " + e.what(), "", std::nullopt};
     }
     return Done{};
   }
@@ -53,7 +54,7 @@ class Connection {
       boost::asio::write(socket_, boost::asio::buffer(line));
       return read();
     } catch (const std::exception& e) {
-      return Error{ErrorCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
+      return Error{ProtocolCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
     }
   }
   Result<nlohmann::json> read() {
@@ -64,7 +65,7 @@ class Connection {
       std::getline(is, line);
       return nlohmann::json::parse(line);
     } catch (const std::exception& e) {
-      return Error{ErrorCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
+      return Error{ProtocolCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
     }
   }
 
@@ -83,8 +84,7 @@ int report(const Result<nlohmann::json>& r, const std::string& out = "", bool re
   const auto& j = r.value();
   if (!j.value("ok", false)) {
     std::cerr << "godwit: " << json_text(j) << "\n";
-    const std::string code = j["error"].value("code", "");
-    return exit_status(code == "busy" || code == "unavailable" ? ExitCode::daemon_unavailable : ExitCode::refused);
+    return exit_status(exit_code_for_reply(wire_code_from_name(j["error"].value("code", ""))));
   }
   const std::string text = json_text(result_only ? j["result"] : j, 2) + "\n";
   if (!out.empty()) {

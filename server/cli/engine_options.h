@@ -1,8 +1,8 @@
 // Options every engine-running subcommand shares (locate, reconcile):
-// thresholds, rates, threads, FFT planning and its cache, progress.
+// the search fields of the job (job_spec.h's SearchFields, with the
+// daemon's ranges and defaults), rates, threads, FFT planning and its
+// cache, progress.
 #pragma once
-
-#include "godwit/search/peak_picker.h"
 
 #include <CLI/CLI.hpp>
 #include <memory>
@@ -15,34 +15,37 @@
 
 namespace godwit {
 
+// The flags of a job's search land in `search`, the daemon's SearchFields
+// (job_spec.h), with its ranges and defaults; the others set how this
+// process runs the engine.
 struct EngineArgs {
-  double threshold = PickerOptions{}.threshold;
-  double floor_k = 10;
+  SearchFields search;  // --threshold, --floor-k, --fft-size, --max-speed-change, --max-tempo-change
   double rate_hz = 8000;
   int channel = -1;
   bool progress = false;
   bool no_progress = false;
   bool quiet = false;
   int threads = 0;
-  size_t fft_size = 0;
   std::string planner = "measure";
   size_t memory_mb = 288;
   std::string cache_dir = default_cache_dir();
   bool no_refine = false;
-  double max_speed_change_pct = kDefaultMaxSpeedChangePct;
   bool no_speed_search = false;
-  double max_tempo_change_pct = 5;
 };
 
 void add_engine_options(CLI::App* cmd, EngineArgs& a);
+// A flag's check for a job field's range (job_spec.h).
+CLI::Range cli_range(NumberRange r);
 
 // Turns the arguments into LocateOptions, and owns what those point to
 // (the FFT cache and its cost table, the progress bar, the interrupt flag).
 // Keep it alive while the job runs; call finish() after.
 class EngineSetup {
  public:
-  // Returns a usage message when the arguments are inconsistent.
-  std::string configure(const EngineArgs& a, LocateOptions& o);
+  // `search`: the job's search fields (its spec's, checked by
+  // check_job_spec), applied as the daemon applies them
+  // (SearchFields::apply); the rest from `a`.
+  void configure(const EngineArgs& a, const SearchFields& search, LocateOptions& o);
   void finish();
 
  private:

@@ -10,6 +10,7 @@
 #include "godwit/compliance/timeline_locate.h"
 #include "godwit/report/locate_report.h"
 #include "godwit/search/job.h"
+#include "job_spec.h"
 #include "json_text.h"
 #include "library_scan.h"
 
@@ -34,19 +35,23 @@ int run(const LocateArgs& a) {
     std::cerr << "godwit: " << e.describe() << "\n";
     return exit_status(exit_code_for(e.code));
   };
-  LocateJob job;
-  job.templates = a.templates;
+  // The job as the daemon holds one (job_spec.h), checked as it checks one.
+  LocateSpec spec;
+  spec.templates = a.templates;
   if (!a.library.empty()) {
     auto files = scan_library(a.library);
     if (!files) return fail(files.error());
-    job.templates.insert(job.templates.end(), files.value().begin(), files.value().end());
+    spec.templates.insert(spec.templates.end(), files.value().begin(), files.value().end());
   }
-  if (job.templates.empty()) return fail({ErrorCode::usage, "give --template FILE... or --library DIR", "", {}});
-  job.recordings = a.recordings;
+  if (spec.templates.empty()) return fail({ErrorCode::usage, "give --template FILE... or --library DIR", "", {}});
+  spec.recordings = a.recordings;
+  spec.search = a.engine.search;
+  if (auto st = check_job_spec(spec); !st) return fail({ErrorCode::usage, st.error().message, "", {}});
+  const LocateJob job{spec.templates, spec.recordings};
 
   LocateOptions o;
   EngineSetup setup;
-  if (auto msg = setup.configure(a.engine, o); !msg.empty()) return fail({ErrorCode::usage, msg, "", {}});
+  setup.configure(a.engine, spec.search, o);
   TimelineLocateOptions to;
   to.name_pattern = a.separate ? std::string() : a.name_pattern;
   to.resolve_versions = !a.all_versions;

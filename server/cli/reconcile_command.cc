@@ -17,6 +17,7 @@
 #include "planned_search.h"
 #include "reconcile_record.h"
 #include "stored_tasks.h"
+#include "job_spec.h"
 #include "json_text.h"
 #include "reconcile_inputs.h"
 #include "report_files.h"
@@ -25,23 +26,20 @@ namespace godwit {
 namespace {
 
 struct ReconcileArgs {
-  std::string library;
-  std::string schedule;
-  std::vector<std::string> recordings;
+  // The job as the daemon holds one (job_spec.h): --library, --schedule,
+  // --recording, --window-s, --name-pattern, --time-zone, --station, and
+  // the search flags (engine.search, copied in when it runs).
+  ReconcileSpec spec;
   std::string out;
   std::vector<std::string> formats{"json", "csv", "html"};
-  double window_s = kDefaultWindowS;
   double partial_below = 0.9;
   double horizon_s = -1;  // unset: 3 × the window + 4 minutes
-  std::string name_pattern = "%Y%m%dT%H%M%S";
   std::string start;
-  std::string time_zone;
   double loudness_margin_lu = 2.0;
   double loudness_target_lufs = -23.0;
   bool no_loudness = false;
   bool no_excerpts = false;
   std::string state_dir;  // the store of record (record_store.h); empty: none
-  std::string station;
   EngineArgs engine;
 };
 
@@ -111,17 +109,20 @@ int run(const ReconcileArgs& a) {
     std::cerr << "godwit: " << e.describe() << "\n";
     return exit_status(exit_code_for(e.code));
   };
+  ReconcileSpec spec = a.spec;
+  spec.search = a.engine.search;
+  if (auto st = check_job_spec(spec); !st) return fail({ErrorCode::usage, st.error().message, "", {}});
   std::vector<std::string> warnings;
-  auto job_r =
-      load_reconcile_job({a.library, a.schedule, a.recordings, a.window_s, a.start, a.time_zone, "--time-zone"}, warnings);
+  auto job_r = load_reconcile_job(
+      {spec.library, spec.schedule, spec.recordings, spec.window_s, a.start, spec.time_zone, "--time-zone"}, warnings);
   for (const auto& w : warnings) warn(w);
   if (!job_r) return fail(job_r.error());
   const ReconcileJob& job = job_r.value();
 
   ReconcileOptions o;
   EngineSetup setup;
-  if (auto msg = setup.configure(a.engine, o.locate); !msg.empty()) return fail({ErrorCode::usage, msg, "", {}});
-  o.name_pattern = a.name_pattern;
+  setup.configure(a.engine, spec.search, o.locate);
+  o.name_pattern = spec.name_pattern;
   o.verdicts.partial_below = a.partial_below;
   if (a.horizon_s >= 0) o.verdicts.horizon_s = a.horizon_s;
   o.loudness.enabled = !a.no_loudness;
@@ -170,7 +171,7 @@ int run(const ReconcileArgs& a) {
   ReportFiles files;
   files.dir = a.out;
   files.excerpts = !a.no_excerpts && (wants("html") || wants("json"));
-  files.log_name = std::filesystem::path(a.schedule).stem().string();
+  files.log_name = std::filesystem::path(spec.schedule).stem().string();
   auto listening = write_excerpts(r, o.locate.opener, files, o.locate.should_stop, [](std::string_view w) { warn(w); });
   if (!listening && listening.error().code == ErrorCode::cancelled) {
     std::cerr << "godwit: interrupted; no output written\n";
@@ -193,12 +194,12 @@ int run(const ReconcileArgs& a) {
   print_table(r);
   if (!a.state_dir.empty()) {
     RecordContext rc;
-    rc.station = a.station;
-    rc.time_zone = a.time_zone;
-    rc.schedule = a.schedule;
+    rc.station = spec.station;
+    rc.time_zone = spec.time_zone;
+    rc.schedule = spec.schedule;
     if (auto st = record_reconcile_in(a.state_dir, r, o, rc); !st) {
       std::cerr << "godwit: the store of record was not written: " << st.error().describe() << "\n";
-      return 5;
+      return exit_status(ExitCode::io);
     }
   }
   size_t unknown = 0, not_recorded = 0;
@@ -207,7 +208,7 @@ int run(const ReconcileArgs& a) {
     if (v.status == VerdictStatus::not_recorded) ++not_recorded;
     if (v.status != VerdictStatus::unknown_spot) continue;
     if (++unknown <= 10)
-      warn(a.schedule + ":" + std::to_string(p.line) + ": spot '" + p.spot + "' is not in the library" +
+      warn(spec.schedule + ":" + std::to_string(p.line) + ": spot '" + p.spot + "' is not in the library" +
            (v.suggestion.empty() ? std::string() : "; did you mean '" + v.suggestion + "'?"));
   }
   if (unknown > 10) warn(std::to_string(unknown - 10) + " more placements name spots that are not in the library");
@@ -247,6 +248,7 @@ int run(const ReconcileArgs& a) {
 
 std::function<int()> add_reconcile_command(CLI::App& app) {
   auto a = std::make_shared<ReconcileArgs>();
+  a->spec.name_pattern = ReconcileOptions{}.name_pattern;  // shown in --help as the default
   auto* cmd = app.add_subcommand("reconcile", "give each planned placement a verdict from the airchecks");
   cmd->description(
       "Locate the library's masters in the airchecks (consecutive files form one timeline; spots across\n"
@@ -257,26 +259,26 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
       "OUT/reconcile.csv and OUT/reconcile.html (a page that opens offline) with OUT/listen/, an excerpt of\n"
       "every airing (2 s either side) and its master to play from the page, and prints the verdicts.\n"
       "Detections are evidence to verify by listening.");
-  cmd->add_option("--library,-l", a->library, "folder of masters; sidecar <stem>.meta.json optional")->required();
-  cmd->add_option("--schedule,-s", a->schedule,
+  cmd->add_option("--library,-l", a->spec.library, "folder of masters; sidecar <stem>.meta.json optional")->required();
+  cmd->add_option("--schedule,-s", a->spec.schedule,
                   "planned log CSV (comma, semicolon or tab): slot,spot,planned[,window_s] or their aliases")
       ->required();
-  cmd->add_option("--recording,-r", a->recordings, "airchecks, start time in the file name")->required();
+  cmd->add_option("--recording,-r", a->spec.recordings, "airchecks, start time in the file name")->required();
   cmd->add_option("--out,-o", a->out, "output folder (created if needed)")->required();
   cmd->add_option("--format", a->formats, "documents to write: json, csv, html (default all three)")
       ->check(CLI::IsMember({"json", "csv", "html"}))
       ->delimiter(',');
-  cmd->add_option("--window-s", a->window_s, "allowed deviation when a row leaves window_s empty (default 60)")
-      ->check(CLI::Range(0.0, 86400.0));
+  cmd->add_option("--window-s", a->spec.window_s, "allowed deviation when a row leaves window_s empty (default 60)")
+      ->check(cli_range(kWindowSRange));
   cmd->add_option("--partial-below", a->partial_below, "coverage under this is a partial airing (default 0.9)")
       ->check(CLI::Range(0.0, 1.0));
   cmd->add_option("--horizon-s", a->horizon_s,
                   "airings farther than this from a placement are not its (default: 3 x its window + 240 s)")
       ->check(CLI::Range(0.0, 7 * 86400.0));
-  cmd->add_option("--name-pattern", a->name_pattern,
+  cmd->add_option("--name-pattern", a->spec.name_pattern,
                   "where file names carry the start: %Y %m %d %H %M %S (default %Y%m%dT%H%M%S)");
   cmd->add_option("--start", a->start, "start of a single recording (ISO 8601 local), instead of its name");
-  cmd->add_option("--time-zone", a->time_zone,
+  cmd->add_option("--time-zone", a->spec.time_zone,
                   "the station's IANA time zone (Europe/Berlin): planned times written with a UTC offset or Z\n"
                   "are converted to its local time (without it such rows are rejected)");
   cmd->add_option("--loudness-margin-lu", a->loudness_margin_lu,
@@ -291,7 +293,7 @@ std::function<int()> add_reconcile_command(CLI::App& app) {
   cmd->add_option("--state-dir", a->state_dir,
                   "also keep the result in the store of record DIR/store.sqlite (for `godwit airings` and\n"
                   "`godwit proof`); re-running a day replaces its rows");
-  cmd->add_option("--station", a->station,
+  cmd->add_option("--station", a->spec.station,
                   "with --state-dir: the station's name (default: the recordings' file names before their\n"
                   "timestamp, kestrel-fm-20260314T060000.flac -> kestrel-fm)");
   add_engine_options(cmd, a->engine);

@@ -8,8 +8,9 @@ struct ErrorExit {
   ExitCode exit;
 };
 
-// The one table from error codes to exit codes. README.md ("Exit codes")
-// documents the exit codes; change both together.
+// The one table from error codes (the engine's and the protocol's,
+// wire_code.h) to exit codes. README.md ("Exit codes") documents the exit
+// codes; change both together.
 constexpr ErrorExit kErrorExits[] = {
     {ErrorCode::usage, ExitCode::usage},
     {ErrorCode::not_found, ExitCode::unreadable_input},
@@ -20,12 +21,12 @@ constexpr ErrorExit kErrorExits[] = {
     {ErrorCode::io, ExitCode::io},
     {ErrorCode::cancelled, ExitCode::interrupted},
     {ErrorCode::invalid_template, ExitCode::unreadable_input},
-    {ErrorCode::forbidden, ExitCode::refused},
-    {ErrorCode::busy, ExitCode::daemon_unavailable},
-    {ErrorCode::unavailable, ExitCode::daemon_unavailable},
-    {ErrorCode::not_found_job, ExitCode::refused},
-    {ErrorCode::bad_request, ExitCode::refused},
-    {ErrorCode::too_large, ExitCode::refused},
+    {ProtocolCode::forbidden, ExitCode::refused},
+    {ProtocolCode::busy, ExitCode::daemon_unavailable},
+    {ProtocolCode::unavailable, ExitCode::daemon_unavailable},
+    {ProtocolCode::unknown_job, ExitCode::refused},
+    {ProtocolCode::bad_request, ExitCode::refused},
+    {ProtocolCode::too_large, ExitCode::refused},
     {ErrorCode::no_placements, ExitCode::no_placements},
     {ErrorCode::internal, ExitCode::internal},
 };
@@ -45,6 +46,11 @@ ExitCode exit_code_for(ErrorCode code) {
   for (const auto& r : kErrorExits)
     if (r.error == code) return r.exit;
   return ExitCode::internal;
+}
+
+ExitCode exit_code_for_reply(ErrorCode code) {
+  const ExitCode e = exit_code_for(code);
+  return e == ExitCode::daemon_unavailable ? e : ExitCode::refused;
 }
 
 std::span<const ExitCode> all_exit_codes() { return kAll; }

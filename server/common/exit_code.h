@@ -1,12 +1,13 @@
 // The exit codes of godwit and godwitd: one table (exit_code.cc), which
 // README.md ("Exit codes") documents; tests/server/common/exit_code_test.cc
-// checks the two agree. The engine knows nothing of processes: its errors map
-// here by their code.
+// checks the two agree. The engine knows nothing of processes: its errors,
+// and the protocol's (wire_code.h), map here by their code.
 #pragma once
 
 #include <span>
 
 #include "godwit/core/error.h"
+#include "wire_code.h"
 
 namespace godwit {
 
@@ -26,8 +27,13 @@ enum class ExitCode : int {
 
 // The process exit status for `code`.
 int exit_status(ExitCode code);
-// The exit code of a run that failed with an engine or protocol error.
+// The exit code of a run that failed with an engine or protocol error
+// (any of all_wire_codes()).
 ExitCode exit_code_for(ErrorCode code);
+// The exit code of a request godwitd answered with an error of `code`:
+// `refused`, unless the table says the daemon is unavailable (busy,
+// unavailable).
+ExitCode exit_code_for_reply(ErrorCode code);
 // Every exit code, in the table's order.
 std::span<const ExitCode> all_exit_codes();
 

@@ -1,9 +1,11 @@
 #include "job_spec.h"
 
+#include "wire_code.h"
+
 namespace godwit {
 namespace {
 
-Error bad(const std::string& msg) { return Error{ErrorCode::bad_request, msg, "", std::nullopt}; }
+Error bad(const std::string& msg) { return Error{ProtocolCode::bad_request, msg, "", std::nullopt}; }
 
 template <class... F>
 struct Overload : F... {
@@ -48,35 +50,36 @@ void SearchFields::apply(LocateOptions& lo) const {
   lo.bank.fixed_fft_size = fft_size.value_or(0);
 }
 
-Result<double> number_field(const nlohmann::json& j, const char* field, double lo, double hi, double dflt) {
+Result<double> number_field(const nlohmann::json& j, const char* field, NumberRange range, double dflt) {
   if (!j.contains(field)) return dflt;
   if (!j[field].is_number()) return bad(std::string("'") + field + "' must be a number");
   const double v = j[field].get<double>();
-  if (!(v >= lo && v <= hi))
-    return bad(std::string("'") + field + "' must lie in " + std::to_string(lo) + ".." + std::to_string(hi));
+  if (!(v >= range.lo && v <= range.hi))
+    return bad(std::string("'") + field + "' must lie in " + std::to_string(range.lo) + ".." +
+               std::to_string(range.hi));
   return v;
 }
 
 Result<SearchFields> search_fields_from_json(const nlohmann::json& j) {
   SearchFields s;
-  auto speed = number_field(j, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
+  auto speed = number_field(j, "max_speed_change_pct", kSpeedChangePctRange, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
   s.max_speed_change_pct = speed.value();
-  auto tempo = number_field(j, "max_tempo_change_pct", 0, 10, kDefaultMaxTempoChangePct);
+  auto tempo = number_field(j, "max_tempo_change_pct", kTempoChangePctRange, kDefaultMaxTempoChangePct);
   if (!tempo) return tempo.error();
   s.max_tempo_change_pct = tempo.value();
   if (j.contains("threshold")) {
-    auto v = number_field(j, "threshold", 0.05, 1.0, 0);
+    auto v = number_field(j, "threshold", kThresholdRange, 0);
     if (!v) return v.error();
     s.threshold = v.value();
   }
   if (j.contains("floor_k")) {
-    auto v = number_field(j, "floor_k", 0.0, 1000.0, 0);
+    auto v = number_field(j, "floor_k", kFloorKRange, 0);
     if (!v) return v.error();
     s.floor_k = v.value();
   }
   if (j.contains("fft_size")) {
-    auto v = number_field(j, "fft_size", 0, double(1 << 24), 0);
+    auto v = number_field(j, "fft_size", kFftSizeRange, 0);
     if (!v) return v.error();
     const auto n = static_cast<size_t>(v.value());
     if (n & (n - 1)) return bad("'fft_size' must be a power of two");
@@ -116,7 +119,7 @@ Result<JobSpec> job_spec_from_json(const nlohmann::json& j) {
     if (!sched) return sched.error();
     auto r = strings(j, "recordings");
     if (!r) return r.error();
-    auto w = number_field(j, "window_s", 0, 86400, kDefaultWindowS);
+    auto w = number_field(j, "window_s", kWindowSRange, kDefaultWindowS);
     if (!w) return w.error();
     s.library = lib.value();
     s.schedule = sched.value();

@@ -15,7 +15,9 @@
 // defaults below are the only ones). A request's job is turned into a
 // prepared LocateSpec or ReconcileSpec by JobRunner::prepare (paths under
 // the roots, library expanded, inline spots saved); the drop folder builds
-// its specs as types and checks them the same way (check_job_spec).
+// its specs as types and checks them the same way (check_job_spec), and so
+// does the command line (godwit locate and reconcile: their search flags
+// land in a SearchFields, with the ranges and defaults below).
 //
 // Thread contract: plain values and functions.
 #pragma once
@@ -42,13 +44,26 @@ constexpr double kDefaultMaxTempoChangePct = 100 * SpeedOptions{}.max_tempo_devi
 // A planned placement's window when the log states none. Default: 60 s.
 constexpr double kDefaultWindowS = 60;
 
+// The range of a number field, both ends allowed. The ones below are the
+// only ones: the daemon's JSON fields (job_spec_from_json) and the command
+// line's flags (server/cli/engine_options.cc) are checked against them.
+struct NumberRange {
+  double lo, hi;
+};
+inline constexpr NumberRange kThresholdRange{0.05, 1.0};       // |r| a match must reach
+inline constexpr NumberRange kFloorKRange{0.0, 1000.0};        // MADs above the noise floor
+inline constexpr NumberRange kFftSizeRange{0.0, double(1 << 24)};  // and 0 or a power of two
+inline constexpr NumberRange kSpeedChangePctRange{0.0, 10.0};  // 0 turns the speed search off
+inline constexpr NumberRange kTempoChangePctRange{0.0, 10.0};  // 0 turns the tempo fit off
+inline constexpr NumberRange kWindowSRange{0.0, 86400.0};      // a placement's allowed deviation
+
 // The search options a job states; absent ones are the engine's defaults.
 struct SearchFields {
-  std::optional<double> threshold;   // 0.05..1 (PickerOptions::threshold)
-  std::optional<double> floor_k;     // 0..1000
-  std::optional<size_t> fft_size;    // 0 or a power of two up to 2^24
-  double max_speed_change_pct = kDefaultMaxSpeedChangePct;  // 0..10; 0 turns the speed search off
-  double max_tempo_change_pct = kDefaultMaxTempoChangePct;  // 0..10; 0 turns the tempo fit off
+  std::optional<double> threshold;   // kThresholdRange (PickerOptions::threshold)
+  std::optional<double> floor_k;     // kFloorKRange (PickerOptions::floor_k)
+  std::optional<size_t> fft_size;    // 0 (chosen per template) or a power of two up to 2^24
+  double max_speed_change_pct = kDefaultMaxSpeedChangePct;  // kSpeedChangePctRange
+  double max_tempo_change_pct = kDefaultMaxTempoChangePct;  // kTempoChangePctRange
   // Onto the daemon's options (threads, planner, callbacks stay).
   void apply(LocateOptions& options) const;
 };
@@ -90,12 +105,13 @@ std::string_view job_kind(const JobSpec& spec);
 // Errors: bad_request, naming the field and what it must be.
 Result<JobSpec> job_spec_from_json(const nlohmann::json& j);
 nlohmann::json job_spec_to_json(const JobSpec& spec);
-// The ranges of a spec built in code (the drop folder's): as from_json.
+// The ranges of a spec built in code (the drop folder's, the command
+// line's): as from_json.
 Status check_job_spec(const JobSpec& spec);
 
 // A number field of a request: absent gives `dflt`; else it must be a
-// number in lo..hi. The one reader of the ranges above.
-Result<double> number_field(const nlohmann::json& j, const char* field, double lo, double hi, double dflt);
+// number in `range`. The one reader of the ranges above.
+Result<double> number_field(const nlohmann::json& j, const char* field, NumberRange range, double dflt);
 // The search fields of a request or spec, checked.
 Result<SearchFields> search_fields_from_json(const nlohmann::json& j);
 

@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <cmath>
 
+#include "wire_code.h"
+
 namespace godwit {
 namespace {
 
@@ -87,10 +89,10 @@ Result<Segment> segment_from_json(const nlohmann::json& j) {
     s.own_from_s = finite_or(j, "own_from_s", -kInf);
     s.own_to_s = finite_or(j, "own_to_s", kInf);
     if (!s.stream.parts.empty() && !(s.stream.rate_hz > 0))
-      return Error{ErrorCode::bad_request, "segment: a stream of parts needs its rate", "", std::nullopt};
+      return Error{ProtocolCode::bad_request, "segment: a stream of parts needs its rate", "", std::nullopt};
     return s;
   } catch (const nlohmann::json::exception& e) {
-    return Error{ErrorCode::bad_request, std::string("segment: ") + e.what(), "", std::nullopt};
+    return Error{ProtocolCode::bad_request, std::string("segment: ") + e.what(), "", std::nullopt};
   }
 }
 
@@ -104,7 +106,7 @@ Result<LocateResult> search_segment(const Segment& seg, const std::vector<std::s
                                                      : std::numeric_limits<int64_t>::max();
     parts = window_parts(st.parts, st.rate_hz, from, to);
     if (parts.empty())
-      return Error{ErrorCode::bad_request, "segment lies beyond its stream's end", st.name, std::nullopt};
+      return Error{ProtocolCode::bad_request, "segment lies beyond its stream's end", st.name, std::nullopt};
   }
   const SourceOpener base = options.opener;
   options.opener = [&parts, &st, base](const std::string& path, ChannelChoice choice) -> Result<SourcePtr> {

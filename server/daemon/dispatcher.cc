@@ -4,6 +4,7 @@
 
 #include "base64.h"
 #include "godwit/core/version.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -57,25 +58,25 @@ void Dispatcher::set_token(std::string token) {
 }
 
 nlohmann::json Dispatcher::error_response(ErrorCode code, const std::string& message) {
-  return {{"ok", false}, {"error", {{"code", std::string(wire_name(code))}, {"message", message}}}};
+  return {{"ok", false}, {"error", {{"code", std::string(wire_code_name(code))}, {"message", message}}}};
 }
 
 Reply Dispatcher::handle(std::string_view line) const {
   if (nesting_depth(line, kMaxRequestDepth) > kMaxRequestDepth)
-    return {error_response(ErrorCode::bad_request,
+    return {error_response(ProtocolCode::bad_request,
                            "a request nests arrays and objects over " + std::to_string(kMaxRequestDepth) + " deep"),
             false, {}};
   nlohmann::json req;
   try {
     req = nlohmann::json::parse(line);
   } catch (const std::exception&) {
-    return {error_response(ErrorCode::bad_request, "not a JSON object on one line"), false, {}};
+    return {error_response(ProtocolCode::bad_request, "not a JSON object on one line"), false, {}};
   }
-  if (!req.is_object()) return {error_response(ErrorCode::bad_request, "a request is a JSON object"), false, {}};
+  if (!req.is_object()) return {error_response(ProtocolCode::bad_request, "a request is a JSON object"), false, {}};
   if (const auto id = req.find("id"); id != req.end()) {
     const bool fits = id->is_number() || (id->is_string() && id->get_ref<const std::string&>().size() <= kMaxIdBytes);
     if (!fits)
-      return {error_response(ErrorCode::bad_request,
+      return {error_response(ProtocolCode::bad_request,
                              "'id' must be a number or a string of at most " + std::to_string(kMaxIdBytes) + " bytes"),
               false, {}};
   }
@@ -89,12 +90,12 @@ Reply Dispatcher::handle(std::string_view line) const {
     const auto it = req.find("token");
     const std::string given = it != req.end() && it->is_string() ? it->get<std::string>() : std::string();
     if (!token.empty() && !constant_time_equal(given, token)) {
-      r.response = error_response(ErrorCode::forbidden, "missing or wrong token");
+      r.response = error_response(ProtocolCode::forbidden, "missing or wrong token");
     } else {
       try {
         r = handle_op(req);
       } catch (const std::exception& e) {
-        r.response = error_response(ErrorCode::bad_request, std::string("bad request: ") + e.what());
+        r.response = error_response(ProtocolCode::bad_request, std::string("bad request: ") + e.what());
       }
     }
   }
@@ -104,7 +105,7 @@ Reply Dispatcher::handle(std::string_view line) const {
 
 Reply Dispatcher::handle_op(const nlohmann::json& req) const {
   const auto op_it = req.find("op");
-  if (op_it == req.end() || !op_it->is_string()) return {error_response(ErrorCode::bad_request, "'op' is required"), false, {}};
+  if (op_it == req.end() || !op_it->is_string()) return {error_response(ProtocolCode::bad_request, "'op' is required"), false, {}};
   const std::string op = *op_it;
   auto job_id = [&]() -> std::optional<std::string> {
     auto it = req.find("job");
@@ -113,14 +114,14 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
   };
   auto need_job = [&](std::optional<JobInfo>& info) -> std::optional<nlohmann::json> {
     auto id = job_id();
-    if (!id) return error_response(ErrorCode::bad_request, "'job' (a job id string) is required");
+    if (!id) return error_response(ProtocolCode::bad_request, "'job' (a job id string) is required");
     info = store_.get(*id);
-    if (!info) return error_response(ErrorCode::not_found_job, "no job " + *id);
+    if (!info) return error_response(ProtocolCode::unknown_job, "no job " + *id);
     return std::nullopt;
   };
   if (op == "submit") {
     auto it = req.find("job");
-    if (it == req.end()) return {error_response(ErrorCode::bad_request, "'job' is required"), false, {}};
+    if (it == req.end()) return {error_response(ProtocolCode::bad_request, "'job' is required"), false, {}};
     auto spec = runner_.prepare(*it);
     if (!spec) return {error_response(spec.error().code, spec.error().describe()), false, {}};
     auto id = store_.submit(spec.value());
@@ -141,7 +142,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     std::optional<JobInfo> info;
     if (auto e = need_job(info)) return {*e, false, {}};
     if (info->state != JobState::done)
-      return {error_response(ErrorCode::not_found_job, "job " + info->id + " is " + job_state_name(info->state) +
+      return {error_response(ProtocolCode::unknown_job, "job " + info->id + " is " + job_state_name(info->state) +
                                                            ", no result"), false, {}};
     auto text = store_.result_text(info->id);
     if (!text) return {error_response(ErrorCode::io, "result file missing"), false, {}};
@@ -153,7 +154,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     std::optional<JobInfo> info;
     if (auto e = need_job(info)) return {*e, false, {}};
     if (info->state != JobState::done)
-      return {error_response(ErrorCode::not_found_job, "job " + info->id + " is " + job_state_name(info->state) +
+      return {error_response(ProtocolCode::unknown_job, "job " + info->id + " is " + job_state_name(info->state) +
                                                            ", no files"), false, {}};
     if (op == "files") {
       nlohmann::json list = nlohmann::json::array();
@@ -162,7 +163,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     }
     const auto name = req.find("name");
     if (name == req.end() || !name->is_string())
-      return {error_response(ErrorCode::bad_request, "'name' (a name from \"files\") is required"), false, {}};
+      return {error_response(ProtocolCode::bad_request, "'name' (a name from \"files\") is required"), false, {}};
     auto bytes = store_.read_file(info->id, name->get<std::string>());
     if (!bytes)
       return {error_response(ErrorCode::not_found, "job " + info->id + " has no file " + name->get<std::string>()), false, {}};
@@ -180,7 +181,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     std::optional<JobState> filter;
     if (req.contains("state")) {
       filter = req["state"].is_string() ? job_state_from(req["state"]) : std::nullopt;
-      if (!filter) return {error_response(ErrorCode::bad_request, "'state' must be queued, running, done, failed or cancelled"), false, {}};
+      if (!filter) return {error_response(ProtocolCode::bad_request, "'state' must be queued, running, done, failed or cancelled"), false, {}};
     }
     // Paged: at most `limit` jobs (default and maximum kMaxJobsPage) after
     // the `cursor` of the previous page; "next" is there when more remain.
@@ -188,13 +189,13 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     if (req.contains("limit")) {
       const auto& l = req["limit"];
       if (!l.is_number_integer() || l.get<int64_t>() < 1 || l.get<int64_t>() > int64_t(kMaxJobsPage))
-        return {error_response(ErrorCode::bad_request,
+        return {error_response(ProtocolCode::bad_request,
                                "'limit' must be an integer from 1 to " + std::to_string(kMaxJobsPage)), false, {}};
       limit = l.get<size_t>();
     }
     std::string cursor;
     if (req.contains("cursor")) {
-      if (!req["cursor"].is_string()) return {error_response(ErrorCode::bad_request, "'cursor' must be a string"), false, {}};
+      if (!req["cursor"].is_string()) return {error_response(ProtocolCode::bad_request, "'cursor' must be a string"), false, {}};
       cursor = req["cursor"].get<std::string>();
     }
     auto key = [](const JobInfo& j) { return j.submitted + "/" + j.id; };  // the order of list()
@@ -217,7 +218,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
   }
   if (op == "watch") {
     auto id = job_id();
-    if (id && !store_.get(*id)) return {error_response(ErrorCode::not_found_job, "no job " + *id), false, {}};
+    if (id && !store_.get(*id)) return {error_response(ProtocolCode::unknown_job, "no job " + *id), false, {}};
     return {{{"ok", true}, {"watching", id ? *id : "all"}}, true, id ? *id : ""};
   }
   if (op == "health") {
@@ -240,7 +241,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     return {h, false, {}};
   }
   if (op == "cluster") {
-    if (!cluster_info_) return {error_response(ErrorCode::bad_request, "this daemon is not in queue mode"), false, {}};
+    if (!cluster_info_) return {error_response(ProtocolCode::bad_request, "this daemon is not in queue mode"), false, {}};
     auto c = cluster_info_();
     if (!c) return {error_response(c.error().code, c.error().message), false, {}};
     nlohmann::json r = c.value();
@@ -252,7 +253,7 @@ Reply Dispatcher::handle_op(const nlohmann::json& req) const {
     if (!r) return {error_response(r.error().code, r.error().message), false, {}};
     return {r.value(), false, {}};
   }
-  return {error_response(ErrorCode::bad_request, "unknown op '" + op + "'"), false, {}};
+  return {error_response(ProtocolCode::bad_request, "unknown op '" + op + "'"), false, {}};
 }
 
 }  // namespace godwit

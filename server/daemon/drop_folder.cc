@@ -13,12 +13,12 @@
 #include "atomic_file.h"
 #include "godwit/compliance/civil_time.h"
 #include "godwit/report/excerpt.h"
-#include "godwit/report/locate_report.h"
 #include "error_boundary.h"
 #include "job_priority.h"
 #include "library_scan.h"
 #include "json_text.h"
 #include "thread_entry.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace fs = std::filesystem;
@@ -213,10 +213,10 @@ void DropFolder::reject(const fs::path& from, const std::string& why) {
     spdlog::warn("drop folder: {} is {}; cannot move it to failed/: {}", from.filename().string(), why, ec.message());
     return;
   }
-  (void)write_file_atomically(
-      (base / "failed" / (name + ".error.json")).string(),
-      json_text({{"code", "unsupported"}, {"message", "not processed: " + why + "; the drop folder takes regular files only"},
-                 {"file", name}}, 2) + "\n");
+  nlohmann::json err = wire_error_to_json(Error{
+      ErrorCode::unsupported, "not processed: " + why + "; the drop folder takes regular files only", "", std::nullopt});
+  err["file"] = name;
+  (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   spdlog::warn("drop folder: {} is {}: moved to failed/ unprocessed", name, why);
 }
 
@@ -229,8 +229,9 @@ void DropFolder::process(const std::string& name) {
     const fs::path base(o_.dir);
     std::error_code ec;
     fs::rename(base / "work" / name, base / "failed" / name, ec);
-    (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(),
-                                json_text({{"code", "internal"}, {"message", what}, {"file", name}}, 2) + "\n");
+    nlohmann::json err = wire_error_to_json(Error{ErrorCode::internal, what, "", std::nullopt});
+    err["file"] = name;
+    (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   }
 }
 
@@ -280,7 +281,7 @@ void DropFolder::process_file(const std::string& name) {
     if (!o_.schedules.empty()) reconcile_day(name);
     return;
   }
-  nlohmann::json err = doc ? nlohmann::json{{"code", "corrupt"}, {"message", reason}} : error_to_json(doc.error());
+  nlohmann::json err = wire_error_to_json(doc ? Error{ErrorCode::corrupt, reason, "", std::nullopt} : doc.error());
   err["file"] = name;
   (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   fs::rename(path, base / "failed" / name, ec);

@@ -19,16 +19,17 @@
 #include "reconcile_inputs.h"
 #include "job_spec.h"
 #include "segment_task.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
 
-Error bad(const std::string& msg) { return Error{ErrorCode::bad_request, msg, "", std::nullopt}; }
+Error bad(const std::string& msg) { return Error{ProtocolCode::bad_request, msg, "", std::nullopt}; }
 
 Result<std::string> guarded(const PathGuard& g, const nlohmann::json& v, const char* field) {
   if (!v.is_string()) return bad(std::string("'") + field + "' must be a string path");
   auto r = g.resolve(v.get<std::string>());
-  if (!r) return Error{ErrorCode::forbidden, "path outside the allowed roots: " + v.get<std::string>(), "", std::nullopt};
+  if (!r) return Error{ProtocolCode::forbidden, "path outside the allowed roots: " + v.get<std::string>(), "", std::nullopt};
   return *r;
 }
 
@@ -45,7 +46,7 @@ Result<std::vector<std::string>> guarded_list(const PathGuard& g, const nlohmann
   const auto& a = job[field];
   if (!a.is_array()) return bad(std::string("'") + field + "' must be an array of paths");
   if (a.size() > max_count)
-    return Error{ErrorCode::too_large,
+    return Error{ProtocolCode::too_large,
                  std::to_string(a.size()) + " " + field + ", over the limit of " + std::to_string(max_count) + " per job",
                  "", std::nullopt};
   for (const auto& v : a) {
@@ -69,7 +70,7 @@ std::string random_name() {
 Status all_under_roots(const PathGuard& g, const std::vector<std::string>& files) {
   for (const auto& f : files)
     if (!g.resolve(f))
-      return Error{ErrorCode::forbidden, "library file leads outside the allowed roots: " + f, "", std::nullopt};
+      return Error{ProtocolCode::forbidden, "library file leads outside the allowed roots: " + f, "", std::nullopt};
   return ok_status();
 }
 
@@ -113,14 +114,14 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (auto d = src.value()->info().duration_s()) total_s += *d;
   }
   if (total_s > config_.max_recording_s)
-    return Error{ErrorCode::too_large,
+    return Error{ProtocolCode::too_large,
                  "recordings total " + std::to_string(total_s) + " s, over the limit of " +
                      std::to_string(config_.max_recording_s) + " s per job",
                  "", std::nullopt};
   // 0 turns the speed search off.
-  auto speed = number_field(job, "max_speed_change_pct", 0, 10, kDefaultMaxSpeedChangePct);
+  auto speed = number_field(job, "max_speed_change_pct", kSpeedChangePctRange, kDefaultMaxSpeedChangePct);
   if (!speed) return speed.error();
-  auto tempo = number_field(job, "max_tempo_change_pct", 0, 10, kDefaultMaxTempoChangePct);  // 0: no tempo fit
+  auto tempo = number_field(job, "max_tempo_change_pct", kTempoChangePctRange, kDefaultMaxTempoChangePct);  // 0: no tempo fit
   if (!tempo) return tempo.error();
 
   if (kind == "reconcile") {
@@ -146,7 +147,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
     if (!lib) return lib.error();
     auto sched = guarded(guard_, job["schedule"], "schedule");
     if (!sched) return sched.error();
-    auto w = number_field(job, "window_s", 0, 86400, kDefaultWindowS);
+    auto w = number_field(job, "window_s", kWindowSRange, kDefaultWindowS);
     if (!w) return w.error();
     auto files = library_files(lib.value());
     if (!files) return files.error();
@@ -196,7 +197,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   if (job.contains("inline")) {
     if (!job["inline"].is_array()) return bad("'inline' must be an array");
     if (job["inline"].size() > config_.max_templates)  // before any is decoded and written
-      return Error{ErrorCode::too_large,
+      return Error{ProtocolCode::too_large,
                    std::to_string(job["inline"].size()) + " inline spots, over the limit of " +
                        std::to_string(config_.max_templates) + " templates per job",
                    "", std::nullopt};
@@ -216,7 +217,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
       if (!has_audio_extension("x." + fmt)) return bad("inline spot format must be wav, flac, ogg, opus or mp3");
       const auto& b64 = s["audio_base64"].get_ref<const std::string&>();
       if (b64.size() / 4 * 3 > config_.max_inline_bytes)
-        return Error{ErrorCode::too_large, "inline spot '" + id + "' is over " +
+        return Error{ProtocolCode::too_large, "inline spot '" + id + "' is over " +
                                                std::to_string(config_.max_inline_bytes >> 20) + " MiB", "", std::nullopt};
       auto bytes = base64_decode(b64);
       if (!bytes) return bad("inline spot '" + id + "' is not valid base64");
@@ -235,7 +236,7 @@ Result<nlohmann::json> JobRunner::prepare_job(const nlohmann::json& job, std::st
   }
   if (templates.empty()) return bad("no templates: give 'templates', 'library' or 'inline'");
   if (templates.size() > config_.max_templates)
-    return Error{ErrorCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
+    return Error{ProtocolCode::too_large, std::to_string(templates.size()) + " templates, over the limit of " +
                                            std::to_string(config_.max_templates) + " per job", "", std::nullopt};
   // The journal and the queue carry paths as JSON text, which holds only
   // UTF-8: such a file could not be found again after a restart.

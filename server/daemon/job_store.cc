@@ -21,6 +21,7 @@
 
 #include "atomic_file.h"
 #include "json_text.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -168,7 +169,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
         info.state = JobState::queued;  // run again
       } else {  // kept as one line: nothing left to run it from
         info.state = JobState::failed;
-        info.error = {{"code", std::string(wire_name(ErrorCode::io))},
+        info.error = {{"code", std::string(wire_code_name(ErrorCode::io))},
                       {"message", "the job's result file is missing from the state folder"}};
         crash_failed.push_back(id);
       }
@@ -177,7 +178,7 @@ Result<std::unique_ptr<JobStore>> JobStore::open(const std::string& dir, size_t 
     if ((info.state == JobState::queued || info.state == JobState::running) &&
         info.crashes >= CrashRecord::kMaxCrashes) {
       info.state = JobState::failed;
-      info.error = {{"code", std::string(wire_name(ErrorCode::internal))},
+      info.error = {{"code", std::string(wire_code_name(ErrorCode::internal))},
                     {"message", "the daemon crashed " + std::to_string(info.crashes) +
                                     " times while running this job; it is not run again (internal error, please "
                                     "report it)"}};
@@ -380,9 +381,9 @@ Result<std::string> JobStore::submit(const nlohmann::json& spec) {
   const std::string id = new_job_id();
   {
     std::lock_guard lock(mu_);
-    if (stopping_) return Error{ErrorCode::unavailable, "the daemon is shutting down", "", std::nullopt};
+    if (stopping_) return Error{ProtocolCode::unavailable, "the daemon is shutting down", "", std::nullopt};
     if (queue_.size() >= max_queued_)
-      return Error{ErrorCode::busy, "the queue is full (" + std::to_string(max_queued_) + " jobs); retry later", "",
+      return Error{ProtocolCode::busy, "the queue is full (" + std::to_string(max_queued_) + " jobs); retry later", "",
                    std::nullopt};
   }
   JobInfo info;
@@ -601,7 +602,7 @@ void JobStore::drop_finished(const std::set<std::string>& gone, bool compact) {
 
 void JobStore::finish(const std::string& id, const nlohmann::json& result) {
   if (auto st = write_file_atomically(dir_ + "/results/" + id + ".json", json_text(result) + "\n"); !st) {
-    fail(id, {{"code", "io"}, {"message", st.error().describe()}});
+    fail(id, {{"code", std::string(wire_code_name(ErrorCode::io))}, {"message", st.error().describe()}});
     return;
   }
   set_state(id, JobState::done, nlohmann::json::object());

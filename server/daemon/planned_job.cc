@@ -3,6 +3,7 @@
 #include "godwit/compliance/timeline_locate.h"
 #include "godwit/report/locate_report.h"
 #include "planned_search.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -49,7 +50,7 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
   if (!typed) return typed.error();
   const auto* rspec = std::get_if<ReconcileSpec>(&typed.value());
   const auto* lspec = std::get_if<LocateSpec>(&typed.value());
-  if (!rspec && !lspec) return Error{ErrorCode::bad_request, "only locate and reconcile jobs run as tasks", "", std::nullopt};
+  if (!rspec && !lspec) return Error{ProtocolCode::bad_request, "only locate and reconcile jobs run as tasks", "", std::nullopt};
   const bool reconcile = rspec != nullptr;
   SegmentSpec base;  // what every task carries
   const SearchFields& stated = reconcile ? rspec->search : lspec->search;

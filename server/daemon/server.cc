@@ -10,6 +10,7 @@
 #include "error_boundary.h"
 #include "line_framer.h"
 #include "json_text.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -121,7 +122,7 @@ class Session : public std::enable_shared_from_this<Session> {
     while (!closed_ && !lines_.empty() && lines_.front().kind == LineFramer::Event::too_long) {
       lines_.pop_front();
       send(json_text(Dispatcher::error_response(
-          ErrorCode::too_large, "request line over " + std::to_string(limits_.max_line_bytes) + " bytes")));
+          ProtocolCode::too_large, "request line over " + std::to_string(limits_.max_line_bytes) + " bytes")));
     }
     if (closed_) return;
     if (lines_.empty()) {
@@ -144,7 +145,7 @@ class Session : public std::enable_shared_from_this<Session> {
       }
       auto line = std::make_shared<std::string>(json_text(reply->response));
       if (line->size() > limits_.max_reply_bytes) {
-        auto err = Dispatcher::error_response(ErrorCode::too_large,
+        auto err = Dispatcher::error_response(ProtocolCode::too_large,
                                               "the answer is " + std::to_string(line->size()) +
                                                   " bytes, over the limit of " +
                                                   std::to_string(limits_.max_reply_bytes) + " (limits.max_reply_bytes)");
@@ -288,7 +289,7 @@ void Server::accept() {
       if (too_many || (mine != counts_->by_address.end() && mine->second >= limits_.max_connections_per_address)) {
         auto line = std::make_shared<std::string>(
             json_text(Dispatcher::error_response(
-                ErrorCode::busy, too_many ? "too many connections" : "too many connections from " + address)) +
+                ProtocolCode::busy, too_many ? "too many connections" : "too many connections from " + address)) +
             "\n");
         auto sock = std::make_shared<tcp::socket>(std::move(socket));
         boost::asio::async_write(*sock, boost::asio::buffer(*line), [sock, line](boost::system::error_code, size_t) {

@@ -6,9 +6,9 @@
 #include <stdexcept>
 
 #include "error_boundary.h"
-#include "godwit/report/locate_report.h"
 #include "job_priority.h"
 #include "thread_entry.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -83,14 +83,14 @@ void WorkerPool::loop() {
         store_.mark_cancelled(id);
         spdlog::info("job {} cancelled", id);
       } else {
-        store_.fail(id, error_to_json(result.error()));
+        store_.fail(id, wire_error_to_json(result.error()));
         spdlog::warn("job {} failed: {}", id, result.error().describe());
       }
       return ok_status();
     });
     if (!recorded) {
       spdlog::error("{}", recorded.error().message);
-      store_.fail(id, {{"code", std::string(wire_name(ErrorCode::internal))}, {"message", recorded.error().message}});
+      store_.fail(id, {{"code", std::string(wire_code_name(ErrorCode::internal))}, {"message", recorded.error().message}});
     }
   }
 }

@@ -3,6 +3,7 @@
 #include "error_boundary.h"
 #include "job_priority.h"
 #include "thread_entry.h"
+#include "wire_code.h"
 
 #include <spdlog/spdlog.h>
 
@@ -121,7 +122,7 @@ void QueueWorker::loop(size_t slot) {
       result = runner_.run(task.spec, [](double) {}, should_stop,
                            [&](std::string_view w) { spdlog::warn("task {}: {}", task.task, w); });
     } catch (const std::exception& e) {
-      result = Error{ErrorCode::bad_request, std::string("malformed task: ") + e.what(), "", std::nullopt};
+      result = Error{ProtocolCode::bad_request, std::string("malformed task: ") + e.what(), "", std::nullopt};
     } catch (...) {  // the task's error boundary (error_boundary.h): it fails, the daemon carries on
       result = Error{ErrorCode::internal, internal_error_message("task " + task.task), "", std::nullopt};
     }

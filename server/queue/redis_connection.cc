@@ -5,6 +5,8 @@
 #include <charconv>
 #include <cmath>
 
+#include "wire_code.h"
+
 namespace godwit {
 namespace {
 
@@ -102,7 +104,7 @@ Status RedisConnection::connect() {
     const std::string why = ctx_ ? ctx_->errstr : "out of memory";
     if (ctx_) redisFree(ctx_);
     ctx_ = nullptr;
-    return Error{ErrorCode::unavailable, "cannot reach Redis at " + host_ + ":" + std::to_string(port_) + ": " + why, "",
+    return Error{ProtocolCode::unavailable, "cannot reach Redis at " + host_ + ":" + std::to_string(port_) + ": " + why, "",
                  std::nullopt};
   }
   return ok_status();
@@ -135,10 +137,10 @@ Result<RedisReply> RedisConnection::command(const std::vector<std::string>& argv
     RedisReply out = copy(r);
     freeReplyObject(r);
     if (out.type == RedisReply::Type::error)
-      return Error{ErrorCode::bad_request, "Redis: " + out.str, "", std::nullopt};
+      return Error{ProtocolCode::bad_request, "Redis: " + out.str, "", std::nullopt};
     return out;
   }
-  return Error{ErrorCode::unavailable, last_error, "", std::nullopt};
+  return Error{ProtocolCode::unavailable, last_error, "", std::nullopt};
 }
 
 }  // namespace godwit

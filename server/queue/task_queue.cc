@@ -1,5 +1,6 @@
 #include "task_queue.h"
 #include "json_text.h"
+#include "wire_code.h"
 
 #include <unistd.h>
 
@@ -11,7 +12,7 @@ namespace {
 constexpr const char* kGroup = "workers";
 
 Error malformed(const std::string& what) {
-  return Error{ErrorCode::unavailable, "unexpected reply from Redis to " + what, "", std::nullopt};
+  return Error{ProtocolCode::unavailable, "unexpected reply from Redis to " + what, "", std::nullopt};
 }
 
 }  // namespace

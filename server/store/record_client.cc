@@ -6,6 +6,7 @@
 
 #include "host_port.h"
 #include "json_text.h"
+#include "wire_code.h"
 
 namespace godwit {
 
@@ -28,7 +29,7 @@ Status RecordClient::open(const std::string& where) {
     tcp::resolver r(impl_->io);
     boost::asio::connect(impl_->socket, r.resolve(host, std::to_string(port)));
   } catch (const std::exception& e) {
-    return Error{ErrorCode::unavailable, "cannot connect to godwitd at " + where + ": " + e.what(), "", std::nullopt};
+    return Error{ProtocolCode::unavailable, "cannot connect to godwitd at " + where + ": " + e.what(), "", std::nullopt};
   }
   return ok_status();
 }
@@ -44,7 +45,7 @@ Result<nlohmann::json> RecordClient::request(nlohmann::json req, const std::stri
     std::getline(is, reply);
     return nlohmann::json::parse(reply);
   } catch (const std::exception& e) {
-    return Error{ErrorCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
+    return Error{ProtocolCode::unavailable, std::string("connection lost: ") + e.what(), "", std::nullopt};
   }
 }
 

@@ -13,6 +13,7 @@
 #include "record_client.h"
 #include "record_requests.h"
 #include "record_store.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
@@ -28,8 +29,8 @@ struct RecordArgs {
 
 int fail(const Error& e) {
   std::cerr << "godwit: " << e.describe() << "\n";
-  if (e.code == ErrorCode::bad_request) return exit_status(ExitCode::usage);  // our own request, from the options
-  if (e.code == ErrorCode::unavailable) return exit_status(ExitCode::daemon_unavailable);
+  if (e.code == ProtocolCode::bad_request) return exit_status(ExitCode::usage);  // our own request, from the options
+  if (e.code == ProtocolCode::unavailable) return exit_status(ExitCode::daemon_unavailable);
   return exit_status(exit_code_for(e.code));
 }
 
@@ -69,7 +70,7 @@ class Source {
     if (!r) return r.error();
     if (!r.value().value("ok", false)) {
       const auto& e = r.value().contains("error") ? r.value()["error"] : nlohmann::json::object();
-      return Error{code_from_wire_name(e.value("code", "internal")), "godwitd: " + e.value("message", json_text(r.value())),
+      return Error{wire_code_from_name(e.value("code", "internal")), "godwitd: " + e.value("message", json_text(r.value())),
                    "", std::nullopt};
     }
     return r;

@@ -3,6 +3,7 @@
 #include "reconcile_record.h"
 #include "record_requests.h"
 #include "stored_tasks.h"
+#include "wire_code.h"
 
 namespace godwit {
 
@@ -14,7 +15,7 @@ void attach_record(RecordStore& store, Dispatcher& dispatcher) {
 void attach_record_unavailable(const Error& why, Dispatcher& dispatcher) {
   for (const char* op : {"airings", "proof"})
     dispatcher.add_op(op, [why](const nlohmann::json&) -> Result<nlohmann::json> {
-      return Error{ErrorCode::unavailable, "the store of record is unavailable: " + why.describe(), "", std::nullopt};
+      return Error{ProtocolCode::unavailable, "the store of record is unavailable: " + why.describe(), "", std::nullopt};
     });
 }
 

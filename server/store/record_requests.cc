@@ -4,11 +4,12 @@
 
 #include "airings_query.h"
 #include "proof_report.h"
+#include "wire_code.h"
 
 namespace godwit {
 namespace {
 
-Error bad(const std::string& m) { return Error{ErrorCode::bad_request, m, "", std::nullopt}; }
+Error bad(const std::string& m) { return Error{ProtocolCode::bad_request, m, "", std::nullopt}; }
 
 Result<std::string> text_field(const nlohmann::json& req, const char* key, bool required) {
   auto it = req.find(key);

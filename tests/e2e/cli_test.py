@@ -264,6 +264,23 @@ class DemoLocate(unittest.TestCase):
         run("locate", "--library", self.lib, "--recording", self.rec, "--format", "xml", check=2)
         run("frobnicate", check=2)
 
+    def test_search_flags_are_checked_as_a_daemon_job_is(self):
+        # The flags land in the daemon's job fields (server/common/job_spec.h)
+        # and are checked by its one check: its ranges (PROTOCOL.md: speed and
+        # tempo 0..10, fft_size a power of two up to 2^24) and its message,
+        # as a usage error here.
+        p = self.locate("--fft-size", "1000", check=2)
+        self.assertIn("'fft_size' must be a power of two", p.stderr)
+        self.locate("--fft-size", str(1 << 25), check=2)
+        self.locate("--max-speed-change", "10.5", check=2)
+        self.locate("--max-tempo-change", "-1", check=2)
+        self.locate("--threshold", "0.04", check=2)
+        # 0 is in the daemon's range: the speed search off, as --no-speed-search.
+        off = json.loads(self.locate("--max-speed-change", "0", "-q").stdout)
+        none = json.loads(self.locate("--no-speed-search", "-q").stdout)
+        self.assertEqual(off["matches"], none["matches"])
+        self.assertTrue(off["matches"])
+
     def test_unwritable_output_exits_5_and_leaves_no_file(self):
         target = os.path.join(self.tmp.name, "no-such-dir", "out.json")
         p = self.locate("--out", target, check=5)

@@ -38,6 +38,7 @@
 #include "json_text.h"
 #include "line_framer.h"
 #include "path_guard.h"
+#include "wire_code.h"
 
 namespace fs = std::filesystem;
 using namespace godwit;
@@ -155,7 +156,7 @@ void check_answer(const Reply& reply) {
     if (!e.is_object() || !e.contains("code") || !e["code"].is_string() || !e.contains("message"))
       fail("an error answer lacks code or message: " + text.substr(0, 500));
     const std::string code = e["code"];
-    if (code == "internal" || code_from_wire_name(code) == ErrorCode::internal)
+    if (code == "internal" || wire_code_from_name(code) == ErrorCode::internal)
       fail("an internal or unknown error code: " + text.substr(0, 500));
   }
   if (back.contains("id")) {
@@ -221,7 +222,7 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   });
   for (const auto& ev : framed.first) {
     if (ev.kind == LineFramer::Event::too_long) {
-      check_answer({Dispatcher::error_response(ErrorCode::too_large, "request line over the limit"), false, {}});
+      check_answer({Dispatcher::error_response(ProtocolCode::too_large, "request line over the limit"), false, {}});
       continue;
     }
     if (ev.text.empty()) continue;  // the session skips empty lines

@@ -33,9 +33,11 @@ TEST_CASE("every error code has an exit code of the table, and the README docume
   std::set<int> table;
   for (ExitCode c : all_exit_codes()) table.insert(exit_status(c));
   CHECK(table.size() == all_exit_codes().size());  // no two names for one status
-  for (int i = 0; i <= static_cast<int>(ErrorCode::internal); ++i) {
-    const auto e = static_cast<ErrorCode>(i);
-    CAPTURE(wire_name(e));
+  // Every code a run can fail with, the engine's and the protocol's, from
+  // wire_code.h's table (not a list kept here).
+  CHECK(all_wire_codes().size() >= 17);
+  for (ErrorCode e : all_wire_codes()) {
+    CAPTURE(wire_code_name(e));
     CHECK(table.count(exit_status(exit_code_for(e))) == 1);
     CHECK(exit_code_for(e) != ExitCode::done);  // a failure never exits 0
   }
@@ -50,4 +52,19 @@ TEST_CASE("the exit codes scripts rely on") {
   CHECK(exit_status(exit_code_for(ErrorCode::no_placements)) == 8);
   CHECK(exit_status(exit_code_for(ErrorCode::cancelled)) == 130);
   CHECK(exit_status(exit_code_for(ErrorCode::internal)) == 70);
+  // README "Exit codes": 6 refused, 7 daemon unavailable or busy.
+  CHECK(exit_status(exit_code_for(ProtocolCode::forbidden)) == 6);
+  CHECK(exit_status(exit_code_for(ProtocolCode::unknown_job)) == 6);
+  CHECK(exit_status(exit_code_for(ProtocolCode::busy)) == 7);
+  CHECK(exit_status(exit_code_for(ProtocolCode::unavailable)) == 7);
+}
+
+TEST_CASE("a request godwitd refused exits refused, unless the daemon is unavailable or busy") {
+  for (ErrorCode e : all_wire_codes()) {
+    CAPTURE(wire_code_name(e));
+    const bool unavailable = e == ProtocolCode::busy || e == ProtocolCode::unavailable;
+    CHECK(exit_code_for_reply(e) == (unavailable ? ExitCode::daemon_unavailable : ExitCode::refused));
+  }
+  CHECK(exit_code_for_reply(wire_code_from_name("")) == ExitCode::refused);  // a reply without a code
+  CHECK(exit_code_for_reply(wire_code_from_name("no_such_code")) == ExitCode::refused);
 }

@@ -5,6 +5,8 @@
 
 #include <doctest/doctest.h>
 
+#include "wire_code.h"
+
 using namespace godwit;
 
 TEST_CASE("prepared jobs and tasks read into types and write back as the same JSON") {
@@ -77,7 +79,7 @@ TEST_CASE("a job with a field of the wrong kind or out of range is refused namin
   auto refused = [](const nlohmann::json& j) -> std::string {
     auto s = job_spec_from_json(j);
     if (s.ok()) return "";
-    CHECK(s.error().code == ErrorCode::bad_request);
+    CHECK(s.error().code == ProtocolCode::bad_request);
     return s.error().message;
   };
   const nlohmann::json ok{{"kind", "locate"}, {"templates", {"/a.wav"}}, {"recordings", {"/x.flac"}}};

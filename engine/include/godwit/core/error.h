@@ -1,8 +1,11 @@
 // Errors as values at module edges.
 //
 // Callers branch on `Error::code` (a few stable codes); `message` is for
-// people. Each code has one wire name (protocol, JSON), from the single
-// table in error.cc. Exit codes are the programs' (server/common/exit_code.h).
+// people. Each of the engine's codes has one wire name (JSON documents), from
+// the table in error.cc. The engine knows nothing of a protocol or of
+// processes: the daemon's own codes (forbidden, busy, ...) and their names are
+// the server's (server/common/wire_code.h), the exit codes too
+// (server/common/exit_code.h).
 #pragma once
 
 #include <optional>
@@ -13,7 +16,12 @@
 
 namespace godwit {
 
-enum class ErrorCode {
+// What the engine itself can fail with. The enum is open (its underlying type
+// is fixed): a program built on the engine may carry codes of its own in an
+// Error, numbered from kFirstProgramErrorCode up (godwit's daemon protocol:
+// server/common/wire_code.h). The engine never produces one, and wire_name()
+// below does not name them.
+enum class ErrorCode : int {
   usage,             // bad options or arguments
   not_found,         // a path does not exist
   unreadable,        // exists but cannot be opened or read (permissions, not audio)
@@ -23,15 +31,12 @@ enum class ErrorCode {
   io,                // an operating-system error while reading or writing
   cancelled,         // the caller asked to stop
   invalid_template,  // a master that cannot serve as a template (too short, silent)
-  forbidden,         // a path outside the daemon's roots, or a missing or wrong token
-  busy,              // the daemon's queue is full: retry later
-  unavailable,       // the daemon is shutting down, or cannot be reached
-  not_found_job,     // no such job
-  bad_request,       // malformed JSON, unknown op, missing or mistyped field
-  too_large,         // a request line, inline spot or job over its limit
   no_placements,     // a planned log without a single valid row (empty, header only, or every row rejected)
   internal,          // a bug: please report it. Keep it last: the codes run from 0 to it (error_test.cc)
 };
+
+// The first code a program may define beside the engine's (see ErrorCode).
+inline constexpr int kFirstProgramErrorCode = 64;
 
 struct Error {
   ErrorCode code = ErrorCode::internal;
@@ -43,9 +48,11 @@ struct Error {
   std::string describe() const;
 };
 
-// Stable lowercase name used on the wire and in JSON documents.
+// Stable lowercase name of one of the engine's codes, used in JSON documents
+// and on the wire; `internal`'s for a code the engine does not define (a
+// program's: name those with the program's table).
 std::string_view wire_name(ErrorCode code);
-// The code of a wire name; `internal` for a name this build does not know.
+// The engine's code of a wire name; `internal` for a name it does not know.
 ErrorCode code_from_wire_name(std::string_view name);
 
 // Either a value or an Error. Deliberately small: `ok()`, `value()`,
