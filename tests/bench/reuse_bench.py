@@ -14,7 +14,7 @@ noise, 30 s each) make the library larger.
      time, CPU, and how many (piece x master) searches ran (0 expected).
 
 Run: tests/bench/reuse_bench.py --godwit build/server/godwit --godwitd build/server/godwitd \\
-       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop]
+       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop] [--excerpts]
 """
 import argparse
 import csv
@@ -93,7 +93,8 @@ def drop_day(a, work, lib, log, files):
     config = os.path.join(work, "godwitd.toml")
     with open(config, "w") as f:
         f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{state}"\nroots = ["{work}", "/tmp"]\n'
-                f'library = "{lib}"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\nexcerpts = false\n')
+                f'library = "{lib}"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
+                f'excerpts = {"true" if a.excerpts else "false"}\n')
     result = os.path.join(drop, "results", "bench-fm-2026-05-20.reconcile.json")
     cpu0, t0 = child_cpu(), time.time()
     with open(os.path.join(work, "godwitd.log"), "w") as logf:
@@ -139,6 +140,8 @@ def main():
     ap.add_argument("--extra-masters", type=int, default=0)
     ap.add_argument("--work", default="")
     ap.add_argument("--skip-drop", action="store_true", help="only the re-reconcile (its store made by a reconcile)")
+    ap.add_argument("--excerpts", action="store_true",
+                    help="the drop folder writes the day's excerpts to listen to (godwitd's default; off otherwise)")
     a = ap.parse_args()
     work = a.work or tempfile.mkdtemp(prefix="reuse-bench-")
     os.makedirs(work, exist_ok=True)
