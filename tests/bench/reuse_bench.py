@@ -11,7 +11,9 @@ noise, 30 s each) make the library larger.
   2. godwitd with the store of record, the drop folder and the schedules folder: the files dropped one at a time,
      each located and its day reconciled before the next; godwitd's CPU over the whole day.
   3. `godwit reconcile --state-dir` of the stored day with its log edited (every placement moved 20 s): wall
-     time, CPU, and how many (piece x master) searches ran (0 expected).
+     time, CPU, and how many (piece x master) searches ran (0 expected), and whether the families (sibling
+     discovery) were found again (0 expected: read back from the store).
+With --excerpts the drop folder also writes the day's excerpts to listen to each hour (godwitd's default).
 
 Run: tests/bench/reuse_bench.py --godwit build/server/godwit --godwitd build/server/godwitd \\
        --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop] [--excerpts]
@@ -179,7 +181,8 @@ def main():
         s = json.load(f)["searches"]
     print(f"re-reconcile of the stored day, log edited: {wall:.2f} s wall, {cpu:.2f} s CPU (target <= 5 s for "
           f"24 h x 100 masters); searched {s['searched']}, reused {s['reused']} (piece x master); evidence "
-          f"gathered {s['evidence_gathered']}, reused {s['evidence_reused']}")
+          f"gathered {s['evidence_gathered']}, reused {s['evidence_reused']}; families found "
+          f"{s.get('families_found', '-')}, reused {s.get('families_reused', '-')}")
 
 
 if __name__ == "__main__":
