@@ -175,22 +175,33 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     }
   }
 
-  // 3. Masters at the analysis rate: families.
-  std::vector<std::string> ids;
-  std::vector<Samples> analysis;
-  std::map<size_t, std::string> declared;
+  // 3. Families, from the masters at the analysis rate (or from where the
+  // options' source kept them).
+  FamilyQuery query;
   for (size_t i = 0; i < job.masters.size(); ++i) {
-    ids.push_back(template_id_for(job.masters[i]));
-    auto s = o.locate.masters->samples(job.masters[i], o.locate.analysis_rate_hz);
-    if (!s) return s.error();
-    analysis.push_back(*s.value());
-    if (auto it = job.meta.find(ids.back()); it != job.meta.end() && !it->second.family.empty())
-      declared[i] = it->second.family;
+    query.ids.push_back(template_id_for(job.masters[i]));
+    query.paths.push_back(job.masters[i]);
+    if (auto it = job.meta.find(query.ids.back()); it != job.meta.end() && !it->second.family.empty())
+      query.declared[i] = it->second.family;
   }
-  FamilyOptions fo = o.families;
-  fo.segment_s = o.verify.segment_s;
-  const Families fam = find_families(ids, analysis, o.locate.analysis_rate_hz, declared, fo);
-  analysis.clear();
+  query.rate_hz = o.locate.analysis_rate_hz;
+  query.options = o.families;
+  query.options.segment_s = o.verify.segment_s;
+  auto find = [&]() -> Result<Families> {
+    std::vector<Samples> analysis;
+    for (const auto& path : query.paths) {
+      auto s = o.locate.masters->samples(path, query.rate_hz);
+      if (!s) return s.error();
+      analysis.push_back(*s.value());
+    }
+    return find_families(query.ids, analysis, query.rate_hz, query.declared, query.options);
+  };
+  auto found_families = o.families_source ? o.families_source(query, find) : find();
+  if (!found_families) return found_families.error();
+  const Families fam = std::move(found_families.value());
+  const std::vector<std::string>& ids = query.ids;
+  if (fam.family_of.size() != ids.size())
+    return Error{ErrorCode::internal, "families of another set of masters", "", std::nullopt};
   {
     std::map<size_t, std::vector<std::string>> groups;
     for (size_t i = 0; i < ids.size(); ++i) groups[fam.family_of[i]].push_back(ids[i]);

@@ -5,12 +5,15 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
+#include <limits>
 #include <memory>
 #include <mutex>
+#include <nlohmann/json.hpp>
 #include <set>
 
 #include "godwit/audio/analysis_stream.h"
 #include "godwit/audio/resampler.h"
+#include "godwit/core/version.h"
 #include "audio/sndfile_lock.h"
 
 namespace godwit {
@@ -116,6 +119,33 @@ class RunReader {
   std::map<double, std::unique_ptr<ConcatSource>> streams_;
 };
 
+// An airing's excerpt origin: the run's files from its first up to the
+// last one [at_s - pad, to_s) reaches (where the cut falls in the run's
+// time depends on every file before it; the files after it do not
+// matter), the span, the encoding.
+ExcerptOrigin airing_origin(const std::vector<ConcatPart>& parts, double at_s, double to_s,
+                            const nlohmann::json& encoding) {
+  ExcerptOrigin origin;
+  nlohmann::json files = nlohmann::json::array();
+  double start_s = 0;
+  for (const auto& p : parts) {
+    files.push_back({p.path, p.skip_frames, p.frames, p.rate_hz});
+    origin.files.push_back(p.path);
+    if (!(p.rate_hz > 0)) {  // its length is not known here: every file counts
+      start_s = std::numeric_limits<double>::infinity();
+      continue;
+    }
+    start_s += static_cast<double>(p.frames - p.skip_frames) / p.rate_hz;  // at least what it adds
+    if (start_s >= to_s) break;
+  }
+  nlohmann::json key = encoding;
+  key["run"] = files;
+  key["at_s"] = at_s;
+  key["to_s"] = to_s;
+  origin.key = key.dump();
+  return origin;
+}
+
 }  // namespace
 
 std::string safe_file_name(const std::string& text, size_t max_chars) {
@@ -189,10 +219,25 @@ Result<Listening> make_excerpts(const ReconcileResult& r, const SourceOpener& op
                            [](const auto& a, const auto& b) { return a.first == b.first; }),
                wanted.end());
   auto stopped = [&] { return o.should_stop && o.should_stop(); };
-  auto keep = [&](const std::string& stem, const Samples& mono, double rate_hz, ExcerptRef& ref) -> Status {
+  const nlohmann::json encoding{{"version", godwit_version()},
+                                {"pad_s", o.pad_s},
+                                {"bitrate_bps", o.bitrate_bps},
+                                {"encode_rate_hz", o.encode_rate_hz},
+                                {"envelope_step_s", o.envelope_step_s}};
+  // An excerpt kept from before, under `name`, when the caller has it.
+  auto reuse = [&](const std::string& name, ExcerptOrigin origin) -> std::optional<ExcerptRef> {
+    std::optional<ExcerptRef> ref;
+    if (o.kept) ref = o.kept(name, origin);
+    out.origins[name] = std::move(origin);
+    if (ref) {
+      ref->file = o.folder + "/" + name;
+      ++out.kept;
+    }
+    return ref;
+  };
+  auto keep = [&](const std::string& name, const Samples& mono, double rate_hz, ExcerptRef& ref) -> Status {
     auto bytes = encode_excerpt(mono, rate_hz, o);
     if (!bytes) return bytes.error();
-    const std::string name = names.take(stem, ".opus");
     if (auto st = sink(name, bytes.value()); !st) return st.error();
     ref.file = o.folder + "/" + name;
     ref.bytes = bytes.value().size();
@@ -217,16 +262,25 @@ Result<Listening> make_excerpts(const ReconcileResult& r, const SourceOpener& op
       if (stopped()) return Error{ErrorCode::cancelled, "cancelled", "", std::nullopt};
       const AiringRecord& a = r.airings[i];
       const double air_length_s = a.length_s / (a.time_scale() > 0 ? a.time_scale() : 1.0);
+      const double to_s = a.run_offset_s + air_length_s + o.pad_s;
+      const std::string name = names.take(stem + "_" + compact_time(a.aired_s), ".opus");
+      if (auto ref = reuse(name, airing_origin(r.runs[run], a.run_offset_s, to_s, encoding))) {
+        out.airings[i] = std::move(*ref);
+        heard.insert(a.spot);
+        for (const auto& u : a.undetermined_among) heard.insert(u);
+        continue;
+      }
       double from_s = a.run_offset_s - o.pad_s, rate = 0;
-      auto mono = reader.cut(a.run_offset_s, from_s, a.run_offset_s + air_length_s + o.pad_s, rate);
+      auto mono = reader.cut(a.run_offset_s, from_s, to_s, rate);
       const std::string label = stem + " (" + a.spot + " at " + format_iso8601_local(a.aired_s, 3) + ")";
       if (!mono || mono.value().empty()) {
+        out.origins.erase(name);
         out.problems.push_back(label + ": " + (mono ? std::string("nothing recorded there") : mono.error().describe()));
         continue;
       }
       ExcerptRef ref;
       ref.from_s = from_s - a.run_offset_s;
-      if (auto st = keep(stem + "_" + compact_time(a.aired_s), mono.value(), rate, ref); !st) return st.error();
+      if (auto st = keep(name, mono.value(), rate, ref); !st) return st.error();
       out.airings[i] = std::move(ref);
       heard.insert(a.spot);
       for (const auto& u : a.undetermined_among) heard.insert(u);
@@ -240,15 +294,22 @@ Result<Listening> make_excerpts(const ReconcileResult& r, const SourceOpener& op
     if (stopped()) return Error{ErrorCode::cancelled, "cancelled", "", std::nullopt};
     auto it = r.spots.find(spot);
     if (it == r.spots.end()) continue;
+    const std::string name = names.take("master_" + safe_file_name(spot, 80), ".opus");
+    nlohmann::json key = encoding;
+    key["master"] = it->second.path;
+    if (auto ref = reuse(name, {key.dump(), {it->second.path}})) {
+      out.masters[spot] = std::move(*ref);
+      continue;
+    }
     auto src = opener(it->second.path, ChannelChoice{});
     Result<Samples> mono = src ? decode_all(*src.value(), 0) : Result<Samples>(src.error());
     if (!mono || mono.value().empty()) {
+      out.origins.erase(name);
       out.problems.push_back("master " + spot + ": " + (mono ? std::string("empty") : mono.error().describe()));
       continue;
     }
     ExcerptRef ref;
-    if (auto st = keep("master_" + safe_file_name(spot, 80), mono.value(), src.value()->info().native_rate_hz, ref); !st)
-      return st.error();
+    if (auto st = keep(name, mono.value(), src.value()->info().native_rate_hz, ref); !st) return st.error();
     out.masters[spot] = std::move(ref);
   }
   return out;

@@ -85,6 +85,7 @@ Result<ReconcileResult> reconcile_by_tasks(const ReconcileJob& job, ReconcileOpt
   if (!found) return found.error();
   if (tasks_out) *tasks_out = found.value().tasks.size();
   options.locate.should_stop = should_stop;
+  runner.ask_families(options);
   auto r = finish_reconcile(job, std::move(rplan), std::move(found.value().search), options,
                             std::move(found.value().evidence));
   runner.finished(job_id, found.value().tasks);

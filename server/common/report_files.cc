@@ -5,6 +5,7 @@
 #include <fstream>
 
 #include "atomic_file.h"
+#include "kept_excerpts.h"
 #include "godwit/report/html_report.h"
 
 namespace godwit {
@@ -47,9 +48,13 @@ Result<std::optional<Listening>> write_excerpts(const ReconcileResult& r, const 
   fs::remove_all(fresh, ec);
   fs::create_directories(fresh, ec);
   if (ec) return io_error("cannot create the excerpts folder", fresh, ec);
+  // Excerpts of the report this one replaces, taken when unchanged.
+  KeptExcerpts kept(fs::path(f.dir) / ("." + f.listen_folder + ".json"), only_excerpts(target) ? target : fs::path(),
+                    fresh);
   ExcerptOptions eo;
   eo.folder = f.listen_folder;
   eo.should_stop = should_stop;
+  eo.kept = [&kept](const std::string& name, const ExcerptOrigin& origin) { return kept.take(name, origin); };
   auto sink = [&](const std::string& name, const std::string& bytes) -> Status {
     const fs::path p = fresh / name;
     std::ofstream out(p, std::ios::binary | std::ios::trunc);
@@ -78,6 +83,7 @@ Result<std::optional<Listening>> write_excerpts(const ReconcileResult& r, const 
   }
   fs::rename(fresh, target, ec);
   if (ec) return io_error("cannot put the excerpts folder in place", target, ec);
+  if (auto st = kept.write(made.value()); !st) warn("excerpts will be made again next time: " + st.error().describe());
   for (const auto& p : made.value().problems) warn("no excerpt for " + p);
   return std::optional<Listening>(std::move(made.value()));
 }

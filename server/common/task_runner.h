@@ -25,13 +25,19 @@
 namespace godwit {
 
 // How many (piece x master) searches a job ran and how many it read back
-// from the store of record instead (stored_tasks.h); evidence likewise.
+// from the store of record instead (stored_tasks.h); evidence likewise;
+// and whether its sibling discovery (families.h) ran or was read back.
 struct SearchCounts {
   size_t searched = 0, reused = 0;
   size_t evidence_gathered = 0, evidence_reused = 0;
+  size_t families_found = 0, families_reused = 0;
   nlohmann::json to_json() const {
-    return {{"searched", searched}, {"reused", reused}, {"evidence_gathered", evidence_gathered},
-            {"evidence_reused", evidence_reused}};
+    return {{"searched", searched},
+            {"reused", reused},
+            {"evidence_gathered", evidence_gathered},
+            {"evidence_reused", evidence_reused},
+            {"families_found", families_found},
+            {"families_reused", families_reused}};
   }
 };
 
@@ -57,6 +63,19 @@ class TaskRunner {
                                                                  const ReconcileOptions& options) {
     counts_.evidence_gathered += matches.size();
     return gather_evidence(templates, parts, matches, options);
+  }
+  // The job's families (ReconcileOptions::families_source): `find` runs
+  // sibling discovery; a runner that keeps results may read them back.
+  virtual Result<Families> families(const FamilyQuery& /*query*/, const std::function<Result<Families>()>& find) {
+    ++counts_.families_found;
+    return find();
+  }
+  // `options` with their families asked of this runner (which must outlive
+  // every use of them).
+  void ask_families(ReconcileOptions& options) {
+    options.families_source = [this](const FamilyQuery& q, const std::function<Result<Families>()>& find) {
+      return families(q, find);
+    };
   }
   const SearchCounts& counts() const { return counts_; }
 

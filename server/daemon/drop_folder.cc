@@ -34,7 +34,10 @@ struct Seen {
 }  // namespace
 
 DropFolder::DropFolder(DropOptions options, const JobRunner& runner, JobExecutor executor)
-    : o_(std::move(options)), runner_(runner), executor_(std::move(executor)) {
+    : o_(std::move(options)),
+      who_(o_.station.empty() ? "drop folder" : "drop folder (station " + o_.station + ")"),
+      runner_(runner),
+      executor_(std::move(executor)) {
   if (!executor_) executor_ = local_executor(runner_);
   if (o_.library.empty()) o_.library = runner_.config().default_library;
   if (o_.time_zone.empty()) o_.time_zone = runner_.config().time_zone;
@@ -55,14 +58,14 @@ Status DropFolder::start() {
       ::close(inotify_fd_);
       inotify_fd_ = -1;
     }
-    if (inotify_fd_ < 0) spdlog::warn("drop folder: inotify unavailable, polling every {} s", o_.poll_s);
+    if (inotify_fd_ < 0) spdlog::warn("{}: inotify unavailable, polling every {} s", who_, o_.poll_s);
   }
   for (const char* sub : {"results", "failed"})  // left by a kill mid-write
     remove_stale_temporaries((fs::path(o_.dir) / sub).string());
   // Listed after the watch is in place, so nothing falls between the two.
   for (fs::directory_iterator it(fs::path(o_.dir) / "incoming", ec), end; !ec && it != end; it.increment(ec))
     preexisting_.insert(it->path().filename().string());
-  thread_ = std::thread([this] { thread_entry("drop folder", [this] { loop(); }); });
+  thread_ = std::thread([this] { thread_entry(who_, [this] { loop(); }); });
   return ok_status();
 }
 
@@ -92,7 +95,7 @@ void DropFolder::loop() {
     const std::string safe = escape_invalid_utf8(name);
     std::error_code rc;
     if (safe != name) fs::rename(work / name, work / safe, rc);
-    if (rc) spdlog::warn("drop folder: cannot rename {}: {}", safe, rc.message());
+    if (rc) spdlog::warn("{}: cannot rename {}: {}", who_, safe, rc.message());
     else process(safe);
   }
 
@@ -154,13 +157,13 @@ void DropFolder::loop() {
       const std::string claimed = unused_name(escape_invalid_utf8(name));
       fs::rename(incoming / name, work / claimed, rc);  // the claim
       if (rc) {
-        spdlog::warn("drop folder: cannot claim {}: {}", claimed, rc.message());
+        spdlog::warn("{}: cannot claim {}: {}", who_, claimed, rc.message());
         continue;
       }
       seen.erase(name);
       closed.erase(name);
       preexisting.erase(name);
-      if (claimed != name) spdlog::info("drop folder: {} claimed as {} (the name was taken)", name, claimed);
+      if (claimed != name) spdlog::info("{}: {} claimed as {} (the name was taken)", who_, name, claimed);
       process(claimed);
     }
   }
@@ -210,14 +213,14 @@ void DropFolder::reject(const fs::path& from, const std::string& why) {
   std::error_code ec;
   fs::rename(from, base / "failed" / name, ec);  // the link itself, never what it leads to
   if (ec) {
-    spdlog::warn("drop folder: {} is {}; cannot move it to failed/: {}", from.filename().string(), why, ec.message());
+    spdlog::warn("{}: {} is {}; cannot move it to failed/: {}", who_, from.filename().string(), why, ec.message());
     return;
   }
   nlohmann::json err = wire_error_to_json(Error{
       ErrorCode::unsupported, "not processed: " + why + "; the drop folder takes regular files only", "", std::nullopt});
   err["file"] = name;
   (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
-  spdlog::warn("drop folder: {} is {}: moved to failed/ unprocessed", name, why);
+  spdlog::warn("{}: {} is {}: moved to failed/ unprocessed", who_, name, why);
 }
 
 void DropFolder::process(const std::string& name) {
@@ -225,7 +228,7 @@ void DropFolder::process(const std::string& name) {
     process_file(name);
   } catch (...) {  // the file's error boundary (error_boundary.h): it fails, the daemon carries on
     const std::string what = internal_error_message("");
-    spdlog::error("drop folder: {} failed: {}", name, what);
+    spdlog::error("{}: {} failed: {}", who_, name, what);
     const fs::path base(o_.dir);
     std::error_code ec;
     fs::rename(base / "work" / name, base / "failed" / name, ec);
@@ -238,7 +241,7 @@ void DropFolder::process(const std::string& name) {
 void DropFolder::process_file(const std::string& name) {
   const fs::path base(o_.dir);
   const std::string path = (base / "work" / name).string();
-  spdlog::info("drop folder: processing {}", name);
+  spdlog::info("{}: processing {}", who_, name);
   Result<nlohmann::json> doc = Error{ErrorCode::internal, "not run", path, std::nullopt};
   auto lib = runner_.library_files(o_.library);
   if (!lib) {
@@ -254,7 +257,7 @@ void DropFolder::process_file(const std::string& name) {
       // the tasks already stored by the queue.
       const std::string id = o_.station.empty() ? "drop-" + name : "drop-" + o_.station + "-" + name;
       doc = executor_(id, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
-                      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", name, w); }, nullptr);
+                      [&](std::string_view w) { spdlog::warn("{} {}: {}", who_, name, w); }, nullptr);
     }
   }
   std::error_code ec;
@@ -277,7 +280,7 @@ void DropFolder::process_file(const std::string& name) {
   }
   if (!failed) {
     fs::rename(path, base / "done" / name, ec);
-    spdlog::info("drop folder: {} done", name);
+    spdlog::info("{}: {} done", who_, name);
     if (!o_.schedules.empty()) reconcile_day(name);
     return;
   }
@@ -285,13 +288,13 @@ void DropFolder::process_file(const std::string& name) {
   err["file"] = name;
   (void)write_file_atomically((base / "failed" / (name + ".error.json")).string(), json_text(err, 2) + "\n");
   fs::rename(path, base / "failed" / name, ec);
-  spdlog::warn("drop folder: {} failed: {}", name, err.value("message", ""));
+  spdlog::warn("{}: {} failed: {}", who_, name, err.value("message", ""));
 }
 
 void DropFolder::reconcile_day(const std::string& name) {
   const auto start = time_from_name(name, o_.name_pattern);
   if (!start) {
-    spdlog::warn("drop folder: {} has no start time in its name; not reconciled", name);
+    spdlog::warn("{}: {} has no start time in its name; not reconciled", who_, name);
     return;
   }
   const std::string day = format_iso8601_local(*start, 0).substr(0, 10);  // YYYY-MM-DD
@@ -319,7 +322,7 @@ void DropFolder::reconcile_day(const std::string& name) {
   spec.station = o_.station;
   if (o_.name_pattern != ReconcileOptions{}.name_pattern) spec.name_pattern = o_.name_pattern;
   if (auto st = check_job_spec(spec); !st) {
-    spdlog::warn("drop folder: reconciling {} failed: {}", day, st.error().describe());
+    spdlog::warn("{}: reconciling {} failed: {}", who_, day, st.error().describe());
     return;
   }
   // The page and its excerpts: results/<log>.reconcile.html and
@@ -334,16 +337,16 @@ void DropFolder::reconcile_day(const std::string& name) {
   // its reconciliation rebuilt here from the merged search.
   auto doc = executor_(
       o_.station.empty() ? "drop-day-" + day : "drop-day-" + o_.station + "-" + day, job_spec_to_json(spec), [](double) {}, [this] { return stop_.load(); },
-      [&](std::string_view w) { spdlog::warn("drop folder {}: {}", day, w); }, &files);
+      [&](std::string_view w) { spdlog::warn("{} {}: {}", who_, day, w); }, &files);
   if (!doc) {
-    spdlog::warn("drop folder: reconciling {} failed: {}", day, doc.error().describe());
+    spdlog::warn("{}: reconciling {} failed: {}", who_, day, doc.error().describe());
     return;
   }
   const std::string out = (fs::path(o_.dir) / "results" / (stem + ".reconcile.json")).string();
   if (auto st = write_file_atomically(out, json_text(doc.value(), 2) + "\n"); !st)
-    spdlog::warn("drop folder: {}", st.error().describe());
+    spdlog::warn("{}: {}", who_, st.error().describe());
   else
-    spdlog::info("drop folder: {} reconciled over {} recording(s)", day, recordings.size());
+    spdlog::info("{}: {} reconciled over {} recording(s)", who_, day, recordings.size());
 }
 
 }  // namespace godwit

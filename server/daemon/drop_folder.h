@@ -85,6 +85,9 @@ class DropFolder {
   void reject(const std::filesystem::path& from, const std::string& why);
   void reconcile_day(const std::string& name);
   DropOptions o_;
+  // How its log lines begin: "drop folder", or "drop folder (station S)"
+  // for a named station, so that every line says whose folder it is.
+  std::string who_;
   const JobRunner& runner_;
   JobExecutor executor_;
   std::thread thread_;

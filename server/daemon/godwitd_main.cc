@@ -347,6 +347,14 @@ int main(int argc, char** argv) {
                                          "placement(s), {} recording(s), {} search(es), {} job(s) in {:.2f} s",
                                          c.station, c.cut, c.detections, c.placements, c.recordings, c.searches,
                                          c.jobs, c.seconds);
+                        auto kept = prune_kept_results(*rec, policy.unnamed_results_days,
+                                                       static_cast<int64_t>(std::time(nullptr)));
+                        if (!kept)
+                          spdlog::error("retention: kept search results were not pruned: {}", kept.error().describe());
+                        else if (kept.value().total())
+                          spdlog::info("retention: deleted {} kept search result(s) of recordings the record no "
+                                       "longer names ({} file link(s)) and {} digest(s) of files gone",
+                                       kept.value().results, kept.value().result_files, kept.value().digests);
                       }});
   }
   Housekeeper housekeeper(std::move(upkeep), cfg.retention_interval_h * 3600);

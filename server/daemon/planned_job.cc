@@ -105,6 +105,7 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
   }
   ReconcileOptions& ro = rec->options;
   ro.locate.should_stop = should_stop;
+  tasks_runner.ask_families(ro);
   auto r = finish_reconcile(rec->job, std::move(rplan), std::move(search), ro, std::move(evidence));
   if (!r) return r.error();
   auto documents = runner.reconcile_documents(r.value(), *rspec, ro, rec->title, report, should_stop, warn, job_id);

@@ -117,7 +117,7 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
     if (store && row.size_bytes > 0) known = store->known_sha256(job.station, row.path, row.size_bytes, row.mtime_ns);
     if (known) {
       row.sha256 = *known;
-    } else if (auto h = file_sha256(s.path)) {
+    } else if (auto h = store ? store->file_digest(s.path) : file_sha256(s.path)) {
       row.sha256 = h.value();
     }
     row.start_local = s.start_s;
@@ -133,7 +133,8 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
     MasterRow m;
     m.spot = spot;
     m.path = absolute_path(info.path);
-    if (auto h = file_sha256(info.path)) m.sha256 = h.value();
+    // Kept by stat (file_digests): a library is not read again for every day.
+    if (auto h = store ? store->file_digest(info.path) : file_sha256(info.path)) m.sha256 = h.value();
     m.title = info.meta.title;
     m.advertiser = info.meta.advertiser;
     m.family = info.meta.family;

@@ -38,7 +38,8 @@ std::string station_from_name(const std::string& path, const std::string& name_p
 std::string search_options_json(const ReconcileOptions& options);
 
 // Hashes the recordings (reusing a stored hash when a file's size and
-// modification time are unchanged) and masters, and builds the rows.
+// modification time are unchanged) and masters (with a store: through its
+// file_digests, by stat), and builds the rows.
 JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, const RecordContext& context,
                      RecordStore* store);
 

@@ -1,5 +1,7 @@
 #include "record_retention.h"
 
+#include <sys/stat.h>
+
 #include <chrono>
 #include <algorithm>
 #include <cmath>
@@ -128,6 +130,79 @@ Result<std::vector<RetentionCounts>> apply_retention(RecordStore& store, const R
     if (auto st = prune_station(store, s, days, now_utc, c); !st) return st.error();
     out.push_back(c);
   }
+  return out;
+}
+
+Result<KeptRetentionCounts> prune_kept_results(RecordStore& store, double unnamed_days, int64_t now_utc) {
+  KeptRetentionCounts out;
+  const auto cut_utc = static_cast<int64_t>(static_cast<double>(now_utc) - std::max(0.0, unnamed_days) * kDayS);
+  auto st = store.write([&](SqliteDb& db) -> Status {
+    auto tx = SqliteTransaction::begin(db);
+    if (!tx) return tx.error();
+    auto results = db.prepare(
+        "DELETE FROM search_results WHERE kind IN ('search', 'evidence') AND stored_utc < ?1 AND EXISTS ("
+        "SELECT 1 FROM search_result_files f WHERE f.kind = search_results.kind AND "
+        "f.key_sha256 = search_results.key_sha256 AND NOT EXISTS ("
+        "SELECT 1 FROM recordings r WHERE r.sha256 = f.file_sha256))");
+    if (!results) return results.error();
+    results.value().bind(1, cut_utc);
+    if (auto r = results.value().run(); !r) return r;
+    out.results = db.changes();
+    auto files = db.prepare(
+        "DELETE FROM search_result_files WHERE NOT EXISTS (SELECT 1 FROM search_results s WHERE "
+        "s.kind = search_result_files.kind AND s.key_sha256 = search_result_files.key_sha256)");
+    if (!files) return files.error();
+    if (auto r = files.value().run(); !r) return r;
+    out.result_files = db.changes();
+    return tx.value()->commit();
+  });
+  if (!st) return st.error();
+  // Digests named by nothing, whose file is no longer where it was seen.
+  struct Digest {
+    int64_t device, inode, size, mtime_ns;
+    std::string path;
+  };
+  auto unnamed = store.read([&](SqliteDb& db) -> Result<std::vector<Digest>> {
+    auto q = db.prepare(
+        "SELECT device, inode, size_bytes, mtime_ns, path FROM file_digests d WHERE "
+        "NOT EXISTS (SELECT 1 FROM recordings r WHERE r.sha256 = d.sha256) AND "
+        "NOT EXISTS (SELECT 1 FROM masters m WHERE m.sha256 = d.sha256)");
+    if (!q) return q.error();
+    std::vector<Digest> list;
+    for (;;) {
+      auto row = q.value().step();
+      if (!row) return row.error();
+      if (!row.value()) break;
+      list.push_back({q.value().integer(0), q.value().integer(1), q.value().integer(2), q.value().integer(3),
+                      q.value().text(4)});
+    }
+    return list;
+  });
+  if (!unnamed) return unnamed.error();
+  std::vector<const Digest*> gone;
+  for (const auto& d : unnamed.value()) {
+    struct stat sb {};
+    const bool same = ::stat(d.path.c_str(), &sb) == 0 && static_cast<int64_t>(sb.st_dev) == d.device &&
+                      static_cast<int64_t>(sb.st_ino) == d.inode && static_cast<int64_t>(sb.st_size) == d.size &&
+                      static_cast<int64_t>(sb.st_mtim.tv_sec) * 1000000000 + sb.st_mtim.tv_nsec == d.mtime_ns;
+    if (!same) gone.push_back(&d);
+  }
+  if (gone.empty()) return out;
+  st = store.write([&](SqliteDb& db) -> Status {
+    auto tx = SqliteTransaction::begin(db);
+    if (!tx) return tx.error();
+    auto del = db.prepare(
+        "DELETE FROM file_digests WHERE device = ?1 AND inode = ?2 AND size_bytes = ?3 AND mtime_ns = ?4 AND path = ?5");
+    if (!del) return del.error();
+    for (const Digest* d : gone) {
+      del.value().bind(1, d->device).bind(2, d->inode).bind(3, d->size).bind(4, d->mtime_ns).bind(5, d->path);
+      if (auto r = del.value().run(); !r) return r;
+      out.digests += db.changes();
+      del.value().reset();
+    }
+    return tx.value()->commit();
+  });
+  if (!st) return st.error();
   return out;
 }
 

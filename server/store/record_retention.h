@@ -31,6 +31,10 @@ namespace godwit {
 struct RetentionPolicy {
   double days = 400;                     // every station's, unless named below
   std::map<std::string, double> station_days;  // by station name
+  // Kept search results that read a recording the record does not name
+  // are kept this long (prune_kept_results): the day of a drop folder's
+  // hour is reconciled soon after it is located. Default 1.
+  double unnamed_results_days = 1;
 };
 
 struct RetentionCounts {
@@ -40,6 +44,24 @@ struct RetentionCounts {
   double seconds = 0;  // the station's pass, its transactions together
   int64_t total() const { return placements + detections + recordings + searches + jobs; }
 };
+
+// What is kept for reuse (stored_tasks.h) and that nothing will read again,
+// deleted (after apply_retention, whose deletions it follows):
+//   search_results  searches and evidence stored more than `unnamed_days`
+//                   before `now_utc` that read a recording (by SHA-256,
+//                   search_result_files) no recording row names: its days
+//                   were deleted, or it was never recorded (a drop folder's
+//                   hour whose day has no planned log); with their file rows;
+//   file_digests    whose SHA-256 no recording or master names and whose
+//                   path no longer holds that file (gone, or another device,
+//                   inode, size or modification time).
+// Results kept before schema 5 name no recording and stay; families stay
+// (one row per library and options). Errors: io (rolled back).
+struct KeptRetentionCounts {
+  int64_t results = 0, result_files = 0, digests = 0;
+  int64_t total() const { return results + result_files + digests; }
+};
+Result<KeptRetentionCounts> prune_kept_results(RecordStore& store, double unnamed_days, int64_t now_utc);
 
 // Applies `policy` to every station in the store. Returns one entry per
 // station with a finite retention, whether or not anything went. Errors:

@@ -125,11 +125,14 @@ struct JobRecord {
 
 // A kept search result (stored_tasks.h).
 struct StoredResult {
-  std::string kind;  // "search", "evidence"
+  std::string kind;  // "search", "evidence", "families" (stored_families.h)
   std::string key_sha256;
   std::string master_sha256;
   std::string template_id;
   std::string result_json;
+  // The recordings it was read from, by SHA-256 (none for families):
+  // what retention asks the record about (record_retention.h).
+  std::vector<std::string> files;
 };
 
 struct StoreCounts {

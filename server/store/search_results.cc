@@ -31,12 +31,20 @@ Status RecordStore::store_results(const std::vector<StoredResult>& rows) {
       "INSERT OR REPLACE INTO search_results(kind, key_sha256, master_sha256, template_id, result_json, stored_utc) "
       "VALUES(?1, ?2, ?3, ?4, ?5, ?6)");
   if (!st) return st.error();
+  auto file = writer_->prepare(
+      "INSERT OR IGNORE INTO search_result_files(kind, key_sha256, file_sha256) VALUES(?1, ?2, ?3)");
+  if (!file) return file.error();
   const auto now = static_cast<int64_t>(std::time(nullptr));
   for (const auto& r : rows) {
     st.value().bind(1, r.kind).bind(2, r.key_sha256).bind(3, r.master_sha256).bind(4, r.template_id);
     st.value().bind(5, r.result_json).bind(6, now);
     if (auto s = st.value().run(); !s) return s;
     st.value().reset();
+    for (const auto& f : r.files) {
+      file.value().bind(1, r.kind).bind(2, r.key_sha256).bind(3, f);
+      if (auto s = file.value().run(); !s) return s;
+      file.value().reset();
+    }
   }
   return tx.value()->commit();
 }

@@ -146,6 +146,19 @@ CREATE INDEX search_results_stored ON search_results(stored_utc);
       R"sql(
 ALTER TABLE detections ADD COLUMN tempo REAL NOT NULL DEFAULT 1;
 )sql",
+      // 5: the recordings each kept search result read (by SHA-256), so
+      // that retention can delete the results of recordings the record no
+      // longer names (record_retention.h; results kept before have none
+      // and stay).
+      R"sql(
+CREATE TABLE search_result_files(
+  kind TEXT NOT NULL,
+  key_sha256 TEXT NOT NULL,
+  file_sha256 TEXT NOT NULL,
+  PRIMARY KEY(kind, key_sha256, file_sha256)) WITHOUT ROWID;
+CREATE INDEX search_result_files_file ON search_result_files(file_sha256);
+CREATE INDEX recordings_sha256 ON recordings(sha256);
+)sql",
   };
   return m;
 }

@@ -77,6 +77,7 @@ Result<std::vector<nlohmann::json>> StoredTaskRunner::run(const std::string& job
                                                           const std::function<void(std::string_view)>& warn) {
   struct Piece {
     std::string key;  // of what the task reads and owns
+    std::vector<std::string> files;  // the SHA-256 of each file it reads
     Segment segment;
     std::vector<std::string> templates, master_sha;
     std::vector<nlohmann::json> rows;  // per template: its kept result (null: to search)
@@ -98,6 +99,7 @@ Result<std::vector<nlohmann::json>> StoredTaskRunner::run(const std::string& job
       auto d = digest(st.name);
       if (!d) return d.error();
       parts.push_back({d.value(), "whole"});
+      p.files.push_back(d.value());
     } else {
       const int64_t from = std::llround(p.segment.read_from_s * st.rate_hz);
       const int64_t to = std::isfinite(p.segment.read_to_s) ? std::llround(p.segment.read_to_s * st.rate_hz)
@@ -106,6 +108,7 @@ Result<std::vector<nlohmann::json>> StoredTaskRunner::run(const std::string& job
         auto d = digest(w.path);
         if (!d) return d.error();
         parts.push_back({d.value(), w.skip_frames, w.frames, w.rate_hz});
+        p.files.push_back(d.value());
       }
     }
     const double at = p.segment.read_from_s;
@@ -176,7 +179,7 @@ Result<std::vector<nlohmann::json>> StoredTaskRunner::run(const std::string& job
         shift_match(mt, -at, "");
         row["matches"].push_back(std::move(mt));
       }
-      if (!failed) keep.push_back({"search", p.key, p.master_sha[m], id, row.dump()});
+      if (!failed) keep.push_back({"search", p.key, p.master_sha[m], id, row.dump(), p.files});
       p.rows[m] = std::move(row);
     }
   }
@@ -234,6 +237,7 @@ std::vector<std::optional<DetectionEvidence>> StoredTaskRunner::evidence(const s
   struct Miss {
     size_t index;
     std::string key, master;
+    std::vector<std::string> files;
   };
   std::vector<Miss> misses;
   std::vector<Match> to_gather;
@@ -243,6 +247,7 @@ std::vector<std::optional<DetectionEvidence>> StoredTaskRunner::evidence(const s
     auto master = t == by_id.end() ? Result<std::string>(Error{ErrorCode::internal, "", "", std::nullopt})
                                    : digest(t->second->path);
     std::string key;
+    std::vector<std::string> files;
     if (master) {
       // The files around it: the programme measured before it, the airing
       // after, a second either side.
@@ -253,8 +258,12 @@ std::vector<std::optional<DetectionEvidence>> StoredTaskRunner::evidence(const s
       bool ok = true;
       for (const auto& w : window_parts(parts, rate, from, std::llround(to_s * rate))) {
         auto d = digest(w.path);
-        if (!d) ok = false;
-        else ps.push_back({d.value(), w.skip_frames, w.frames, w.rate_hz});
+        if (!d) {
+          ok = false;
+        } else {
+          ps.push_back({d.value(), w.skip_frames, w.frames, w.rate_hz});
+          files.push_back(d.value());
+        }
       }
       if (ok) {
         const nlohmann::json k{{"version", godwit_version()},
@@ -280,7 +289,7 @@ std::vector<std::optional<DetectionEvidence>> StoredTaskRunner::evidence(const s
         }
       }
     }
-    misses.push_back({i, key, master ? master.value() : std::string()});
+    misses.push_back({i, key, master ? master.value() : std::string(), std::move(files)});
     to_gather.push_back(m);
   }
   if (to_gather.empty()) return out;
@@ -290,7 +299,7 @@ std::vector<std::optional<DetectionEvidence>> StoredTaskRunner::evidence(const s
   for (size_t k = 0; k < misses.size() && k < gathered.size(); ++k) {
     if (!misses[k].key.empty())
       keep.push_back({"evidence", misses[k].key, misses[k].master, matches[misses[k].index].template_id,
-                      evidence_to_json(gathered[k]).dump()});
+                      evidence_to_json(gathered[k]).dump(), misses[k].files});
     out[misses[k].index] = std::move(gathered[k]);
   }
   (void)store_.store_results(keep);  // evidence not kept is gathered again next time

@@ -16,8 +16,12 @@
 // keyed by the files around it (the programme before it included), its
 // numbers relative to them, the master, and the evidence options.
 //
+// Kept per job's masters, kind "families": its sibling discovery
+// (stored_families.h).
+//
 // A task whose recording failed (a decoding error) is returned, not kept.
-// counts() says how many (piece x master) searches ran and were reused.
+// counts() says how many (piece x master) searches ran and were reused,
+// and whether the families were found or read back.
 //
 // Thread contract: one job at a time; the store is safe for concurrent use.
 #pragma once
@@ -52,6 +56,8 @@ class StoredTaskRunner : public TaskRunner {
                                                          const std::vector<ConcatPart>& parts,
                                                          const std::vector<Match>& matches,
                                                          const ReconcileOptions& options) override;
+  // Families kept per masters and options (stored_families.h).
+  Result<Families> families(const FamilyQuery& query, const std::function<Result<Families>()>& find) override;
 
  private:
   Result<std::string> digest(const std::string& path);

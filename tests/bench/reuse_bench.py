@@ -11,10 +11,12 @@ noise, 30 s each) make the library larger.
   2. godwitd with the store of record, the drop folder and the schedules folder: the files dropped one at a time,
      each located and its day reconciled before the next; godwitd's CPU over the whole day.
   3. `godwit reconcile --state-dir` of the stored day with its log edited (every placement moved 20 s): wall
-     time, CPU, and how many (piece x master) searches ran (0 expected).
+     time, CPU, and how many (piece x master) searches ran (0 expected), and whether the families (sibling
+     discovery) were found again (0 expected: read back from the store).
+With --excerpts the drop folder also writes the day's excerpts to listen to each hour (godwitd's default).
 
 Run: tests/bench/reuse_bench.py --godwit build/server/godwit --godwitd build/server/godwitd \\
-       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop]
+       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop] [--excerpts]
 """
 import argparse
 import csv
@@ -93,7 +95,8 @@ def drop_day(a, work, lib, log, files):
     config = os.path.join(work, "godwitd.toml")
     with open(config, "w") as f:
         f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{state}"\nroots = ["{work}", "/tmp"]\n'
-                f'library = "{lib}"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\nexcerpts = false\n')
+                f'library = "{lib}"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
+                f'excerpts = {"true" if a.excerpts else "false"}\n')
     result = os.path.join(drop, "results", "bench-fm-2026-05-20.reconcile.json")
     cpu0, t0 = child_cpu(), time.time()
     with open(os.path.join(work, "godwitd.log"), "w") as logf:
@@ -139,6 +142,8 @@ def main():
     ap.add_argument("--extra-masters", type=int, default=0)
     ap.add_argument("--work", default="")
     ap.add_argument("--skip-drop", action="store_true", help="only the re-reconcile (its store made by a reconcile)")
+    ap.add_argument("--excerpts", action="store_true",
+                    help="the drop folder writes the day's excerpts to listen to (godwitd's default; off otherwise)")
     a = ap.parse_args()
     work = a.work or tempfile.mkdtemp(prefix="reuse-bench-")
     os.makedirs(work, exist_ok=True)
@@ -176,7 +181,8 @@ def main():
         s = json.load(f)["searches"]
     print(f"re-reconcile of the stored day, log edited: {wall:.2f} s wall, {cpu:.2f} s CPU (target <= 5 s for "
           f"24 h x 100 masters); searched {s['searched']}, reused {s['reused']} (piece x master); evidence "
-          f"gathered {s['evidence_gathered']}, reused {s['evidence_reused']}")
+          f"gathered {s['evidence_gathered']}, reused {s['evidence_reused']}; families found "
+          f"{s.get('families_found', '-')}, reused {s.get('families_reused', '-')}")
 
 
 if __name__ == "__main__":

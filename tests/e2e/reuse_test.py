@@ -4,9 +4,11 @@
 - A day fed hour by hour to the drop folder ends with the same verdicts, offsets, scores, coverage and loudness as
   one `godwit reconcile` of the day in one process (no store); the drop folder's searches add up to each
   (piece x master) once.
-- A stored day reconciled again with an edited planned log searches nothing and gathers no evidence again, and
-  gives the verdicts a fresh reconcile of the edited log gives.
-- A master added to the library is the only one searched, and the day's verdicts are a fresh reconcile's.
+- A stored day reconciled again with an edited planned log searches nothing, gathers no evidence and finds no
+  families (sibling discovery) again, and gives the verdicts a fresh reconcile of the edited log gives; the drop
+  folder finds the day's families once.
+- A master added to the library is the only one searched, its families are found again, and the day's verdicts
+  are a fresh reconcile's.
 
 The reference is the one-process `godwit reconcile` (engine/compliance/reconcile_job.cc), which reads each run of
 files as one stream; sox (an outside program) cuts the new master out of an aircheck.
@@ -30,8 +32,9 @@ unittest.TestCase.maxDiff = None
 COMMON = ["--planner", "estimate", "--cache-dir", "", "--no-excerpts", "--quiet"]
 
 
-def reconcile(lib, log, recs, out, state=None):
-    args = [ARGS.godwit, "reconcile", "-l", lib, "-s", log, "-r", *recs, "-o", out, "--format", "json", *COMMON]
+def reconcile(lib, log, recs, out, state=None, excerpts=False):
+    common = [c for c in COMMON if c != "--no-excerpts"] if excerpts else COMMON
+    args = [ARGS.godwit, "reconcile", "-l", lib, "-s", log, "-r", *recs, "-o", out, "--format", "json", *common]
     if state:
         args += ["--state-dir", state]
     p = subprocess.run(args, capture_output=True, text=True, timeout=600)
@@ -124,6 +127,9 @@ class Reuse(unittest.TestCase):
                     searched += located["searches"]["searched"] + doc["searches"]["searched"]
                     # The day searched only what the new file added: nothing of the files before it again.
                     self.assertGreater(doc["searches"]["reused"], 0 if i == 0 else self.masters)
+                    # Sibling discovery once for the day: each later hour reads the families back.
+                    self.assertEqual((doc["searches"]["families_found"], doc["searches"]["families_reused"]),
+                                     (1, 0) if i == 0 else (0, 1), doc["searches"])
             finally:
                 proc.send_signal(signal.SIGTERM)
                 proc.wait(timeout=60)
@@ -154,6 +160,12 @@ class Reuse(unittest.TestCase):
             self.assertEqual(again["searches"]["searched"], 0, again["searches"])
             self.assertEqual(again["searches"]["evidence_gathered"], 0, again["searches"])
             self.assertEqual(again["searches"]["reused"], first["searches"]["searched"])
+            # No sibling discovery either: the families are the store's (the demo's library has siblings, so
+            # the verdicts below depend on them being right).
+            self.assertEqual(first["searches"]["families_found"], 1, first["searches"])
+            self.assertEqual(again["searches"]["families_found"], 0, again["searches"])
+            self.assertEqual(again["searches"]["families_reused"], 1, again["searches"])
+            self.assertTrue(any(len(f) > 1 for f in first["families"]), first["families"])
             fresh = reconcile(self.lib, edited, self.recs, os.path.join(t, "fresh"))
             self.assertEqual(verdicts(again), verdicts(fresh))
             self.assertNotEqual(verdicts(again), verdicts(first))
@@ -170,12 +182,51 @@ class Reuse(unittest.TestCase):
                            check=True)
             again = reconcile(lib, self.log, self.recs, os.path.join(t, "again"), state)
             self.assertEqual(again["searches"]["searched"], pieces, again["searches"])
+            self.assertEqual(again["searches"]["families_found"], 1, again["searches"])  # another set of masters
             self.assertEqual(again["searches"]["reused"], first["searches"]["searched"])
             fresh = reconcile(lib, self.log, self.recs, os.path.join(t, "fresh"))
             self.assertEqual(verdicts(again), verdicts(fresh))
             found = [a for a in again["unscheduled"] if a["spot"] == "harbour-jingle"]
             self.assertEqual([(os.path.basename(a["recording"]), round(a["offset_s"], 2)) for a in found],
                              [(os.path.basename(self.recs[1]), 200.0)])
+
+    def test_a_report_rebuilt_in_its_folder_keeps_the_excerpts_of_unchanged_airings(self):
+        # The day so far, then the whole day into the same folder (as the drop folder rebuilds its day's page):
+        # the excerpts of airings in the files already there are kept (the same file: its inode), the rest are
+        # cut, and every excerpt is what a fresh report of the whole day makes.
+        with tempfile.TemporaryDirectory() as t:
+            out = os.path.join(t, "day")
+            listen = os.path.join(out, "listen")
+            reconcile(self.lib, self.log, self.recs[:2], out, excerpts=True)
+            before = {f: os.stat(os.path.join(listen, f)).st_ino for f in os.listdir(listen)}
+            self.assertTrue(before)
+            grown = reconcile(self.lib, self.log, self.recs, out, excerpts=True)
+            fresh = reconcile(self.lib, self.log, self.recs, os.path.join(t, "fresh"), excerpts=True)
+
+            def excerpts(doc):
+                got = {}
+                for x in doc["placements"] + doc["unscheduled"]:
+                    if "excerpt" in x:
+                        got[x["excerpt"]["file"]] = (x["excerpt"], x.get("master_excerpt"))
+                return got
+            self.assertEqual(excerpts(grown), excerpts(fresh))
+            after = {f: os.stat(os.path.join(listen, f)).st_ino for f in os.listdir(listen)}
+            self.assertEqual(sorted(after), sorted(os.listdir(os.path.join(t, "fresh", "listen"))))
+            kept = [f for f in after if before.get(f) == after[f]]
+            first_two = [os.path.basename(r) for r in self.recs[:2]]
+            for x in grown["placements"] + grown["unscheduled"]:
+                if "excerpt" not in x:
+                    continue
+                name = os.path.basename(x["excerpt"]["file"])
+                rec = os.path.basename(x["recording"])
+                if rec == first_two[0]:  # far from the new file: kept
+                    self.assertIn(name, kept)
+                if rec not in first_two:  # in the new file: made
+                    self.assertNotIn(name, kept)
+            # Masters heard before are kept too; each excerpt's size is the file's.
+            self.assertTrue(any(f.startswith("master_") for f in kept), kept)
+            for name, (e, _) in excerpts(grown).items():
+                self.assertEqual(os.path.getsize(os.path.join(out, name)), e["bytes"])
 
 
 if __name__ == "__main__":

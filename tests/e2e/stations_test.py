@@ -195,6 +195,18 @@ class Stations(unittest.TestCase):
                               (s,)).fetchone()[0]
                 self.assertEqual(n, len(self.docs[s]["placements"]))
 
+    def test_every_drop_folder_log_line_names_its_station(self):
+        # The same file names in two stations' folders: a line must say whose folder it is.
+        lines = self.d.log_text().splitlines()
+        unnamed = [l for l in lines if "drop folder:" in l or
+                   ("drop folder " in l and "drop folder (station " not in l and "] station " not in l)]
+        self.assertEqual(unnamed, [])
+        for s in ("kestrel-fm", "heron-radio"):
+            ours = [l for l in lines if f"drop folder (station {s})" in l]
+            for n in self.names:
+                self.assertTrue(any(f"processing {n}" in l for l in ours), (s, n, ours))
+            self.assertTrue(any("reconciled over" in l for l in ours), (s, ours))
+
     def test_airings_by_station_separate_them(self):
         for where in (("--connect", f"127.0.0.1:{self.d.port}"), ("--state-dir", self.state)):
             both = self.airings(*where)

@@ -1,10 +1,14 @@
 // Retention of the store of record with real SQLite files: the rows of old
 // days go, exactly those, per station and on each station's clock; the
-// rest is left as it was.
+// rest is left as it was. Kept search results and file digests that
+// nothing names any more go too.
 #include "record_retention.h"
 
 #include <doctest/doctest.h>
 
+#include <ctime>
+#include <filesystem>
+#include <fstream>
 #include <map>
 
 #include "store_fixture.h"
@@ -122,6 +126,75 @@ TEST_CASE("retention deletes exactly the rows of days older than each station's 
   auto again = apply_retention(store, policy, now_utc);
   REQUIRE(again.ok());
   for (const auto& c : again.value()) CHECK(c.total() == 0);
+}
+
+TEST_CASE("retention deletes kept search results and file digests that no recording or master names any more") {
+  TempDir dir;
+  auto opened = RecordStore::open_file(dir.file("store.sqlite"));
+  REQUIRE(opened.ok());
+  RecordStore& store = *opened.value();
+  SyntheticDay day;
+  day.day = "2026-03-01";
+  day.airings = 20;
+  day.spots = 4;
+  const JobRecord job = synthetic_day(day);
+  REQUIRE(store.write_job(job).ok());
+  const std::string named = job.recordings[0].sha256, other_named = job.recordings[1].sha256;
+  const std::string unnamed = sha256_hex("an hour never recorded");
+  REQUIRE(store.store_results({{"search", "k-named", "m", "spot-00", "{}", {named}},
+                               {"search", "k-unnamed", "m", "spot-00", "{}", {unnamed}},
+                               {"search", "k-unnamed", "m", "spot-01", "{}", {unnamed}},
+                               {"evidence", "k-half", "m", "spot-00", "{}", {other_named, unnamed}},
+                               {"families", "k-families", "", "", "{}", {}},
+                               {"search", "k-before-schema-5", "m", "spot-00", "{}", {}}})
+              .ok());
+  auto rows = [&] { return count(store, "SELECT count(*) FROM search_results"); };
+  auto digests = [&] { return count(store, "SELECT count(*) FROM file_digests"); };
+  // Digests: a file named by nothing that is still there, one gone, one
+  // changed, and one gone whose content is a master's (named).
+  auto write = [&](const std::string& name, const std::string& bytes) {
+    std::ofstream(dir.file(name), std::ios::binary) << bytes;
+    REQUIRE(store.file_digest(dir.file(name)).ok());
+  };
+  write("there.wav", "still there");
+  write("gone.wav", "gone");
+  write("changed.wav", "changed");
+  write("master.wav", "spot-00");  // masters[0].sha256 is sha256_hex("spot-00") (store_fixture.h)
+  std::filesystem::remove(dir.file("gone.wav"));
+  std::filesystem::remove(dir.file("master.wav"));
+  std::ofstream(dir.file("changed.wav"), std::ios::binary) << "changed, longer now";
+  REQUIRE(digests() == 4);
+
+  const auto now = static_cast<int64_t>(std::time(nullptr));
+  // Stored just now: younger than a day, none goes; the digests of files gone do.
+  auto young = prune_kept_results(store, 1, now);
+  REQUIRE(young.ok());
+  CHECK(young.value().results == 0);
+  CHECK(young.value().digests == 2);  // gone.wav, changed.wav
+  CHECK(digests() == 2);
+  CHECK(count(store, "SELECT count(*) FROM file_digests WHERE path LIKE '%there.wav'") == 1);
+  CHECK(count(store, "SELECT count(*) FROM file_digests WHERE path LIKE '%master.wav'") == 1);
+  // Two days on: the results that read a recording the record does not name go (k-unnamed's two masters,
+  // k-half), with their file rows; the rest stay.
+  auto old = prune_kept_results(store, 1, now + 2 * 86400);
+  REQUIRE(old.ok());
+  CHECK(old.value().results == 3);
+  CHECK(old.value().result_files == 3);  // k-unnamed's one (both masters read it), k-half's two
+  CHECK(rows() == 3);
+  CHECK(count(store, "SELECT count(*) FROM search_results WHERE key_sha256 IN ('k-named', 'k-families', "
+                     "'k-before-schema-5')") == 3);
+  CHECK(count(store, "SELECT count(*) FROM search_result_files") == 1);
+  // The day's recordings deleted by retention: k-named goes next time too.
+  RetentionPolicy policy;
+  policy.days = 5;
+  REQUIRE(apply_retention(store, policy, 1773144000).ok());  // 2026-03-10T12:00:00Z
+  CHECK(count(store, "SELECT count(*) FROM recordings") == 0);
+  auto after = prune_kept_results(store, 1, now + 2 * 86400);
+  REQUIRE(after.ok());
+  CHECK(after.value().results == 1);
+  CHECK(rows() == 2);  // families, and the row that names no recording
+  // The master's digest stays while the master does.
+  CHECK(count(store, "SELECT count(*) FROM file_digests WHERE path LIKE '%master.wav'") == 1);
 }
 
 }  // namespace

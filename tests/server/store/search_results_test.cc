@@ -1,13 +1,18 @@
 // Search results kept and reused (stored_tasks.h, schema 3) with real
 // SQLite files: the migration from schema 2, file digests by stat, and a
 // StoredTaskRunner over a counting inner runner (no audio is read: the
-// inner runner makes up its matches, the store's keys hash the files).
+// inner runner makes up its matches, the store's keys hash the files);
+// families kept per masters and options (stored_families.h), over
+// find_families of synthetic masters.
 #include "stored_tasks.h"
 
 #include <doctest/doctest.h>
 
 #include <filesystem>
 #include <fstream>
+#include <random>
+
+#include "stored_families.h"
 
 #include "store_fixture.h"
 #include "store_schema.h"
@@ -77,7 +82,7 @@ TEST_CASE("store: a store at schema 2 migrates to 3, keeps its rows, and keeps s
   CHECK(store_schema_version() >= 3);
   CHECK(store->counts().value().detections == 40);
   CHECK(store->counts().value().searches == 24 * 50);
-  REQUIRE(store->store_results({{"search", "k1", "m1", "spot-a", R"({"matches":[]})"}}).ok());
+  REQUIRE(store->store_results({{"search", "k1", "m1", "spot-a", R"({"matches":[]})", {}}}).ok());
   CHECK(store->stored_result("search", "k1", "m1", "spot-a") == std::optional<std::string>(R"({"matches":[]})"));
   CHECK_FALSE(store->stored_result("search", "k1", "m2", "spot-a"));
   CHECK_FALSE(store->stored_result("evidence", "k1", "m1", "spot-a"));
@@ -167,6 +172,90 @@ TEST_CASE("store: each piece searched once, and found again in another run at th
   (void)run_tasks(edited, alone);
   CHECK(edited.counts().searched == 3);
   CHECK(edited.counts().reused == 6);
+}
+
+namespace {
+
+bool same_families(const Families& x, const Families& y) {
+  if (x.family_of != y.family_of || x.family_name != y.family_name || x.links.size() != y.links.size()) return false;
+  for (size_t i = 0; i < x.links.size(); ++i) {
+    const auto &a = x.links[i], &b = y.links[i];
+    if (a.a != b.a || a.b != b.b || a.score != b.score || a.lag_s != b.lag_s || a.distinct_a != b.distinct_a ||
+        a.distinct_b != b.distinct_b)
+      return false;
+  }
+  return true;
+}
+
+}  // namespace
+
+TEST_CASE("store: a job's families found once, read back for the same masters and options, found again otherwise") {
+  TempDir dir;
+  auto store = open_store(dir);
+  // Three masters at 8 kHz: a spot, its version with another closing
+  // second (siblings), and an unrelated one. The files' bytes stand for
+  // their audio (the store keys by file content).
+  const double rate = 8000;
+  std::mt19937 rng(7);
+  std::normal_distribution<float> n(0, 1);
+  auto noise = [&](size_t count) {
+    Samples s(count);
+    for (auto& v : s) v = n(rng);
+    return s;
+  };
+  const Samples body = noise(3 * 8000), tag_a = noise(8000), tag_b = noise(8000);
+  Samples a = body, b = body;
+  a.insert(a.end(), tag_a.begin(), tag_a.end());
+  b.insert(b.end(), tag_b.begin(), tag_b.end());
+  const std::vector<Samples> audio{a, b, noise(4 * 8000)};
+  FamilyQuery q;
+  q.ids = {"spot-a", "spot-a-alt", "spot-c"};
+  for (const auto& id : q.ids) {
+    q.paths.push_back(dir.file(id + ".wav"));
+    write(q.paths.back(), id);
+  }
+  q.rate_hz = rate;
+  size_t finds = 0;
+  auto ask = [&](const FamilyQuery& query) {
+    CountingRunner inner;
+    StoredTaskRunner kept(*store, inner, "options");
+    auto f = kept.families(query, [&]() -> Result<Families> {
+      ++finds;
+      return find_families(query.ids, audio, query.rate_hz, query.declared, query.options);
+    });
+    REQUIRE(f.ok());
+    CHECK(kept.counts().families_found + kept.counts().families_reused == 1);
+    return std::pair{f.value(), kept.counts()};
+  };
+  const auto [found, c1] = ask(q);
+  CHECK(finds == 1);
+  CHECK(c1.families_found == 1);
+  REQUIRE(found.links.size() == 1);  // spot-a and its version, as find_families scores them
+  CHECK(found.siblings(0, 1));
+  CHECK(!found.siblings(0, 2));
+  // Again: read back, the same to the bit.
+  const auto [again, c2] = ask(q);
+  CHECK(finds == 1);
+  CHECK(c2.families_reused == 1);
+  CHECK(same_families(again, found));
+  // Other options, a declared family, a master re-cut: found again each.
+  FamilyQuery other = q;
+  other.options.threshold = 0.6;
+  (void)ask(other);
+  CHECK(finds == 2);
+  FamilyQuery declared = q;
+  declared.declared[2] = "spot-a";
+  (void)ask(declared);
+  CHECK(finds == 3);
+  write(q.paths[2], "spot-c, re-cut");
+  (void)ask(q);
+  CHECK(finds == 4);
+  (void)ask(q);
+  CHECK(finds == 4);
+  // A kept row that does not fit the masters is not taken.
+  CHECK(!families_from_json(families_to_json(found), 2).ok());
+  CHECK(!families_from_json(nlohmann::json::parse(R"({"family_of":[0,5,1],"family_name":["a","b"],"links":[]})"), 3).ok());
+  CHECK(!families_from_json(nlohmann::json::parse(R"({"family_of":[0]})"), 1).ok());
 }
 
 }  // namespace godwit

@@ -11,10 +11,12 @@
 // Thread contract: plain functions and values.
 #pragma once
 
+#include <functional>
 #include <map>
 #include <string>
 #include <vector>
 
+#include "godwit/core/error.h"
 #include "godwit/core/types.h"
 
 namespace godwit {
@@ -51,5 +53,22 @@ struct Families {
 // from metadata (masters sharing a name are siblings).
 Families find_families(const std::vector<std::string>& ids, const std::vector<Samples>& masters, double rate_hz,
                        const std::map<size_t, std::string>& declared, const FamilyOptions& options = {});
+
+// What a job asks sibling discovery, the audio aside: find_families'
+// arguments with each master named by the file it is read from.
+struct FamilyQuery {
+  std::vector<std::string> ids, paths;  // per master, in the job's order
+  std::map<size_t, std::string> declared;
+  double rate_hz = 0;
+  FamilyOptions options;
+};
+
+// Where a reconcile job's families come from (ReconcileOptions::
+// families_source): `find` decodes the masters and runs find_families
+// here; a source may instead return what it kept from an earlier job for
+// the same query (the store of record: families of the same masters, by
+// content, and options). Empty: always found here.
+using FamiliesSource =
+    std::function<Result<Families>(const FamilyQuery& query, const std::function<Result<Families>()>& find)>;
 
 }  // namespace godwit

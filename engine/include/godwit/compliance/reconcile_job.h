@@ -64,6 +64,8 @@ struct ReconcileOptions {
   double timeline_tolerance_s = 0.5;
   VerifyOptions verify;
   FamilyOptions families;
+  // Where the masters' families come from (families.h); empty: found here.
+  FamiliesSource families_source;
   VerdictOptions verdicts;
   // Versions are told apart only when the best distinguishing score leads
   // the next by this much and reaches verify.min_segment_score.

@@ -23,6 +23,7 @@
 
 #include <functional>
 #include <map>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -34,6 +35,21 @@
 
 namespace godwit {
 
+struct ExcerptRef;
+
+// What an excerpt is cut from and how, for a caller that keeps excerpts
+// between reports (ExcerptOptions::kept): `key`, canonical text of the
+// files read (path, frames skipped and read, rate; for an airing every file
+// of its run up to the last one its cut reaches, which fix where the cut
+// falls), the span, and the encoding options; `files`, those paths. Equal
+// keys give equal audio, hence equal excerpts, while the files named are
+// unchanged: the caller knows how a file changes (size, modification time)
+// and checks that.
+struct ExcerptOrigin {
+  std::string key;
+  std::vector<std::string> files;
+};
+
 struct ExcerptOptions {
   // The folder the files are named under, relative to the report ("listen":
   // listen/S001_20260314T060037.250.opus). Plain name, no '/'.
@@ -43,6 +59,12 @@ struct ExcerptOptions {
   double encode_rate_hz = 24000;  // one of 8000, 12000, 16000, 24000, 48000
   double envelope_step_s = 0.2;   // one RMS level per step, for the picture
   std::function<bool()> should_stop;  // polled between excerpts; true: cancelled
+  // Excerpts made for an earlier report (a day's page rebuilt as its hours
+  // arrive): asked for each excerpt, by the name it gets here and its
+  // origin, before it is cut. A ref returned means the sink's place already
+  // holds that excerpt under that name (the caller put it there): it is
+  // used as is, nothing read, cut or encoded. Empty: every excerpt made.
+  std::function<std::optional<ExcerptRef>(const std::string& name, const ExcerptOrigin& origin)> kept;
 };
 
 // RMS level of mono audio, one value per step, in dBFS (floored at -120).
@@ -72,6 +94,8 @@ struct Listening {
   std::map<size_t, ExcerptRef> airings;            // by index into ReconcileResult::airings
   std::map<std::string, ExcerptRef> masters;       // by spot id
   std::vector<std::string> problems;               // excerpts that could not be made, for people
+  std::map<std::string, ExcerptOrigin> origins;    // by file name (no folder), each excerpt's, made or kept
+  size_t kept = 0;                                 // how many ExcerptOptions::kept gave
 };
 
 // Keeps one encoded file: `name` is a plain file name (no folder) made of
