@@ -11,15 +11,38 @@
 #include "godwit/audio/resampler.h"
 #include "speed/speed_pass.h"
 #include "core/thread_pool.h"
+#include "screen_pass.h"
 #include "speed_refinement.h"
 
 namespace godwit {
 namespace {
 
 
-Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, const LocateOptions& o,
-                                                      std::vector<TemplateReport>& reports,
-                                                      std::vector<detail::WarpTemplate>* warp) {
+struct Banks {
+  std::shared_ptr<const TemplateBank> exact;
+  std::shared_ptr<const TemplateBank> screen;  // at the screen rate; null: no screening
+};
+
+// The masters at the screen rate, in the exact bank's order.
+Result<std::shared_ptr<const TemplateBank>> load_screen_bank(const TemplateBank& exact, const LocateOptions& o) {
+  std::vector<TemplateInput> inputs;
+  for (const auto& t : exact.templates()) {
+    auto samples = o.masters->samples(t.path, o.screen.rate_hz);
+    if (!samples) return samples.error();
+    TemplateInput in;
+    in.id = t.id;
+    in.path = t.path;
+    in.native_rate_hz = t.native_rate_hz;
+    in.samples = *samples.value();
+    inputs.push_back(std::move(in));
+  }
+  BankOptions b = o.bank;
+  b.fixed_fft_size = 0;
+  return TemplateBank::build(std::move(inputs), b);
+}
+
+Result<Banks> load_bank(const LocateJob& job, const LocateOptions& o, std::vector<TemplateReport>& reports,
+                        std::vector<detail::WarpTemplate>* warp) {
   detail::FftPlans env_plans(Planner::estimate);
   if (job.templates.empty()) return Error{ErrorCode::usage, "no templates given", "", std::nullopt};
   std::vector<TemplateInput> inputs;
@@ -51,11 +74,37 @@ Result<std::shared_ptr<const TemplateBank>> load_bank(const LocateJob& job, cons
     }
     inputs.push_back(std::move(in));
   }
-  auto bank = TemplateBank::build(std::move(inputs), o.bank);
+  Banks banks;
+  BankOptions bopt = o.bank;
+  bool screening = o.screen.enabled;
+  if (screening) {
+    // The exact search scores short spans around the screen's candidates:
+    // one FFT size that holds such a span (screen_pass.h).
+    size_t longest = 0;
+    for (const auto& in : inputs) longest = std::max(longest, in.samples.size());
+    bopt.fixed_fft_size = detail::exact_fft_size_for(longest, o.picker);
+    const size_t bytes = inputs.size() * spectrum_bytes(bopt.fixed_fft_size);
+    if (bytes > bopt.spectra_budget_bytes) {
+      // Spans of long masters for a large library: the full search's sizes
+      // fit the budget where one span size for all does not.
+      if (o.on_diagnostic)
+        o.on_diagnostic("screening off: its spectra would need " + std::to_string(bytes >> 20) +
+                        " MiB, over the budget of " + std::to_string(bopt.spectra_budget_bytes >> 20) + " MiB");
+      bopt.fixed_fft_size = o.bank.fixed_fft_size;
+      screening = false;
+    }
+  }
+  auto bank = TemplateBank::build(std::move(inputs), bopt);
   if (!bank) return bank.error();
-  for (const auto& t : bank.value()->templates())
+  banks.exact = bank.value();
+  if (screening) {
+    auto screen = load_screen_bank(*banks.exact, o);
+    if (!screen) return screen.error();
+    banks.screen = screen.value();
+  }
+  for (const auto& t : banks.exact->templates())
     reports.push_back({t.id, t.path, static_cast<double>(t.len_samples) / o.analysis_rate_hz, t.fft_size});
-  return bank;
+  return banks;
 }
 
 // Native-rate refinement of the candidates of one recording, in place.
@@ -124,10 +173,19 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
   if (!lo.masters) lo.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz, 0);
   const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
   std::vector<detail::WarpTemplate> envelopes;
+  if (o.screen.enabled && !(o.screen.rate_hz >= 500 && o.screen.rate_hz < o.analysis_rate_hz))
+    return Error{ErrorCode::usage, "the screen rate must lie in 500 Hz .. the analysis rate", "", std::nullopt};
   auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
   if (!bank_r) return bank_r.error();
-  std::shared_ptr<const TemplateBank> bank = bank_r.value();
-  Correlator correlator(bank, copt);
+  std::shared_ptr<const TemplateBank> bank = bank_r.value().exact;
+  // The full search, or the screened one (screen_pass.h).
+  std::unique_ptr<Correlator> correlator;
+  std::unique_ptr<detail::ScreenPass> screen;
+  if (bank_r.value().screen)
+    screen = std::make_unique<detail::ScreenPass>(bank, bank_r.value().screen, o.analysis_rate_hz, o.screen,
+                                                  o.picker, copt);
+  else
+    correlator = std::make_unique<Correlator>(bank, copt);
   std::unique_ptr<detail::SpeedPass> speed_pass;
   if (speed_search) speed_pass = std::make_unique<detail::SpeedPass>(std::move(envelopes), o.analysis_rate_hz, o.speed, copt.threads);
   const size_t nrec = job.recordings.size();
@@ -147,11 +205,19 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     report.format = src.info().format;
     report.native_rate_hz = src.info().native_rate_hz;
     report.channels = src.info().channels;
-    correlator.reset();
+    if (correlator) correlator->reset();
+    if (screen) screen->reset();
     if (speed_pass) speed_pass->reset();
     std::vector<PeakPicker> pickers;
     for (const auto& t : bank->templates()) pickers.emplace_back(t.len_samples, o.picker);
     ScoreSink sink = [&](size_t t, int64_t first, const float* s, size_t n) { pickers[t].feed(first, s, n); };
+    int64_t pushed = 0;
+    auto push = [&](const float* x, size_t n) {
+      if (correlator) correlator->push(x, n, sink);
+      if (screen) screen->push(x, n);
+      if (speed_pass) speed_pass->push(x, n);
+      pushed += static_cast<int64_t>(n);
+    };
 
     AnalysisStream stream(src, o.analysis_rate_hz);
     Samples block;
@@ -165,8 +231,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     for (const auto& t : bank->templates()) longest = std::max(longest, t.len_samples);
     const Samples edge(longest, 0.0f);
     const auto pad = static_cast<int64_t>(edge.size());
-    correlator.push(edge.data(), edge.size(), sink);
-    if (speed_pass) speed_pass->push(edge.data(), edge.size());
+    push(edge.data(), edge.size());
     Progress prog;
     prog.recording_index = ri;
     prog.recordings = nrec;
@@ -175,12 +240,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     for (;;) {
       if (o.should_stop && o.should_stop())
         return Error{ErrorCode::cancelled, "cancelled", path,
-                     static_cast<double>(std::max<int64_t>(0, correlator.samples_pushed() - pad)) / o.analysis_rate_hz};
+                     static_cast<double>(std::max<int64_t>(0, pushed - pad)) / o.analysis_rate_hz};
       auto more = stream.next(block);
-      if (!block.empty()) {
-        correlator.push(block.data(), block.size(), sink);
-        if (speed_pass) speed_pass->push(block.data(), block.size());
-      }
+      if (!block.empty()) push(block.data(), block.size());
       if (!more) {
         report.error = more.error();
         if (o.on_diagnostic)
@@ -188,8 +250,8 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
         break;
       }
       if (!more.value()) break;
-      if (o.on_progress && correlator.samples_pushed() - last_report >= static_cast<int64_t>(o.analysis_rate_hz * 10)) {
-        last_report = correlator.samples_pushed();
+      if (o.on_progress && pushed - last_report >= static_cast<int64_t>(o.analysis_rate_hz * 10)) {
+        last_report = pushed;
         prog.recording_done_s = static_cast<double>(last_report - pad) / o.analysis_rate_hz;
         double within = 0;
         if (prog.recording_total_s && *prog.recording_total_s > 0)
@@ -198,11 +260,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
         o.on_progress(prog);
       }
     }
-    if (stream.native_frames_read() > 0) {
-      correlator.push(edge.data(), edge.size(), sink);
-      if (speed_pass) speed_pass->push(edge.data(), edge.size());
-    }
-    correlator.finish(sink);
+    if (stream.native_frames_read() > 0) push(edge.data(), edge.size());
+    if (correlator) correlator->finish(sink);
+    if (screen) screen->finish();
     if (speed_pass) speed_pass->finish();
     if (auto e = src.deferred_error(); e && !report.error) {
       report.error = e;
@@ -215,7 +275,7 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     std::vector<std::pair<size_t, Match>> found;
     for (size_t t = 0; t < pickers.size(); ++t) {
       pickers[t].finish();
-      for (const auto& c : pickers[t].take()) {
+      for (const auto& c : screen ? screen->take(t) : pickers[t].take()) {
         Match m;
         m.template_id = bank->at(t).id;
         m.recording = path;
@@ -251,6 +311,14 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       prog.fraction = static_cast<double>(ri + 1) / static_cast<double>(nrec);
       o.on_progress(prog);
     }
+  }
+  if (screen) {
+    result.screen_candidates = screen->stats().screen_candidates;
+    result.exact_spans = screen->stats().spans;
+    result.exact_span_masters = screen->stats().span_templates;
+    result.screen_decimate_s = screen->stats().decimate_s;
+    result.screen_correlate_s = screen->stats().screen_s;
+    result.exact_spans_s = screen->stats().spans_s;
   }
   return result;
 }

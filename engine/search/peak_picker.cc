@@ -104,6 +104,13 @@ struct PeakPicker::Impl {
   void advance() {
     while (next_scan < segments_available() && (finished || next_scan + span() < segments_available()))
       scan(next_scan++);
+    // A candidate no later sample can displace (none within `radius` is
+    // left to scan) is settled: out now, so a caller streaming the trace
+    // sees it without waiting for the next candidate or the end.
+    if (pending && next_scan * seg_len() >= pending->index + radius) {
+      out.push_back(*pending);
+      pending.reset();
+    }
     // Forget what no later scan needs: the span behind the next segment.
     const int64_t keep_seg = next_scan - span();
     const int64_t keep_from = std::clamp<int64_t>(keep_seg * seg_len() - 1, buf_start, buf_end());

@@ -37,6 +37,7 @@ void search_to_json(const SearchFields& s, nlohmann::json& j) {
   if (s.threshold) j["threshold"] = *s.threshold;
   if (s.floor_k) j["floor_k"] = *s.floor_k;
   if (s.fft_size) j["fft_size"] = *s.fft_size;
+  if (s.screen) j["screen"] = *s.screen;
 }
 
 }  // namespace
@@ -48,6 +49,7 @@ void SearchFields::apply(LocateOptions& lo) const {
   if (threshold) lo.picker.threshold = *threshold;
   if (floor_k) lo.picker.floor_k = *floor_k;
   lo.bank.fixed_fft_size = fft_size.value_or(0);
+  if (screen) lo.screen.enabled = *screen;
 }
 
 Result<double> number_field(const nlohmann::json& j, const char* field, NumberRange range, double dflt) {
@@ -84,6 +86,10 @@ Result<SearchFields> search_fields_from_json(const nlohmann::json& j) {
     const auto n = static_cast<size_t>(v.value());
     if (n & (n - 1)) return bad("'fft_size' must be a power of two");
     s.fft_size = n;
+  }
+  if (j.contains("screen")) {
+    if (!j["screen"].is_boolean()) return bad("'screen' must be true or false");
+    s.screen = j["screen"].get<bool>();
   }
   return s;
 }

@@ -3,10 +3,11 @@
 //
 // The three kinds a daemon runs:
 //   LocateSpec     {"kind": "locate", "templates": [paths], "recordings": [paths],
-//                   "threshold", "floor_k", "fft_size", "max_speed_change_pct", "max_tempo_change_pct"}
+//                   "threshold", "floor_k", "fft_size", "max_speed_change_pct", "max_tempo_change_pct",
+//                   "screen"?}
 //   ReconcileSpec  {"kind": "reconcile", "library", "schedule", "recordings", "window_s",
 //                   "time_zone"?, "station"?, "name_pattern"?, "excerpts"?, "max_speed_change_pct",
-//                   "max_tempo_change_pct"}
+//                   "max_tempo_change_pct", "screen"?}
 //   SegmentSpec    {"kind": "segment", "segment": {...}, "templates": [paths], "evidence"?,
 //                   and the search fields}: one task of a distributed job (task_plan.h)
 // job_spec_to_json writes exactly these (the journal and the queue carry
@@ -64,6 +65,8 @@ struct SearchFields {
   std::optional<size_t> fft_size;    // 0 (chosen per template) or a power of two up to 2^24
   double max_speed_change_pct = kDefaultMaxSpeedChangePct;  // kSpeedChangePctRange
   double max_tempo_change_pct = kDefaultMaxTempoChangePct;  // kTempoChangePctRange
+  // The screened search (screen_options.h); empty: the engine's default.
+  std::optional<bool> screen;
   // Onto the daemon's options (threads, planner, callbacks stay).
   void apply(LocateOptions& options) const;
 };
@@ -87,7 +90,7 @@ struct ReconcileSpec {
   // (ReconcileOptions::name_pattern).
   std::string name_pattern;
   std::optional<bool> excerpts;   // empty: the daemon's setting
-  SearchFields search;            // only max_speed_change_pct and max_tempo_change_pct are stated
+  SearchFields search;            // only max_speed_change_pct, max_tempo_change_pct and screen are stated
 };
 
 struct SegmentSpec {

@@ -281,6 +281,10 @@ int main(int argc, char** argv) {
                  "share of airings at their master's speed that a stretcher changes the tempo of (default 0.15; more for "
                  "a closer look at them)")
       ->check(CLI::Range(0.0, 1.0));
+  bool screen = false;
+  double screen_threshold = -1;
+  app.add_flag("--screen", screen, "screened search (screen_options.h) instead of the full one");
+  app.add_option("--screen-threshold", screen_threshold, "with --screen: its threshold (default: the engine's)");
   app.add_flag("--no-tempo-fit", no_tempo_fit, "engine without the tempo fit (speed search only), for a before/after on one seed");
   double negative_odds = AirDayOptions{}.negative_odds;
   app.add_option("--negative-odds", negative_odds,
@@ -320,6 +324,8 @@ int main(int argc, char** argv) {
   if (min_airing >= 0) o.min_airing_score = min_airing;
   if (deficit >= 0) o.max_foreground_deficit = deficit;
   if (no_tempo_fit) o.locate.speed.max_tempo_deviation = 0;
+  o.locate.screen.enabled = screen;
+  if (screen_threshold >= 0) o.locate.screen.threshold = screen_threshold;
   auto cpu_s = [] {
     rusage u{};
     getrusage(RUSAGE_SELF, &u);
@@ -369,6 +375,9 @@ int main(int argc, char** argv) {
   for (const auto& [c, n] : codecs) std::printf(" %s x%d", c.c_str(), n);
   std::printf("\n  synthesis %.0f s; reconcile wall %.1f s (CPU %.1f s); locate wall %.1f s (CPU %.1f s); peak RSS %.0f MiB\n",
               synth_s, rec_wall, rec_cpu, loc_wall, loc_cpu, static_cast<double>(ru.ru_maxrss) / 1024);
+  if (screen && loc)
+    std::printf("screen (locate): %zu candidates, %zu spans scored exactly, %zu (span, master) pairs\n",
+                loc->screen_candidates, loc->exact_spans, loc->exact_span_masters);
   std::printf("  tempo fit: %s\n", no_tempo_fit ? "off (--no-tempo-fit)" : "on");
   std::printf("  reproduce: build/tests/bench/accuracy_bench --hours %g --file-min %g --seed %llu\n", hours, file_min,
               static_cast<unsigned long long>(seed));

@@ -13,7 +13,8 @@ TEST_CASE("prepared jobs and tasks read into types and write back as the same JS
   const nlohmann::json locate{{"kind", "locate"},        {"templates", {"/lib/a.wav", "/lib/b.wav"}},
                               {"recordings", {"/air/x.flac"}}, {"threshold", 0.3},
                               {"floor_k", 10.0},         {"fft_size", 0},
-                              {"max_speed_change_pct", 4.5}, {"max_tempo_change_pct", 5.0}};
+                              {"max_speed_change_pct", 4.5}, {"max_tempo_change_pct", 5.0},
+                              {"screen", true}};
   const nlohmann::json reconcile{{"kind", "reconcile"},   {"library", "/lib"},   {"schedule", "/logs/day.csv"},
                                  {"recordings", {"/air/x.flac"}}, {"window_s", 60.0}, {"time_zone", "Europe/Berlin"},
                                  {"excerpts", false},     {"max_speed_change_pct", 0.0},
@@ -37,6 +38,13 @@ TEST_CASE("prepared jobs and tasks read into types and write back as the same JS
   const auto l = std::get<LocateSpec>(job_spec_from_json(locate).value());
   CHECK(l.recordings == std::vector<std::string>{"/air/x.flac"});
   CHECK(*l.search.threshold == 0.3);
+  // The screen reaches the engine's options; unstated, the engine's default stays.
+  LocateOptions lo;
+  l.search.apply(lo);
+  CHECK(lo.screen.enabled);
+  LocateOptions unstated;
+  SearchFields{}.apply(unstated);
+  CHECK(unstated.screen.enabled == ScreenOptions{}.enabled);
   const auto r = std::get<ReconcileSpec>(job_spec_from_json(reconcile).value());
   CHECK(r.excerpts == std::optional<bool>(false));
   CHECK(r.time_zone == "Europe/Berlin");
@@ -95,6 +103,7 @@ TEST_CASE("a job with a field of the wrong kind or out of range is refused namin
   CHECK(with("max_tempo_change_pct", -1).find("'max_tempo_change_pct' must lie in") == 0);
   CHECK(with("max_tempo_change_pct", "5").find("'max_tempo_change_pct' must be a number") == 0);
   CHECK(with("fft_size", 1000).find("'fft_size' must be a power of two") == 0);
+  CHECK(with("screen", 1).find("'screen' must be true or false") == 0);
   CHECK(with("templates", "/a.wav").find("'templates'") == 0);
   CHECK(with("recordings", nlohmann::json::array({1})).find("'recordings'") == 0);
   CHECK(with("kind", "segments").find("'kind'") == 0);

@@ -23,6 +23,7 @@
 #include "godwit/search/correlator.h"
 #include "godwit/core/error.h"
 #include "godwit/search/peak_picker.h"
+#include "godwit/search/screen_options.h"
 #include "godwit/speed/speed_search.h"
 #include "godwit/search/template_bank.h"
 
@@ -48,6 +49,7 @@ struct LocateOptions {
   CorrelatorOptions correlator;
   BankOptions bank;
   SpeedOptions speed;
+  ScreenOptions screen;  // a cheap first pass (screen_options.h); off: the full search
   bool refine = true;  // native-rate offset refinement (Default: on)
   SourceOpener opener = file_opener();
   // The job's masters, decoded once for every stage (master_library.h).
@@ -119,6 +121,10 @@ struct LocateResult {
   std::vector<RecordingReport> recordings;
   std::vector<Match> matches;  // by recording (job order), then offset
   size_t unconfirmed = 0;      // detections that failed the confirmation (timeline_locate.h)
+  // The screened search's work (screen_options.h), over all recordings:
+  // peaks of the screen, spans then scored exactly, (span, master) pairs.
+  size_t screen_candidates = 0, exact_spans = 0, exact_span_masters = 0;
+  double screen_decimate_s = 0, screen_correlate_s = 0, exact_spans_s = 0;  // wall time of each
   bool complete() const {
     for (const auto& r : recordings)
       if (r.error) return false;

@@ -53,7 +53,8 @@ class PeakPicker {
   void feed(int64_t first, const float* scores, size_t n);
   // End of the trace: the rest is examined with the spans that exist.
   void finish();
-  // Candidates confirmed so far, in increasing offset; moves them out.
+  // Candidates settled so far (no later score can displace them), in
+  // increasing offset; moves them out.
   std::vector<Candidate> take();
 
  private:
