@@ -1,5 +1,7 @@
 #include "godwit/audio/analysis_stream.h"
 
+#include "core/wall_timer.h"
+
 namespace godwit {
 
 AnalysisStream::AnalysisStream(AudioSource& source, double analysis_rate_hz, size_t block_frames)
@@ -10,7 +12,12 @@ AnalysisStream::AnalysisStream(AudioSource& source, double analysis_rate_hz, siz
 Result<bool> AnalysisStream::next(Samples& out) {
   out.clear();
   if (done_) return false;
-  auto got = source_.read(native_.data(), native_.size());
+  Result<size_t> got = size_t{0};
+  {
+    detail::WallTimer timed(decode_s_);
+    got = source_.read(native_.data(), native_.size());
+  }
+  detail::WallTimer timed(resample_s_);
   if (!got) {
     // Keep what the filter holds: those samples are real audio.
     resampler_.flush(out);

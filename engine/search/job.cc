@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <future>
 #include <map>
 #include <set>
 
@@ -11,6 +12,7 @@
 #include "godwit/audio/resampler.h"
 #include "speed/speed_pass.h"
 #include "core/thread_pool.h"
+#include "core/wall_timer.h"
 #include "screen_pass.h"
 #include "speed_refinement.h"
 
@@ -173,8 +175,11 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
   if (!lo.masters) lo.masters = std::make_shared<MasterLibrary>(o.opener, o.analysis_rate_hz, 0);
   const bool speed_search = o.speed.enabled && o.speed.max_deviation > 0;
   std::vector<detail::WarpTemplate> envelopes;
-  if (o.screen.enabled && !(o.screen.rate_hz >= 500 && o.screen.rate_hz < o.analysis_rate_hz))
-    return Error{ErrorCode::usage, "the screen rate must lie in 500 Hz .. the analysis rate", "", std::nullopt};
+  if (o.screen.enabled && !(o.screen.rate_hz >= 250))
+    return Error{ErrorCode::usage, "the screen rate must be 250 Hz or more", "", std::nullopt};
+  // A screen at half the analysis rate or more would save little: the full search.
+  lo.screen.enabled = o.screen.enabled && o.screen.rate_hz <= o.analysis_rate_hz / 2;
+  std::optional<detail::WallTimer> masters_timer(std::in_place, result.times.masters_s);
   auto bank_r = load_bank(job, lo, result.templates, speed_search ? &envelopes : nullptr);
   if (!bank_r) return bank_r.error();
   std::shared_ptr<const TemplateBank> bank = bank_r.value().exact;
@@ -188,7 +193,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     correlator = std::make_unique<Correlator>(bank, copt);
   std::unique_ptr<detail::SpeedPass> speed_pass;
   if (speed_search) speed_pass = std::make_unique<detail::SpeedPass>(std::move(envelopes), o.analysis_rate_hz, o.speed, copt.threads);
+  masters_timer.reset();
   const size_t nrec = job.recordings.size();
+  auto& times = result.times;
 
   for (size_t ri = 0; ri < nrec; ++ri) {
     const std::string& path = job.recordings[ri];
@@ -213,14 +220,29 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     ScoreSink sink = [&](size_t t, int64_t first, const float* s, size_t n) { pickers[t].feed(first, s, n); };
     int64_t pushed = 0;
     auto push = [&](const float* x, size_t n) {
-      if (correlator) correlator->push(x, n, sink);
-      if (screen) screen->push(x, n);
-      if (speed_pass) speed_pass->push(x, n);
+      {
+        detail::WallTimer timed(times.search_s);
+        if (correlator) correlator->push(x, n, sink);
+        if (screen) screen->push(x, n);
+      }
+      if (speed_pass) {
+        detail::WallTimer timed(times.speed_scan_s);
+        speed_pass->push(x, n);
+      }
       pushed += static_cast<int64_t>(n);
     };
 
     AnalysisStream stream(src, o.analysis_rate_hz);
-    Samples block;
+    // The next block is decoded and resampled on a reader thread while the
+    // search takes this one (the search's own threads leave a core idle
+    // between blocks, and the screened search most of the time).
+    using Fetched = std::pair<Result<bool>, Samples>;
+    auto fetch = [&stream](Samples buf) -> Fetched {
+      auto more = stream.next(buf);
+      return {std::move(more), std::move(buf)};
+    };
+    std::future<Fetched> ahead = std::async(std::launch::async, fetch, Samples{});
+    Samples block, spare;
     // Silence of the longest master's length before and after the
     // recording, so that an airing cut by its start or end is scored on
     // the part that was recorded, however small (whether it then clears
@@ -238,10 +260,15 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     prog.recording_total_s = src.info().duration_s();
     int64_t last_report = 0;
     for (;;) {
-      if (o.should_stop && o.should_stop())
+      if (o.should_stop && o.should_stop()) {
+        ahead.wait();  // it reads `stream`
         return Error{ErrorCode::cancelled, "cancelled", path,
                      static_cast<double>(std::max<int64_t>(0, pushed - pad)) / o.analysis_rate_hz};
-      auto more = stream.next(block);
+      }
+      auto [more, got] = ahead.get();
+      spare = std::move(block);
+      block = std::move(got);
+      if (more && more.value()) ahead = std::async(std::launch::async, fetch, std::move(spare));
       if (!block.empty()) push(block.data(), block.size());
       if (!more) {
         report.error = more.error();
@@ -261,9 +288,19 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       }
     }
     if (stream.native_frames_read() > 0) push(edge.data(), edge.size());
-    if (correlator) correlator->finish(sink);
-    if (screen) screen->finish();
-    if (speed_pass) speed_pass->finish();
+    report.decode_s = stream.decode_s();
+    report.resample_s = stream.resample_s();
+    times.decode_s += report.decode_s;
+    times.resample_s += report.resample_s;
+    {
+      detail::WallTimer timed(times.search_s);
+      if (correlator) correlator->finish(sink);
+      if (screen) screen->finish();
+    }
+    if (speed_pass) {
+      detail::WallTimer timed(times.speed_scan_s);
+      speed_pass->finish();
+    }
     if (auto e = src.deferred_error(); e && !report.error) {
       report.error = e;
       if (o.on_diagnostic) o.on_diagnostic(e->describe() + "; the rest of that file read as silence");
@@ -294,10 +331,18 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       for (const auto& [t, m] : found)
         if (!tempo || std::fabs(m.score) >= detail::kClearPlainScore)
           plain.emplace_back(t, m.offset_s * o.analysis_rate_hz + static_cast<double>(pad));
-      const auto cands = speed_pass->candidates(plain, report.duration_s);
+      std::vector<detail::SpeedCandidate> cands;
+      {
+        detail::WallTimer timed(times.speed_scan_s);
+        cands = speed_pass->candidates(plain, report.duration_s);
+      }
+      detail::WallTimer timed(times.speed_fit_s);
       detail::merge_fits(found, detail::refine_speed_candidates(path, *bank, lo, cands, pad), *bank, o.analysis_rate_hz);
     }
-    if (o.refine) refine_matches(path, *bank, lo, found);
+    if (o.refine) {
+      detail::WallTimer timed(times.refine_s);
+      refine_matches(path, *bank, lo, found);
+    }
     std::vector<Match> matches;
     for (auto& f : found) matches.push_back(std::move(f.second));
     std::sort(matches.begin(), matches.end(), [](const Match& a, const Match& b) {
@@ -316,9 +361,9 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
     result.screen_candidates = screen->stats().screen_candidates;
     result.exact_spans = screen->stats().spans;
     result.exact_span_masters = screen->stats().span_templates;
-    result.screen_decimate_s = screen->stats().decimate_s;
-    result.screen_correlate_s = screen->stats().screen_s;
-    result.exact_spans_s = screen->stats().spans_s;
+    result.times.screen_decimate_s = screen->stats().decimate_s;
+    result.times.screen_correlate_s = screen->stats().screen_s;
+    result.times.exact_spans_s = screen->stats().spans_s;
   }
   return result;
 }

@@ -1,10 +1,10 @@
 #include "screen_pass.h"
 
 #include <algorithm>
-#include <chrono>
 #include <cmath>
 
 #include "core/thread_pool.h"
+#include "core/wall_timer.h"
 #include "fft_plans.h"
 #include "godwit/audio/resampler.h"
 #include "window_energy.h"
@@ -33,19 +33,6 @@ struct SpanBlock {
   WindowEnergy energy;
   double block_energy = 0;
   int64_t first = 0;  // trace index of the block's first sample
-};
-
-// Adds the wall time of its scope to `total_s`.
-class Timed {
- public:
-  explicit Timed(double& total_s) : total_s_(total_s), t0_(std::chrono::steady_clock::now()) {}
-  ~Timed() { total_s_ += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0_).count(); }
-  Timed(const Timed&) = delete;
-  Timed& operator=(const Timed&) = delete;
-
- private:
-  double& total_s_;
-  std::chrono::steady_clock::time_point t0_;
 };
 
 struct Scratch {
@@ -140,7 +127,7 @@ struct ScreenPass::Impl {
 
   void screen_push(const Samples& x) {
     if (x.empty()) return;
-    Timed timed(stats.screen_s);
+    WallTimer timed(stats.screen_s);
     screen_corr.push(x.data(), x.size(), sink);
   }
 
@@ -193,7 +180,7 @@ struct ScreenPass::Impl {
   }
 
   void score_spans(const std::vector<Span>& spans, bool final) {
-    Timed timed(stats.spans_s);
+    WallTimer timed(stats.spans_s);
     std::vector<SpanBlock> blocks(spans.size());
     pool.run(spans.size(), [&](size_t i, size_t) {
       SpanBlock& b = blocks[i];
@@ -288,7 +275,7 @@ void ScreenPass::push(const float* x, size_t n) {
   s.pushed += static_cast<int64_t>(n);
   s.decimated.clear();
   {
-    Timed timed(s.stats.decimate_s);
+    WallTimer timed(s.stats.decimate_s);
     s.decimator.process(x, n, s.decimated);
   }
   s.screen_push(s.decimated);

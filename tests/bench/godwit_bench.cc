@@ -317,9 +317,10 @@ int screen(size_t k, double hours, const std::string& cache_dir) {
               full.cpu_s / scr.cpu_s);
   std::printf("  screen: %zu candidates, %zu spans scored exactly, %zu (span, master) pairs\n",
               scr.result.screen_candidates, scr.result.exact_spans, scr.result.exact_span_masters);
+  const auto& t = scr.result.times;
   std::printf("  screened, wall s: decimation %.2f, screen correlation %.2f, exact spans %.2f, the rest %.2f\n",
-              scr.result.screen_decimate_s, scr.result.screen_correlate_s, scr.result.exact_spans_s,
-              scr.wall_s - scr.result.screen_decimate_s - scr.result.screen_correlate_s - scr.result.exact_spans_s);
+              t.screen_decimate_s, t.screen_correlate_s, t.exact_spans_s,
+              scr.wall_s - t.screen_decimate_s - t.screen_correlate_s - t.exact_spans_s);
   size_t same = 0;
   for (const auto& a : full.result.matches)
     for (const auto& b : scr.result.matches)

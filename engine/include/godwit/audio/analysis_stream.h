@@ -26,6 +26,10 @@ class AnalysisStream {
 
   // Native frames read so far.
   int64_t native_frames_read() const { return native_read_; }
+  // Wall time spent decoding (the source's reads, downmix included) and
+  // resampling so far.
+  double decode_s() const { return decode_s_; }
+  double resample_s() const { return resample_s_; }
 
  private:
   AudioSource& source_;
@@ -33,6 +37,7 @@ class AnalysisStream {
   Samples native_;
   int64_t native_read_ = 0;
   bool done_ = false;
+  double decode_s_ = 0, resample_s_ = 0;
 };
 
 // Mono native frames [start, start + frames) of `source`; frames before 0

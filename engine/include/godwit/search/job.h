@@ -106,6 +106,7 @@ struct RecordingReport {
   // (then `duration_s` says how far it got and matches found before the
   // break are kept).
   std::optional<Error> error;
+  double decode_s = 0, resample_s = 0;  // wall time reading it (LocateResult::StepTimes)
 };
 
 struct TemplateReport {
@@ -124,7 +125,20 @@ struct LocateResult {
   // The screened search's work (screen_options.h), over all recordings:
   // peaks of the screen, spans then scored exactly, (span, master) pairs.
   size_t screen_candidates = 0, exact_spans = 0, exact_span_masters = 0;
-  double screen_decimate_s = 0, screen_correlate_s = 0, exact_spans_s = 0;  // wall time of each
+  // Where the job's time went: wall seconds of each step on the thread
+  // that ran it, summed over recordings. Decoding and resampling run on a
+  // reader thread ahead of the search, so the steps overlap and their sum
+  // may exceed the job's wall time.
+  struct StepTimes {
+    double masters_s = 0;           // decoding the masters, building the banks
+    double decode_s = 0;            // reading recordings: decoding, downmix
+    double resample_s = 0;          // to the analysis rate
+    double search_s = 0;            // the plain search (full, or screened)
+    double screen_decimate_s = 0, screen_correlate_s = 0, exact_spans_s = 0;  // within search_s
+    double speed_scan_s = 0;        // the speed search's envelopes and coarse grid
+    double speed_fit_s = 0;         // its fits (speed and tempo)
+    double refine_s = 0;            // native-rate offset refinement
+  } times;
   bool complete() const {
     for (const auto& r : recordings)
       if (r.error) return false;
