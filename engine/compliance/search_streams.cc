@@ -1,5 +1,6 @@
 #include "godwit/compliance/search_streams.h"
 
+#include <map>
 #include <set>
 
 #include "godwit/audio/concat_source.h"
