@@ -37,6 +37,21 @@ struct MemoryFiles {
   SourceOpener opener() const;
 };
 
+// A source that does not state its length (as a stream of an unknown
+// length does), so that a plan decodes it to count its frames.
+class Unsized : public AudioSource {
+ public:
+  explicit Unsized(SourcePtr s) : s_(std::move(s)), info_(s_->info()) { info_.native_frames.reset(); }
+  const AudioInfo& info() const override { return info_; }
+  Result<size_t> read(float* out, size_t n) override { return s_->read(out, n); }
+  Status seek(int64_t frame) override { return s_->seek(frame); }
+  int64_t position_frames() const override { return s_->position_frames(); }
+
+ private:
+  SourcePtr s_;
+  AudioInfo info_;
+};
+
 // Locate options for in-memory files: estimate planner, FFTs up to 2^18
 // (fast to plan, enough for masters of a minute).
 LocateOptions fast_locate_options(const MemoryFiles& files);

@@ -29,9 +29,9 @@ Result<int64_t> count_frames(AudioSource& src) {
 
 struct Detection {
   size_t master = 0;
-  size_t run = 0;
-  double run_offset_s = 0;
+  RunId run;
   Match match;
+  RecordingId file_id;
   std::string file;
   double file_offset_s = 0;
   LocalSeconds aired_s = 0;
@@ -51,15 +51,13 @@ std::vector<ConcatPart> run_parts(const Timeline& timeline, size_t run) {
 }
 
 std::vector<LocalSpan> recorded_spans(const Timeline& timeline, const std::vector<RecordingStatus>& recordings) {
-  std::map<std::string, const RecordingStatus*> status_of;
-  for (const auto& st : recordings) status_of[st.path] = &st;
   std::vector<LocalSpan> spans;
   for (const auto& run : timeline.runs)
     for (const auto& f : run.files) {
       LocalSeconds from = f.start_s + f.skip_s, to = f.start_s + f.duration_s;
-      if (auto it = status_of.find(f.path); it != status_of.end() && it->second->error) {
+      if (f.recording.index < recordings.size() && recordings[f.recording.index].error) {
         // Read up to where it broke; nothing of it when that is not known.
-        const auto& e = *it->second->error;
+        const auto& e = *recordings[f.recording.index].error;
         to = e.offset_s ? std::min(to, f.start_s + *e.offset_s) : from;
       }
       if (to <= from) continue;
@@ -79,7 +77,8 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o)
   ReconcilePlan plan;
   const SourceOpener& base = o.locate.opener;
   std::vector<TimelineFile> files;
-  for (const auto& r : job.recordings) {
+  for (size_t i = 0; i < job.recordings.size(); ++i) {
+    const RecordingInput& r = job.recordings[i];
     RecordingStatus st;
     st.path = r.path;
     st.start_s = r.start_s ? r.start_s : time_from_name(std::filesystem::path(r.path).filename().string(), o.name_pattern);
@@ -100,7 +99,7 @@ ReconcilePlan plan_reconcile(const ReconcileJob& job, const ReconcileOptions& o)
         st.error = Error{ErrorCode::empty, "recording holds no audio", r.path, std::nullopt};
       } else {
         st.duration_s = static_cast<double>(frames.value()) / st.native_rate_hz;
-        files.push_back({r.path, *st.start_s, st.duration_s, st.native_rate_hz, 0});
+        files.push_back({r.path, *st.start_s, st.duration_s, st.native_rate_hz, 0, RecordingId{i}});
       }
     }
     if (st.error && o.locate.on_diagnostic) o.locate.on_diagnostic(st.error->describe());
@@ -146,20 +145,20 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
   // 2. The search of the runs.
   std::vector<Match> matches = std::move(search.matches);
   std::vector<TemplateReport> templates = std::move(search.templates);
-  for (size_t i = 0; i < search.recordings.size() && i < timeline.runs.size(); ++i) {
+  for (size_t i = 0; i < search.recordings.size(); ++i) {
     const auto& rr = search.recordings[i];
-    if (!rr.error) continue;
+    const auto run_i = plan.streams.run_of(RecordingId{i});
+    if (!rr.error || !run_i || run_i->index >= timeline.runs.size()) continue;
     // Attach a run's failure to the file where it happened.
-    const auto& run = timeline.runs[i];
+    const auto& run = timeline.runs[run_i->index];
     Error e = *rr.error;
-    std::string where = run.files.front().path;
+    RecordingId where = run.files.front().recording;
     if (e.offset_s) {  // run time to the file's own time
       const auto [part, in_file_s] = run.locate_s(*e.offset_s);
-      where = run.files[part].path;
+      where = run.files[part].recording;
       e.offset_s = in_file_s;
     }
-    for (auto& st : res.recordings)
-      if (st.path == where && !st.error) st.error = e;
+    if (where.index < res.recordings.size() && !res.recordings[where.index].error) res.recordings[where.index].error = e;
   }
   if (templates.empty())
     for (const auto& m : job.masters) templates.push_back({template_id_for(m), m, 0, 0});
@@ -216,7 +215,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     evidence.assign(matches.size(), std::nullopt);
     std::map<size_t, std::vector<size_t>> by_run;
     for (size_t i = 0; i < matches.size(); ++i)
-      if (auto r = plan.streams.run_of(matches[i].recording)) by_run[r->index].push_back(i);
+      if (auto r = plan.streams.run_of(matches[i].recording_id)) by_run[r->index].push_back(i);
     for (const auto& [run, which] : by_run) {
       if (run >= timeline.runs.size()) continue;
       std::vector<Match> ms;
@@ -230,13 +229,13 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     const Match& m = matches[i];
     Detection d;
     d.master = index_of.at(m.template_id);
-    const auto run = plan.streams.run_of(m.recording);
+    const auto run = plan.streams.run_of(m.recording_id);
     if (!run) continue;
-    d.run = run->index;
+    d.run = *run;
     d.match = m;
-    if (d.run >= timeline.runs.size() || !evidence[i]) continue;
-    const auto [part, in_file_s] = timeline.runs[d.run].locate_s(m.offset_s);
-    const auto& f = timeline.runs[d.run].files[part];
+    if (d.run.index >= timeline.runs.size() || !evidence[i]) continue;
+    const auto [part, in_file_s] = timeline.runs[d.run.index].locate_s(m.offset_s);
+    const auto& f = timeline.runs[d.run.index].files[part];
     if (evidence[i]->weak) {
       ++res.rejected_weak;
       res.rejected.push_back({m.template_id, f.start_s + in_file_s, m.score, m.speed, evidence[i]->profile.coverage,
@@ -249,6 +248,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     d.shape_match = evidence[i]->shape_match;
     d.spot_lufs = evidence[i]->spot_lufs;
     d.programme_lufs = evidence[i]->programme_lufs;
+    d.file_id = f.recording;
     d.file = f.path;
     d.file_offset_s = in_file_s;
     d.aired_s = f.start_s + d.file_offset_s;
@@ -274,6 +274,7 @@ Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan 
     const size_t win = choice.winner;
     const Detection& d = dets[win];
     a.spot = ids[d.master];
+    a.recording_id = d.file_id;
     a.recording = d.file;
     a.offset_s = d.file_offset_s;
     a.aired_s = d.aired_s;

@@ -20,7 +20,8 @@ constexpr double kApart_s = 1e9;
 // Every detection of the runs confirmed as reconcile confirms it
 // (gather_evidence: verification profile, foreground contrast), then
 // sibling versions detected at one airing resolved; in place (`matches`
-// hold run names and run offsets). Returns how many were not confirmed.
+// are the search's: streams and their offsets). Returns how many were not
+// confirmed.
 size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<TemplateReport>& templates,
                            const Timeline& timeline, const SearchStreams& streams, const LocateOptions& o,
                            const TimelineLocateOptions& t,
@@ -37,7 +38,7 @@ size_t confirm_and_resolve(std::vector<Match>& matches, const std::vector<Templa
   ro.min_foreground_evidence = t.min_foreground_evidence;
   std::map<size_t, std::vector<size_t>> by_run;  // run -> indices into matches, by offset
   for (size_t i = 0; i < matches.size(); ++i)
-    if (auto r = streams.run_of(matches[i].recording)) by_run[r->index].push_back(i);
+    if (auto r = streams.run_of(matches[i].recording_id)) by_run[r->index].push_back(i);
   std::vector<bool> drop(matches.size(), false);
   std::vector<std::optional<DetectionEvidence>> evidence(matches.size());
   const bool have = given.size() == matches.size();
@@ -158,8 +159,8 @@ LocatePlan plan_locate(const LocateJob& job, const LocateOptions& o, const Timel
   // Files that could not be planned (unreadable, or broken part way) are
   // searched alone, as far as they can be read: their error and the
   // matches found before it are kept.
-  for (const auto& st : lp.plan.recordings)
-    if (st.error) lp.alone.push_back(st.path);
+  for (size_t i = 0; i < lp.plan.recordings.size(); ++i)
+    if (lp.plan.recordings[i].error) lp.alone.push_back({RecordingId{i}, lp.plan.recordings[i].path});
   lp.plan.streams = SearchStreams(lp.plan.timeline, lp.alone);
   lp.streams = lp.plan.streams.names();
   return lp;
@@ -170,26 +171,14 @@ Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const L
   const Timeline& timeline = lp.plan.timeline;
   const SearchStreams& streams = lp.plan.streams;
   const size_t rejected = confirm_and_resolve(s.matches, s.templates, timeline, streams, o, t, std::move(evidence));
-  // The search reports its streams in order: the files alone, then the runs.
-  std::map<std::string, RecordingReport> alone_report;
-  std::vector<RecordingReport> run_reports;
-  for (auto& r : s.recordings) {
-    if (streams.run_of(r.path)) run_reports.push_back(std::move(r));
-    else alone_report[r.path] = std::move(r);
-  }
 
   LocateResult out;
   out.analysis_rate_hz = s.analysis_rate_hz;
   out.unconfirmed = rejected;
   out.templates = std::move(s.templates);
-  // Recordings in job order, with what their run's search said about them.
-  std::map<std::string, size_t> report_of;
+  // Recordings in job order (a RecordingId of the job is a place here), as
+  // the plan read them.
   for (const auto& st : lp.plan.recordings) {
-    if (auto a = alone_report.find(st.path); a != alone_report.end()) {
-      report_of.emplace(st.path, out.recordings.size());
-      out.recordings.push_back(a->second);
-      continue;
-    }
     RecordingReport r;
     r.path = st.path;
     r.format = st.format;
@@ -197,39 +186,47 @@ Result<LocateResult> finish_locate(const LocatePlan& lp, LocateResult s, const L
     r.channels = st.channels;
     r.duration_s = st.duration_s;
     r.error = st.error;
-    report_of.emplace(st.path, out.recordings.size());
     out.recordings.push_back(std::move(r));
   }
-  for (size_t i = 0; i < run_reports.size(); ++i) {
-    const auto& rr = run_reports[i];
-    const auto run_i = streams.run_of(rr.path);
+  // What the search said about its streams (one report each, in order): a
+  // file searched alone as its own search reported it, a run's failure on
+  // the file where it happened.
+  for (size_t i = 0; i < s.recordings.size(); ++i) {
+    RecordingReport& rr = s.recordings[i];
+    if (const auto file = streams.alone_of(RecordingId{i})) {
+      if (file->index < out.recordings.size()) out.recordings[file->index] = std::move(rr);
+      continue;
+    }
+    const auto run_i = streams.run_of(RecordingId{i});
     if (!rr.error || !run_i || run_i->index >= timeline.runs.size()) continue;
     const TimelineRun& run = timeline.runs[run_i->index];
     // The file where it broke; the files after it were read on (concat_source.h).
     const auto [file, in_file_s] = run.locate_s(rr.error->offset_s.value_or(0));
-    auto it = report_of.find(run.files[file].path);
-    if (it == report_of.end()) continue;
-    RecordingReport& r = out.recordings[it->second];
+    const RecordingId where = run.files[file].recording;
+    if (where.index >= out.recordings.size()) continue;
+    RecordingReport& r = out.recordings[where.index];
     r.error = *rr.error;
     r.error->path = r.path;
     r.error->offset_s = std::max(0.0, in_file_s);
     r.duration_s = std::max(0.0, in_file_s);
   }
   for (auto& m : s.matches) {
-    const auto run = streams.run_of(m.recording);
-    if (!run) {  // a file searched alone
+    if (const auto file = streams.alone_of(m.recording_id)) {  // a file searched alone: its name is its path
+      m.recording_id = *file;
       out.matches.push_back(std::move(m));
       continue;
     }
-    if (run->index >= timeline.runs.size()) continue;
+    const auto run = streams.run_of(m.recording_id);
+    if (!run || run->index >= timeline.runs.size()) continue;
     const auto [file, in_file_s] = timeline.runs[run->index].locate_s(m.offset_s);
-    m.recording = timeline.runs[run->index].files[file].path;
+    const TimelineFile& f = timeline.runs[run->index].files[file];
+    m.recording_id = f.recording;
+    m.recording = f.path;
     m.offset_s = in_file_s;
     out.matches.push_back(std::move(m));
   }
-  std::stable_sort(out.matches.begin(), out.matches.end(), [&](const Match& a, const Match& b) {
-    const size_t ra = report_of[a.recording], rb = report_of[b.recording];
-    if (ra != rb) return ra < rb;
+  std::stable_sort(out.matches.begin(), out.matches.end(), [](const Match& a, const Match& b) {
+    if (a.recording_id != b.recording_id) return a.recording_id < b.recording_id;
     if (a.offset_s != b.offset_s) return a.offset_s < b.offset_s;
     return a.template_id < b.template_id;
   });

@@ -250,7 +250,7 @@ Result<Listening> make_excerpts(const ReconcileResult& r, const SourceOpener& op
   // Airings, run by run, so that each run's files are opened once.
   std::map<size_t, std::vector<std::pair<size_t, std::string>>> by_run;
   for (const auto& w : wanted)
-    if (w.first < r.airings.size()) by_run[r.airings[w.first].run].push_back(w);
+    if (w.first < r.airings.size()) by_run[r.airings[w.first].run.index].push_back(w);
   std::set<std::string> heard;
   for (const auto& [run, list] : by_run) {
     if (run >= r.runs.size()) {

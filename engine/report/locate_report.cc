@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <tuple>
 
 #include "csv_field.h"
 #include "json_number.h"
@@ -75,6 +76,35 @@ nlohmann::json locate_to_json(const LocateResult& r, bool exact) {
   return j;
 }
 
+namespace {
+
+// The place of `m`'s recording in `r` (whose matches so far are read): a
+// document names a match's recording by its path only, and lists matches
+// by recording in the job's order, then offset, then master (job.h). So a
+// match is in the previous match's recording when it names that path and
+// follows it in that order, else in the next recording of its path; in a
+// document out of that order, the first of its path. Empty when no
+// recording of the document has that path.
+std::optional<RecordingId> recording_of(const LocateResult& r, const Match& m) {
+  auto find = [&](size_t from) -> std::optional<RecordingId> {
+    for (size_t i = from; i < r.recordings.size(); ++i)
+      if (r.recordings[i].path == m.recording) return RecordingId{i};
+    return std::nullopt;
+  };
+  size_t from = 0;
+  if (!r.matches.empty()) {
+    const Match& prev = r.matches.back();
+    from = prev.recording_id.index;
+    if (prev.recording == m.recording &&
+        !(std::tie(prev.offset_s, prev.template_id) < std::tie(m.offset_s, m.template_id)))
+      ++from;  // not after it: the next copy of that file
+  }
+  if (auto at = find(from)) return at;
+  return find(0);
+}
+
+}  // namespace
+
 Result<LocateResult> locate_from_json(const nlohmann::json& j) {
   auto bad = [] { return Error{ErrorCode::internal, "not a locate document", "", std::nullopt}; };
   if (!j.is_object() || !j.contains("templates") || !j.contains("recordings") || !j.contains("matches") ||
@@ -117,6 +147,9 @@ Result<LocateResult> locate_from_json(const nlohmann::json& j) {
         for (const auto& a : x.at("alternatives"))
           m.alternatives.push_back({a.at("template").get<std::string>(), a.at("score").get<double>(),
                                     a.value("distinguishing_score", 0.0)});
+      auto place = recording_of(r, m);
+      if (!place) return bad();
+      m.recording_id = *place;
       r.matches.push_back(std::move(m));
     }
     return r;

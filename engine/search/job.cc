@@ -344,7 +344,10 @@ Result<LocateResult> run_locate(const LocateJob& job, const LocateOptions& o) {
       refine_matches(path, *bank, lo, found);
     }
     std::vector<Match> matches;
-    for (auto& f : found) matches.push_back(std::move(f.second));
+    for (auto& f : found) {
+      f.second.recording_id = RecordingId{ri};
+      matches.push_back(std::move(f.second));
+    }
     std::sort(matches.begin(), matches.end(), [](const Match& a, const Match& b) {
       if (a.offset_s != b.offset_s) return a.offset_s < b.offset_s;
       return a.template_id < b.template_id;

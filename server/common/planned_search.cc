@@ -1,7 +1,6 @@
 #include "planned_search.h"
 
 #include <algorithm>
-#include <map>
 
 namespace godwit {
 
@@ -44,17 +43,14 @@ Result<TaskSearch> search_by_tasks(TaskRunner& runner, const std::string& job_id
     return out;
   }
   // Per stream, its matches' evidence over its files.
-  std::map<std::string, size_t> stream_of;
-  for (size_t s = 0; s < streams.size(); ++s) {
-    if (streams[s].parts.empty()) return out;  // a file read alone: the finish gathers it
-    stream_of[streams[s].name] = s;
-  }
+  for (const auto& s : streams)
+    if (s.parts.empty()) return out;  // a file read alone: the finish gathers it
   out.evidence.resize(out.search.matches.size());
   std::vector<std::vector<size_t>> by_stream(streams.size());
   for (size_t i = 0; i < out.search.matches.size(); ++i) {
-    auto it = stream_of.find(out.search.matches[i].recording);
-    if (it == stream_of.end()) return Error{ErrorCode::internal, "a match of no stream", "", std::nullopt};
-    by_stream[it->second].push_back(i);
+    const size_t s = out.search.matches[i].recording_id.index;  // the merge's: a place in `streams`
+    if (s >= streams.size()) return Error{ErrorCode::internal, "a match of no stream", "", std::nullopt};
+    by_stream[s].push_back(i);
   }
   for (size_t s = 0; s < streams.size(); ++s) {
     if (by_stream[s].empty()) continue;

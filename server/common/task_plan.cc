@@ -137,6 +137,7 @@ Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std
     if (!r) return internal("the result of task " + tasks[i].id + " is not a locate document");
     const size_t s = tasks[i].stream;
     if (s >= streams.size()) return internal("task " + tasks[i].id + " names no stream of the plan");
+    if (r.value().recordings.size() > 1) return internal("task " + tasks[i].id + " reports more than its stream");
     out.analysis_rate_hz = r.value().analysis_rate_hz;
     for (auto& t : r.value().templates) template_by_path.emplace(t.path, std::move(t));
     for (auto& rec : r.value().recordings) {
@@ -152,8 +153,11 @@ Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std
     const nlohmann::json* ev = results[i].contains("evidence") ? &results[i]["evidence"] : nullptr;
     if (ev && (!ev->is_array() || ev->size() != r.value().matches.size()))
       return internal("task " + tasks[i].id + " gives evidence for other matches than its own");
-    for (size_t k = 0; k < r.value().matches.size(); ++k)
-      found.push_back({std::move(r.value().matches[k]), s, i, ev ? (*ev)[k] : nlohmann::json()});
+    for (size_t k = 0; k < r.value().matches.size(); ++k) {
+      Match& m = r.value().matches[k];
+      m.recording_id = RecordingId{s};  // the stream its task searched, whatever it is called
+      found.push_back({std::move(m), s, i, ev ? (*ev)[k] : nlohmann::json()});
+    }
   }
   for (const auto& path : templates) {
     if (tasks.empty()) break;  // nothing searched (a reconcile job whose recordings all failed)

@@ -80,8 +80,10 @@ struct MergedSearch {
 // The job's search from its tasks' results (in plan order): templates in
 // `templates` order; one recording report per stream, keeping the
 // earliest error and the furthest point decoded; matches by stream, then
-// offset, then template. Errors: a result that is not a locate document,
-// or a count that differs from the plan's.
+// offset, then template, each with its task's stream as its recording_id
+// (streams may share a name: a file listed twice). Errors: a result that
+// is not a locate document or reports more than one recording, or a count
+// that differs from the plan's.
 Result<MergedSearch> merge_results(const std::vector<Stream>& streams, const std::vector<std::string>& templates,
                                    const std::vector<PlannedTask>& tasks, const std::vector<nlohmann::json>& results);
 

@@ -78,7 +78,7 @@ Result<nlohmann::json> run_planned(const JobRunner& runner, TaskRunner& tasks_ru
     templates = lspec->templates;
     lo = runner.locate_options(lspec->search, warn);
     lplan = plan_locate({templates, lspec->recordings}, lo, {});
-    for (const auto& a : lplan.alone) streams.push_back(recording_stream(a, plan.span_s));
+    for (const auto& a : lplan.alone) streams.push_back(recording_stream(a.path, plan.span_s));
     add_run_streams(lplan.plan, streams);
   }
   // A reconcile job's finish (verification, loudness) follows the tasks.

@@ -108,7 +108,6 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
   job.options_sha256 = sha256_hex(job.options_json);
   job.finished_utc = static_cast<int64_t>(std::time(nullptr));
 
-  std::map<std::string, size_t> recording_index;
   for (const auto& s : r.recordings) {
     RecordingRow row;
     row.path = absolute_path(s.path);
@@ -126,8 +125,8 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
     row.codec = s.format;
     row.channels = s.channels;
     if (s.error) row.error = s.error->describe();
-    recording_index[s.path] = job.recordings.size();
-    job.recordings.push_back(std::move(row));
+    job.recordings.push_back(std::move(row));  // r.recordings' places: an airing's recording_id
+
   }
   for (const auto& [spot, info] : r.spots) {
     MasterRow m;
@@ -145,18 +144,21 @@ JobRecord job_record(const ReconcileResult& r, const ReconcileOptions& options, 
   for (size_t i : r.unscheduled)
     if (i < unscheduled.size()) unscheduled[i] = true;
   std::vector<std::optional<size_t>> detection_of(r.airings.size());
+  std::map<RecordingId, size_t> extra_recording;
   for (size_t i = 0; i < r.airings.size(); ++i) {
     const AiringRecord& a = r.airings[i];
     if (!r.spots.count(a.spot)) continue;  // a master the job does not name: nothing to key it by
-    auto rec = recording_index.find(a.recording);
-    if (rec == recording_index.end()) {
+    // A recording the result does not list (a result made elsewhere): a row
+    // of its own, one per place.
+    auto rec = extra_recording.find(a.recording_id);
+    if (a.recording_id.index >= r.recordings.size() && rec == extra_recording.end()) {
       RecordingRow row;
       row.path = absolute_path(a.recording);
-      rec = recording_index.emplace(a.recording, job.recordings.size()).first;
+      rec = extra_recording.emplace(a.recording_id, job.recordings.size()).first;
       job.recordings.push_back(std::move(row));
     }
     DetectionRow d;
-    d.recording = rec->second;
+    d.recording = a.recording_id.index < r.recordings.size() ? a.recording_id.index : rec->second;
     d.spot = a.spot;
     d.offset_s = a.offset_s;
     d.aired_local = a.aired_s;

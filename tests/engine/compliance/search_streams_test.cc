@@ -1,5 +1,6 @@
-// The streams of a plan's search: names given and read back by lookup,
-// never parsed, and a file whose name looks like a run's is still itself.
+// The streams of a plan's search: names given for opening, places read
+// back as runs and recordings (never from the names), and a file whose
+// name looks like a run's is still itself.
 #include "godwit/compliance/search_streams.h"
 
 #include <doctest/doctest.h>
@@ -13,43 +14,29 @@
 
 using namespace godwit;
 
-namespace {
-
-// A source that does not state its length (as a stream of an unknown
-// length does), so that the plan decodes it to count its frames.
-class Unsized : public AudioSource {
- public:
-  explicit Unsized(SourcePtr s) : s_(std::move(s)), info_(s_->info()) { info_.native_frames.reset(); }
-  const AudioInfo& info() const override { return info_; }
-  Result<size_t> read(float* out, size_t n) override { return s_->read(out, n); }
-  Status seek(int64_t frame) override { return s_->seek(frame); }
-  int64_t position_frames() const override { return s_->position_frames(); }
-
- private:
-  SourcePtr s_;
-  AudioInfo info_;
-};
-
-}  // namespace
-
-TEST_CASE("a plan's streams are the files alone then the runs, read back by lookup") {
-  const Timeline tl = build_timeline({{"/air/a.wav", 0, 60, 8000, 0}, {"/air/b.wav", 60, 60, 8000, 0},
-                                      {"/air/c.wav", 1000, 60, 8000, 0}},
+TEST_CASE("a plan's streams are the files alone then the runs, read back by place") {
+  const Timeline tl = build_timeline({{"/air/a.wav", 0, 60, 8000, 0, RecordingId{0}},
+                                      {"/air/b.wav", 60, 60, 8000, 0, RecordingId{1}},
+                                      {"/air/c.wav", 1000, 60, 8000, 0, RecordingId{3}}},
                                      0.5);
   REQUIRE(tl.runs.size() == 2);
-  const SearchStreams s(tl, {"/air/broken.wav", "run:1"});
+  CHECK(tl.runs[1].files[0].recording == RecordingId{3});
+  const SearchStreams s(tl, {{RecordingId{2}, "/air/broken.wav"}, {RecordingId{4}, "run:1"}});
   CHECK(s.names().size() == 4);
   CHECK(s.names()[0] == "/air/broken.wav");
   CHECK(s.runs() == 2);
-  CHECK(s.run_of(s.name(RunId{0})) == RunId{0});
-  CHECK(s.run_of(s.name(RunId{1})) == RunId{1});
+  CHECK(s.stream(RunId{0}) == RecordingId{2});
+  CHECK(s.run_of(s.stream(RunId{0})) == RunId{0});
+  CHECK(s.run_of(s.stream(RunId{1})) == RunId{1});
+  CHECK(s.name(RunId{0}) == s.names()[2]);
+  // The files alone are the job's recordings they were given as.
+  CHECK(s.alone_of(RecordingId{0}) == RecordingId{2});
+  CHECK(s.alone_of(RecordingId{1}) == RecordingId{4});
+  CHECK_FALSE(s.alone_of(RecordingId{2}).has_value());
+  CHECK_FALSE(s.run_of(RecordingId{1}).has_value());
+  CHECK_FALSE(s.run_of(RecordingId{4}).has_value());  // beyond the search
   // A file searched alone keeps its name; the run takes another.
   CHECK(s.name(RunId{1}) != "run:1");
-  CHECK_FALSE(s.run_of("run:1").has_value());
-  CHECK_FALSE(s.run_of("/air/broken.wav").has_value());
-  // Names it did not give are no runs (a parser would read "run:00" as run 0).
-  CHECK_FALSE(s.run_of("run:00").has_value());
-  CHECK_FALSE(s.run_of("run:7").has_value());
   // Its opener reads a run as its files in one stream, anything else through the base.
   test::MemoryFiles files;
   files.files["/air/a.wav"] = {Samples(60 * 8000, 0.1f), 8000};
@@ -61,6 +48,7 @@ TEST_CASE("a plan's streams are the files alone then the runs, read back by look
   CHECK(*run.value()->info().native_frames == 120 * 8000);
   CHECK(open("/air/a.wav", {}).ok());
   CHECK(open("run:1", {}).error().code == ErrorCode::not_found);
+  CHECK(open("run:00", {}).error().code == ErrorCode::not_found);  // no name it gave: a parser would read run 0
 }
 
 TEST_CASE("a broken recording named like a run is searched as itself, not as the run") {
@@ -84,14 +72,16 @@ TEST_CASE("a broken recording named like a run is searched as itself, not as the
   o.opener = [base = files.opener()](const std::string& path, ChannelChoice c) -> Result<SourcePtr> {
     auto s = base(path, c);
     if (!s || path != "run:0") return s;
-    return SourcePtr(std::make_unique<Unsized>(std::move(s.value())));
+    return SourcePtr(std::make_unique<test::Unsized>(std::move(s.value())));
   };
   auto r = run_locate_job({{"lib/m.wav"}, {"run:0", "b.wav"}}, o);
   REQUIRE(r.ok());
   REQUIRE(r.value().matches.size() == 2);
   CHECK(r.value().matches[0].recording == "run:0");
+  CHECK(r.value().matches[0].recording_id == RecordingId{0});
   CHECK(r.value().matches[0].offset_s == doctest::Approx(5.0).epsilon(1e-4));
   CHECK(r.value().matches[1].recording == "b.wav");
+  CHECK(r.value().matches[1].recording_id == RecordingId{1});
   CHECK(r.value().matches[1].offset_s == doctest::Approx(30.0).epsilon(1e-4));
   REQUIRE(r.value().recordings.size() == 2);
   CHECK(r.value().recordings[0].error.has_value());

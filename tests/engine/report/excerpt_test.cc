@@ -72,7 +72,7 @@ ReconcileResult one_airing(double run_offset_s, const std::string& slot) {
   r.placements.push_back(p);
   AiringRecord a;
   a.spot = "spot";
-  a.run = 0;
+  a.run = RunId{0};
   a.run_offset_s = run_offset_s;
   a.aired_s = 1000 + run_offset_s;
   a.length_s = 4;

@@ -47,3 +47,34 @@ TEST_CASE("CSV quotes fields with commas (RFC 4180)") {
   r.matches.push_back(match("spot-a", "air,1.flac", 1.5, 0.9, 1));
   CHECK(locate_to_csv(r) == "template,recording,offset_s,score,polarity,speed,tempo\r\nspot-a,\"air,1.flac\",1.500000,0.9000,1,1.000000,1.000000\r\n");
 }
+
+TEST_CASE("read back, a match belongs to its recording's place, also when a file is listed twice") {
+  LocateResult r;
+  r.analysis_rate_hz = 8000;
+  r.recordings.push_back({"a.wav", "wav", 60.0, 8000, 1, std::nullopt});
+  r.recordings.push_back({"a.wav", "wav", 60.0, 8000, 1, std::nullopt});
+  r.recordings.push_back({"a.wav.wav", "wav", 60.0, 8000, 1, std::nullopt});  // a name another's is the start of
+  r.recordings.push_back({"a.wav", "wav", 60.0, 8000, 1, std::nullopt});
+  // By recording, then offset and master (job.h); each copy holds the same airings.
+  const std::vector<std::pair<size_t, double>> at{{0, 5.0}, {0, 30.0}, {1, 5.0}, {1, 30.0}, {2, 7.0}, {3, 5.0}};
+  for (const auto& [rec, off] : at) {
+    Match m = match("spot-a", r.recordings[rec].path.c_str(), off, 0.9, 1);
+    m.recording_id = RecordingId{rec};
+    r.matches.push_back(m);
+  }
+  // Two masters at one offset of one copy stay in that copy.
+  Match b = match("spot-b", "a.wav", 30.0, 0.8, 1);
+  b.recording_id = RecordingId{3};
+  r.matches.push_back(b);
+  auto back = locate_from_json(locate_to_json(r));
+  REQUIRE(back.ok());
+  REQUIRE(back.value().matches.size() == r.matches.size());
+  for (size_t i = 0; i < r.matches.size(); ++i) {
+    CAPTURE(i);
+    CHECK(back.value().matches[i].recording_id == r.matches[i].recording_id);
+  }
+  // A match of no recording of its document: not a locate document.
+  auto j = locate_to_json(r);
+  j["matches"][0]["recording"] = "b.wav";
+  CHECK_FALSE(locate_from_json(j).ok());
+}

@@ -181,3 +181,28 @@ TEST_CASE("split at files: pieces tile the stream and a file's body is the same 
   // A stream read whole stays one segment.
   CHECK(split_at_files(Stream{"x.wav", {}, rate, 10}, margin).size() == 1);
 }
+
+TEST_CASE("merging gives each match the stream its task searched, whatever the streams are called") {
+  // A file listed twice is two streams of one name; a file alone may be
+  // called like a run. The task's place in the plan says which stream.
+  const std::vector<std::string> templates{"/lib/t1.wav"};
+  const std::vector<Stream> streams{whole("a.flac"), whole("run:0"), whole("a.flac")};
+  const auto tasks = plan_tasks("j", SegmentSpec{}, streams, templates, 45, PlanOptions{1, 3600});
+  REQUIRE(tasks.size() == 3);
+  const std::vector<nlohmann::json> results{doc("a.flac", "t1", {{9.0, 0.9}}), doc("run:0", "t1", {{4.0, 0.8}}),
+                                            doc("a.flac", "t1", {{3.0, 0.7}})};
+  auto m = merge_results(streams, templates, tasks, results);
+  REQUIRE(m);
+  const auto& ms = m.value().search.matches;
+  REQUIRE(ms.size() == 3);  // by stream, then offset
+  CHECK(ms[0].recording_id == RecordingId{0});
+  CHECK(ms[0].offset_s == 9.0);
+  CHECK(ms[1].recording_id == RecordingId{1});
+  CHECK(ms[2].recording_id == RecordingId{2});
+  CHECK(ms[2].offset_s == 3.0);
+  CHECK(ms[2].recording == "a.flac");
+  // A task reports its own stream only.
+  auto two = results;
+  two[0]["recordings"].push_back(two[0]["recordings"][0]);
+  CHECK(!merge_results(streams, templates, tasks, two));
+}

@@ -9,6 +9,7 @@
 
 #include "airings_query.h"
 #include "proof_report.h"
+#include "reconcile_record.h"
 #include "store_fixture.h"
 #include "store_schema.h"
 #include "test_util.h"
@@ -305,6 +306,36 @@ TEST_CASE("store: proof of performance counts placements per station, spot and d
   ProofQuery neither = q;
   neither.advertiser.clear();
   CHECK_FALSE(store->read([&](SqliteDb& db) { return build_proof(db, neither, ""); }).ok());
+}
+
+TEST_CASE("a detection is kept against the recording it aired in, when one path is given twice") {
+  // One file given for two hours (explicit starts): two recording rows of
+  // one path; the airing of the second hour is the second row's.
+  ReconcileResult r;
+  for (double start : {6 * 3600.0, 7 * 3600.0}) {
+    RecordingStatus s;
+    s.path = "/nonexistent/air/x.wav";
+    s.start_s = start;
+    s.duration_s = 3600;
+    r.recordings.push_back(s);
+  }
+  r.spots["m"] = SpotInfo{"/nonexistent/lib/m.wav", 12, {}};
+  for (size_t i : {1, 0}) {
+    AiringRecord a;
+    a.spot = "m";
+    a.recording = r.recordings[i].path;
+    a.recording_id = RecordingId{i};
+    a.offset_s = 5;
+    a.aired_s = *r.recordings[i].start_s + 5;
+    r.airings.push_back(a);
+  }
+  RecordContext context;
+  context.station = "kestrel-fm";
+  const JobRecord job = job_record(r, ReconcileOptions{}, context, nullptr);
+  REQUIRE(job.recordings.size() == 2);
+  REQUIRE(job.detections.size() == 2);
+  CHECK(job.detections[0].recording == 1);
+  CHECK(job.detections[1].recording == 0);
 }
 
 }  // namespace godwit

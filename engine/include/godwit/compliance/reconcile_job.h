@@ -28,9 +28,11 @@
 #include "godwit/search/job.h"
 #include "godwit/compliance/planned_log.h"
 #include "godwit/compliance/reconciler.h"
+#include "godwit/compliance/run_id.h"
 #include "godwit/compliance/search_streams.h"
 #include "godwit/compliance/timeline.h"
 #include "godwit/compliance/verifier.h"
+#include "godwit/search/recording_id.h"
 
 namespace godwit {
 
@@ -115,7 +117,10 @@ struct VersionScore {
 
 struct AiringRecord {
   std::string spot;       // detected version
-  std::string recording;  // file where the airing starts
+  // The recording where the airing starts: its place in the job
+  // (ReconcileResult::recordings; the identity) and its path (for reports).
+  RecordingId recording_id;
+  std::string recording;
   double offset_s = 0;    // within that file
   LocalSeconds aired_s = 0;
   double score = 0;
@@ -145,7 +150,7 @@ struct AiringRecord {
   // ITU-R BS.1770 integrated loudness (indicative): of the aired part of
   // the spot, and of the programme before it in the same run.
   std::optional<double> spot_lufs, programme_lufs;
-  size_t run = 0;
+  RunId run;  // the run it aired in (ReconcileResult::runs)
   double run_offset_s = 0;
   double length_s = 0;  // the master's length
 };
@@ -186,7 +191,7 @@ struct ReconcileResult {
   std::vector<size_t> unscheduled;      // indices into airings
   std::vector<LogProblem> log_problems;
   std::vector<TimelineIssue> timeline_issues;
-  std::vector<RecordingStatus> recordings;
+  std::vector<RecordingStatus> recordings;  // in job order: a RecordingId is a place here
   std::vector<std::vector<std::string>> families;  // sibling groups of 2 or more
   size_t rejected_weak = 0;  // detections the confirmation turned down (rejected.size())
   std::vector<RejectedDetection> rejected;  // by time
@@ -201,7 +206,7 @@ Result<ReconcileResult> run_reconcile(const ReconcileJob& job, const ReconcileOp
 
 struct ReconcilePlan {
   std::vector<RecordingStatus> recordings;  // in job order, errors included
-  Timeline timeline;
+  Timeline timeline;  // its files name their recording (TimelineFile::recording)
   SearchStreams streams;  // every run of the timeline, as the search names it
 };
 
@@ -247,7 +252,8 @@ std::vector<std::optional<DetectionEvidence>> gather_evidence(const std::vector<
 
 // Steps 3 to 7, from the search of the plan's runs: `search` as run_locate
 // returns it for the recordings plan.streams.names() (matches with offsets
-// in run time; a failed run's error, with its offset in the run).
+// in run time, their recording_id a place in that list; a failed run's
+// error, with its offset in the run).
 // `evidence`, one per match of `search` when given (gathered where the
 // search ran); else it is gathered here.
 Result<ReconcileResult> finish_reconcile(const ReconcileJob& job, ReconcilePlan plan, LocateResult search,

@@ -15,6 +15,7 @@
 #include <vector>
 
 #include "godwit/compliance/civil_time.h"
+#include "godwit/search/recording_id.h"
 
 namespace godwit {
 
@@ -24,6 +25,7 @@ struct TimelineFile {
   double duration_s = 0;
   double native_rate_hz = 0;
   double skip_s = 0;  // leading audio already covered by the previous file
+  RecordingId recording;  // which of the job's recordings it is (the path may repeat)
 };
 
 struct TimelineRun {

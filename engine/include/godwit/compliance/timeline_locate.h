@@ -42,7 +42,9 @@ struct TimelineLocateOptions {
 };
 
 // Recordings are reported in the job's order, each with its own format,
-// rate and length; matches by recording (job order), then offset.
+// rate and length; matches by recording (job order), then offset, each
+// with its place in the job (Match::recording_id): a file given twice is
+// two recordings.
 // run_locate_job = plan_locate + run_locate over the plan's streams (through
 // plan.streams.opener) + finish_locate; a distributed job searches the streams in
 // tasks and finishes the same way.
@@ -51,11 +53,12 @@ Result<LocateResult> run_locate_job(const LocateJob& job, const LocateOptions& o
 
 struct LocatePlan {
   ReconcilePlan plan;               // the recordings and their timeline
-  std::vector<std::string> alone;   // files searched on their own (not readable whole)
+  std::vector<SearchStreams::Alone> alone;  // files searched on their own (not readable whole)
   std::vector<std::string> streams; // what to search: plan.streams.names() (the files alone, then the runs)
 };
 LocatePlan plan_locate(const LocateJob& job, const LocateOptions& options, const TimelineLocateOptions& timeline_options);
-// `search`: the result of searching plan.streams in that order. `evidence`,
+// `search`: the result of searching plan.streams in that order (its
+// matches' recording_id a place in plan.streams.names()). `evidence`,
 // when given, holds gather_evidence's answer for each of its matches in
 // order (a task gathers it beside the audio); otherwise it is gathered here.
 Result<LocateResult> finish_locate(const LocatePlan& plan, LocateResult search, const LocateOptions& options,

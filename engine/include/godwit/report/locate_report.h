@@ -22,8 +22,12 @@ namespace godwit {
 
 nlohmann::json error_to_json(const Error& e, bool exact = false);
 nlohmann::json locate_to_json(const LocateResult& r, bool exact = false);
-// The result a locate document describes (what locate_to_json wrote).
-// Errors: `internal` for a document that is not one.
+// The result a locate document describes (what locate_to_json wrote). The
+// document names a match's recording by path; its place (recording_id) is
+// rebuilt from the order matches are listed in (by recording, then offset
+// and master), so a file listed twice keeps its matches apart. Errors:
+// `internal` for a document that is not one (a match naming no recording
+// of the document included).
 Result<LocateResult> locate_from_json(const nlohmann::json& j);
 Error error_from_json(const nlohmann::json& j);
 // Header: template,recording,offset_s,score,polarity (RFC 4180 quoting).

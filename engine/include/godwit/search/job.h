@@ -23,6 +23,7 @@
 #include "godwit/search/correlator.h"
 #include "godwit/core/error.h"
 #include "godwit/search/peak_picker.h"
+#include "godwit/search/recording_id.h"
 #include "godwit/search/screen_options.h"
 #include "godwit/speed/speed_search.h"
 #include "godwit/search/template_bank.h"
@@ -65,7 +66,10 @@ struct LocateOptions {
 
 struct Match {
   std::string template_id;
-  std::string recording;  // path as given
+  // Which recording of the job: the identity (recording_id.h). `recording`
+  // is its path as given, for reports and for people.
+  RecordingId recording_id;
+  std::string recording;
   double offset_s = 0;    // time of the master's first sample in the recording
   double score = 0;       // analysis-rate peak score, in [-1, 1]
   int polarity = 1;       // -1: aired polarity-inverted
@@ -119,7 +123,7 @@ struct TemplateReport {
 struct LocateResult {
   double analysis_rate_hz = 0;
   std::vector<TemplateReport> templates;
-  std::vector<RecordingReport> recordings;
+  std::vector<RecordingReport> recordings;  // one per recording of the job, in its order
   std::vector<Match> matches;  // by recording (job order), then offset
   size_t unconfirmed = 0;      // detections that failed the confirmation (timeline_locate.h)
   // The screened search's work (screen_options.h), over all recordings:
