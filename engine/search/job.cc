@@ -81,18 +81,18 @@ Result<Banks> load_bank(const LocateJob& job, const LocateOptions& o, std::vecto
   bool screening = o.screen.enabled;
   if (screening) {
     // The exact search scores short spans around the screen's candidates:
-    // one FFT size that holds such a span (screen_pass.h).
-    size_t longest = 0;
-    for (const auto& in : inputs) longest = std::max(longest, in.samples.size());
-    bopt.fixed_fft_size = detail::exact_fft_size_for(longest, o.picker);
-    const size_t bytes = inputs.size() * spectrum_bytes(bopt.fixed_fft_size);
+    // each master at the FFT size that holds such a span (screen_pass.h).
+    bopt.span_samples = detail::exact_span_samples(o.picker);
+    bopt.fixed_fft_size = 0;
+    size_t bytes = 0;
+    for (const auto& in : inputs) bytes += spectrum_bytes(detail::exact_fft_size_for(in.samples.size(), o.picker));
     if (bytes > bopt.spectra_budget_bytes) {
-      // Spans of long masters for a large library: the full search's sizes
-      // fit the budget where one span size for all does not.
+      // A large library of long masters: the full search's sizes, chosen
+      // under the budget, fit where the spans' do not.
       if (o.on_diagnostic)
         o.on_diagnostic("screening off: its spectra would need " + std::to_string(bytes >> 20) +
                         " MiB, over the budget of " + std::to_string(bopt.spectra_budget_bytes >> 20) + " MiB");
-      bopt.fixed_fft_size = o.bank.fixed_fft_size;
+      bopt = o.bank;
       screening = false;
     }
   }

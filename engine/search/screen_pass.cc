@@ -27,7 +27,10 @@ struct Span {
   std::vector<size_t> masters;  // sorted, unique
 };
 
+// One span's samples transformed at one FFT size (that of a group of the
+// exact bank).
 struct SpanBlock {
+  size_t span = 0, group = 0;
   RealBuffer block;
   ComplexBuffer spectrum;
   WindowEnergy energy;
@@ -42,9 +45,13 @@ struct Scratch {
 
 }  // namespace
 
-size_t exact_fft_size_for(size_t longest_samples, const PickerOptions& picker) {
+size_t exact_span_samples(const PickerOptions& picker) {
   const size_t seg = std::max<size_t>(1, picker.segment_samples);
-  const size_t need = longest_samples + (2 * picker.span_segments + kMaxCoreSegments + 1) * seg;
+  return (2 * picker.span_segments + kMaxCoreSegments + 1) * seg;
+}
+
+size_t exact_fft_size_for(size_t len_samples, const PickerOptions& picker) {
+  const size_t need = len_samples + exact_span_samples(picker);
   size_t l = 1;
   while (l < need) l <<= 1;
   return l;
@@ -74,8 +81,7 @@ struct ScreenPass::Impl {
 
   ThreadPool pool;
   FftPlans plans;
-  size_t L;
-  const FftPlan* plan;
+  std::vector<const FftPlan*> group_plans;  // per group of the exact bank
   std::vector<Scratch> scratch;
 
   Impl(std::shared_ptr<const TemplateBank> e, std::shared_ptr<const TemplateBank> s, double analysis_rate_hz,
@@ -100,10 +106,13 @@ struct ScreenPass::Impl {
     screen_picker.segment_samples = std::max<size_t>(16, static_cast<size_t>(std::lround(static_cast<double>(seg) / ratio)));
     screen_radius = static_cast<int64_t>(screen_picker.segment_samples);
     for (const auto& t : exact->templates()) longest = std::max(longest, t.len_samples);
-    L = exact->at(0).fft_size;
-    plan = &plans.get(L);
+    size_t largest = 0;
+    for (const auto& g : exact->groups()) {
+      group_plans.push_back(&plans.get(g.fft_size));  // planned here, not on the workers
+      largest = std::max(largest, g.fft_size);
+    }
     for (size_t w = 0; w < pool.workers(); ++w)
-      scratch.push_back({alloc_complex(L / 2 + 1), alloc_real(L)});
+      scratch.push_back({alloc_complex(largest / 2 + 1), alloc_real(largest)});
     sink = [this](size_t t, int64_t first, const float* v, size_t n) {
       screen_pickers[t].feed(first, v, n);
       screen_fed[t] = first + static_cast<int64_t>(n);
@@ -181,34 +190,52 @@ struct ScreenPass::Impl {
 
   void score_spans(const std::vector<Span>& spans, bool final) {
     WallTimer timed(stats.spans_s);
-    std::vector<SpanBlock> blocks(spans.size());
-    pool.run(spans.size(), [&](size_t i, size_t) {
-      SpanBlock& b = blocks[i];
+    // A block per (span, FFT size of its masters), then a product and an
+    // inverse transform per (span, master).
+    std::vector<SpanBlock> blocks;
+    std::vector<std::pair<size_t, size_t>> jobs;  // (block, master)
+    for (size_t i = 0; i < spans.size(); ++i) {
+      const size_t first_block = blocks.size();
+      for (size_t t : spans[i].masters) {
+        const size_t g = exact->at(t).group;
+        size_t k = first_block;
+        while (k < blocks.size() && blocks[k].group != g) ++k;
+        if (k == blocks.size()) {
+          blocks.emplace_back();
+          blocks.back().span = i;
+          blocks.back().group = g;
+        }
+        jobs.emplace_back(k, t);
+      }
+    }
+    pool.run(blocks.size(), [&](size_t k, size_t) {
+      SpanBlock& b = blocks[k];
+      const size_t L = exact->groups()[b.group].fft_size;
       // Never earlier than what is kept (trim() keeps what open spans need).
-      b.first = std::max(span_first(spans[i]), hist_start);
+      b.first = std::max(span_first(spans[b.span]), hist_start);
       b.block = alloc_real(L);
       b.spectrum = alloc_complex(L / 2 + 1);
       const auto n_real = static_cast<size_t>(std::clamp<int64_t>(pushed - b.first, 0, static_cast<int64_t>(L)));
       std::copy_n(hist.data() + (b.first - hist_start), n_real, b.block.get());
       b.block_energy = b.energy.assign(b.block.get(), n_real, L);
-      fftwf_execute_dft_r2c(plan->forward, b.block.get(), as_fftw(b.spectrum.get()));
+      fftwf_execute_dft_r2c(group_plans[b.group]->forward, b.block.get(), as_fftw(b.spectrum.get()));
     });
-    std::vector<std::pair<size_t, size_t>> jobs;  // (span, master)
-    for (size_t i = 0; i < spans.size(); ++i)
-      for (size_t t : spans[i].masters) jobs.emplace_back(i, t);
     std::vector<std::vector<Candidate>> kept(jobs.size());
     const double floor2 = copt.floor_rms * copt.floor_rms;
-    const float inv_l = 1.0f / static_cast<float>(L);
     pool.run(jobs.size(), [&](size_t j, size_t worker) {
-      const auto [i, t] = jobs[j];
-      const SpanBlock& b = blocks[i];
+      const auto [bi, t] = jobs[j];
+      const SpanBlock& b = blocks[bi];
+      const size_t i = b.span;
+      const auto& group = exact->groups()[b.group];
+      const size_t L = group.fft_size;
+      const float inv_l = 1.0f / static_cast<float>(L);
       const size_t m = exact->at(t).len_samples;
-      int64_t n_out = std::min<int64_t>(span_end(spans[i]), static_cast<int64_t>(L - longest + 1) + b.first) - b.first;
+      int64_t n_out = std::min<int64_t>(span_end(spans[i]), static_cast<int64_t>(L - group.max_len_samples + 1) + b.first) - b.first;
       if (final) n_out = std::min<int64_t>(n_out, pushed - static_cast<int64_t>(m) - b.first + 1);
       if (n_out <= 0) return;
       Scratch& ws = scratch[worker];
       multiply_spectra(b.spectrum.get(), exact->conj_spectrum(t), ws.product.get(), L / 2 + 1);
-      fftwf_execute_dft_c2r(plan->inverse, as_fftw(ws.product.get()), ws.output.get());
+      fftwf_execute_dft_c2r(group_plans[b.group]->inverse, as_fftw(ws.product.get()), ws.output.get());
       const double e_min = std::max(floor2 * static_cast<double>(m),
                                     copt.rounding_guard * copt.rounding_guard * b.block_energy);
       float* r = ws.output.get();

@@ -33,9 +33,9 @@ struct ScreenStats {
 
 class ScreenPass {
  public:
-  // REQUIRES: `exact` built with one fixed FFT size of at least
-  // exact_fft_size_for(its longest template, picker); `screen` holds the
-  // same masters in the same order at options.rate_hz.
+  // REQUIRES: each template of `exact` at an FFT size of at least
+  // exact_fft_size_for(its length, picker); `screen` holds the same masters
+  // in the same order at options.rate_hz.
   ScreenPass(std::shared_ptr<const TemplateBank> exact, std::shared_ptr<const TemplateBank> screen,
              double analysis_rate_hz, const ScreenOptions& options, const PickerOptions& picker,
              const CorrelatorOptions& correlator);
@@ -56,8 +56,10 @@ class ScreenPass {
   std::unique_ptr<Impl> impl_;
 };
 
-// The exact bank's FFT size for a screened search: one block holds a span
-// of a few segments plus the picker's spans on each side.
-size_t exact_fft_size_for(size_t longest_samples, const PickerOptions& picker);
+// A master's FFT size in the exact bank of a screened search: one block
+// holds a span of a few segments plus the picker's spans on each side.
+size_t exact_fft_size_for(size_t len_samples, const PickerOptions& picker);
+// The samples a span adds to a master's length (BankOptions::span_samples).
+size_t exact_span_samples(const PickerOptions& picker);
 
 }  // namespace godwit::detail

@@ -69,6 +69,12 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
                        " samples)",
                    "", std::nullopt};
     sizes.assign(lens.size(), options.fixed_fft_size);
+  } else if (options.span_samples) {
+    for (size_t m : lens) {
+      size_t l = 1;
+      while (l < m + options.span_samples) l <<= 1;
+      sizes.push_back(l);
+    }
   } else {
     FftCostTable local;
     FftCostTable& table = options.costs ? *options.costs : local;

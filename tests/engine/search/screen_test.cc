@@ -39,7 +39,8 @@ struct Day {
 
 Day make_day() {
   Day d;
-  const std::vector<double> lengths_s{6, 8, 10, 12, 15};
+  // Masters of two FFT sizes in the exact bank (2^18 and 2^19 points at 8 kHz).
+  const std::vector<double> lengths_s{6, 8, 10, 12, 15, 30};
   std::vector<Samples> masters;
   for (size_t i = 0; i < lengths_s.size(); ++i) {
     masters.push_back(synth::spot(lengths_s[i], kRate, 40 + i));
@@ -60,7 +61,7 @@ Day make_day() {
   inverted.eq = {{synth::EqStage::lowpass, 4000, 0.707, 0}};
   d.airings = {{0, 20, chain(20)},       {1, 70, telephone}, {2, 150, cut},
                {3, 250, inverted},       {4, -4, chain(10)}, {0, kLength_s - 3, chain(10)},
-               {2, 330.5, telephone}};
+               {2, 330.5, telephone}, {5, 380, cut}};
   Samples x = synth::programme(kLength_s, kRate, 7);
   uint64_t seed = 100;
   for (const auto& a : d.airings) {

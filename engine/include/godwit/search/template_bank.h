@@ -38,6 +38,10 @@ struct BankOptions {
   Planner planner = Planner::estimate;
   // Measured FFT costs; missing sizes are measured and added.
   FftCostTable* costs = nullptr;
+  // When > 0 (and no fixed size): each template's FFT size is the
+  // smallest power of two holding its length plus this many samples (the
+  // screened search's spans, screen_pass.h).
+  size_t span_samples = 0;
 };
 
 struct PreparedTemplate {
