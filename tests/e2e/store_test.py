@@ -377,6 +377,7 @@ class DaemonLocateThenReconcile(unittest.TestCase):
                 log.close()
             # The hour alone is three pieces (its start, body and end: stored_tasks.h), each searched once for
             # every master by the locate job and read back by the reconcile job.
+            self.assertIn("searches", located)  # it went through the store
             self.assertEqual((located["searches"]["searched"], located["searches"]["reused"]), (3 * masters, 0),
                              located["searches"])
             self.assertEqual((reconciled["searches"]["searched"], reconciled["searches"]["reused"]), (0, 3 * masters),
