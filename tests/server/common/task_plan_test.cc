@@ -218,4 +218,3 @@ TEST_CASE("split at files: pieces tile the stream and a file's body is the same 
   // A stream read whole stays one segment.
   CHECK(split_at_files(Stream{"x.wav", {}, rate, 10}, margin).size() == 1);
 }
-
