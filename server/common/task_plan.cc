@@ -43,7 +43,7 @@ double segment_margin_s(const std::vector<std::string>& templates, double max_sp
   return longest_s / (1 - std::min(max_speed_change_pct, 50.0) / 100) + 12;
 }
 
-std::vector<Segment> split_at_files(const Stream& stream, double margin_s) {
+std::vector<Segment> split_at_files(const Stream& stream, double margin_s, double span_s) {
   if (stream.parts.empty() || !(stream.rate_hz > 0)) return {Segment{stream}};
   constexpr double kInf = std::numeric_limits<double>::infinity();
   // Where each file ends, in stream seconds (as window_parts counts frames).
@@ -88,9 +88,18 @@ std::vector<Segment> split_at_files(const Stream& stream, double margin_s) {
     s.read_to_s = std::isfinite(to_s) && to_s + m < total_s ? to_s + m : kInf;
     out.push_back(std::move(s));
   };
+  // A file's body, in spans of span_s from its start when it is long.
+  auto add_body = [&](double from_s, double to_s) {
+    const double len_s = to_s - from_s;
+    if (!(span_s > 0) || !std::isfinite(span_s) || len_s <= 1.5 * span_s) return add(from_s, to_s);
+    size_t pieces = static_cast<size_t>(std::ceil(len_s / span_s));
+    if (pieces > 1 && len_s - static_cast<double>(pieces - 1) * span_s < 0.25 * span_s) --pieces;
+    for (size_t k = 0; k < pieces; ++k)
+      add(from_s + static_cast<double>(k) * span_s, k + 1 == pieces ? to_s : from_s + static_cast<double>(k + 1) * span_s);
+  };
   for (size_t k = 0; k < merged.size(); ++k) {
     add(merged[k].first, merged[k].second);
-    if (k + 1 < merged.size()) add(merged[k].second, merged[k + 1].first);  // a file's body
+    if (k + 1 < merged.size()) add_body(merged[k].second, merged[k + 1].first);
   }
   return out;
 }
@@ -102,7 +111,7 @@ std::vector<PlannedTask> plan_tasks(const std::string& job_id, const SegmentSpec
   const size_t batch = std::max<size_t>(1, options.templates_per_task);
   for (size_t s = 0; s < streams.size(); ++s) {
     const auto segments =
-        options.at_files ? split_at_files(streams[s], margin_s) : split_stream(streams[s], options.span_s, margin_s);
+        options.at_files ? split_at_files(streams[s], margin_s, options.span_s) : split_stream(streams[s], options.span_s, margin_s);
     for (const Segment& seg : segments) {
       for (size_t first = 0; first < templates.size(); first += batch) {
         SegmentSpec task = base;

@@ -18,6 +18,7 @@
 // Thread contract: plain functions.
 #pragma once
 
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
@@ -38,9 +39,10 @@ struct PlannedTask {
 struct PlanOptions {
   size_t templates_per_task = 25;
   double span_s = 3600;  // a stream over 1.5 spans is split into spans. Default: an hour
-  // Instead of spans: a run of files splits at its files (split_at_files),
-  // so that a file's search is the same task whatever run it is part of,
-  // and can be kept and reused (stored_tasks.h).
+  // Instead of spans of the stream: a run of files splits at its files
+  // (split_at_files; a long file's body still in spans of span_s), so that
+  // a file's search is the same task whatever run it is part of, and can
+  // be kept and reused (stored_tasks.h).
   bool at_files = false;
 };
 
@@ -59,9 +61,13 @@ double segment_margin_s(const std::vector<std::string>& templates, double max_sp
 // `margin_s` after it (the longest airing), within the stream, so an airing
 // across two files is owned by the piece around their meeting point and
 // found once. Pieces that would overlap (short files) merge. A stream
-// without parts is one segment.
+// without parts is one segment. A body over 1.5 `span_s` splits into
+// pieces owning `span_s` each from the body's start (a last one under a
+// quarter span joins the one before), read as the others are: a long file
+// is shared among workers, and its pieces are the same in every run.
 constexpr double kPieceLeadS = 12;
-std::vector<Segment> split_at_files(const Stream& stream, double margin_s);
+std::vector<Segment> split_at_files(const Stream& stream, double margin_s,
+                                    double span_s = std::numeric_limits<double>::infinity());
 
 // `base`: what every task carries (its search fields, whether it gathers
 // evidence); its segment and templates are set per task. `margin_s`: as

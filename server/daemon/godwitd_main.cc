@@ -298,14 +298,22 @@ int main(int argc, char** argv) {
     std::cerr << "godwitd: cannot listen on " << cfg.listen << ": " << e.what() << "\n";
     return exit_status(ExitCode::io);
   }
-  // With the store of record (and no queue), reconcile jobs and the drop
-  // folder's hours and days search each piece of a recording once
-  // (stored_tasks.h); locate jobs from clients run whole, as before.
-  JobExecutor drop_executor = executor;
-  if (record_r && !distributed) {
-    executor = stored_executor(*record_r.value(), runner, true);
-    drop_executor = stored_executor(*record_r.value(), runner);
+  // With the store of record, every locate and reconcile job (a client's,
+  // the drop folder's hours and days) searches each piece of a recording
+  // once (stored_tasks.h). In queue mode this daemon, the one the job
+  // belongs to, reads the store before it enqueues the pieces not kept and
+  // keeps what the workers found; the workers only search (they open no
+  // store, and may have none).
+  if (record_r) {
+    PlanOptions plan;  // here: 25 masters per task, a long file's body in hours
+    TaskRunnerMaker searcher;
+    if (distributed) {
+      plan = PlanOptions{cfg.queue_templates_per_task, cfg.queue_task_span_s};
+      searcher = [d = distributed.get()] { return d->task_runner(); };
+    }
+    executor = stored_executor(*record_r.value(), runner, plan, searcher, executor);
   }
+  const JobExecutor& drop_executor = executor;
   WorkerPool pool(store, runner, cfg.workers, executor);
   std::vector<std::unique_ptr<DropFolder>> droppers;
   for (const auto& st : stations) {

@@ -44,6 +44,8 @@ Result<nlohmann::json> DistributedJobs::run(const std::string& job_id, const nlo
   return run_planned(runner_, tasks, plan_, job_id, spec, progress, should_stop, warn, report);
 }
 
+std::unique_ptr<TaskRunner> DistributedJobs::task_runner() const { return std::make_unique<QueueTasks>(*this); }
+
 void DistributedJobs::forget(const std::string& job_id, const std::vector<PlannedTask>& tasks) const {
   // Best effort, once the job's result exists: leftovers expire with nothing.
   (void)TaskQueue(url_, default_consumer_name() + "/submit", options_).forget(job_id, tasks);

@@ -14,6 +14,7 @@
 #pragma once
 
 #include <functional>
+#include <memory>
 #include <nlohmann/json.hpp>
 #include <string>
 
@@ -42,6 +43,10 @@ class DistributedJobs {
                                                 const std::function<void(std::string_view)>& warn) const;
   // What the queue keeps of a finished job's tasks, dropped (best effort).
   void forget(const std::string& job_id, const std::vector<PlannedTask>& tasks) const;
+  // The queue as a TaskRunner (run_tasks, and forget once the job is
+  // done), for a job planned elsewhere (record_ops.h's stored executor).
+  // It must not outlive this.
+  std::unique_ptr<TaskRunner> task_runner() const;
 
  private:
   QueueUrl url_;

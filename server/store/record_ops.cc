@@ -19,9 +19,12 @@ void attach_record_unavailable(const Error& why, Dispatcher& dispatcher) {
     });
 }
 
-JobExecutor stored_executor(RecordStore& store, const JobRunner& runner, bool reconcile_only, JobExecutor otherwise) {
+JobExecutor stored_executor(RecordStore& store, const JobRunner& runner, PlanOptions plan, TaskRunnerMaker searcher,
+                            JobExecutor otherwise) {
   if (!otherwise) otherwise = local_executor(runner);
-  return [&store, &runner, reconcile_only, otherwise](
+  if (!searcher) searcher = [&runner] { return std::make_unique<LocalTaskRunner>(runner); };
+  plan.at_files = true;
+  return [&store, &runner, plan, searcher, otherwise](
              const std::string& id, const nlohmann::json& spec, const std::function<void(double)>& progress,
              const std::function<bool()>& should_stop, const std::function<void(std::string_view)>& warn,
              const ReportFiles* report) -> Result<nlohmann::json> {
@@ -29,12 +32,10 @@ JobExecutor stored_executor(RecordStore& store, const JobRunner& runner, bool re
     if (!typed) return typed.error();
     const auto* rs = std::get_if<ReconcileSpec>(&typed.value());
     const auto* ls = std::get_if<LocateSpec>(&typed.value());
-    if (!rs && (!ls || reconcile_only)) return otherwise(id, spec, progress, should_stop, warn, report);
+    if (!rs && !ls) return otherwise(id, spec, progress, should_stop, warn, report);
     const SearchFields& fields = rs ? rs->search : ls->search;
-    LocalTaskRunner here(runner);
-    StoredTaskRunner kept(store, here, search_fingerprint(runner.locate_options(fields, warn)));
-    PlanOptions plan;
-    plan.at_files = true;
+    std::unique_ptr<TaskRunner> inner = searcher();
+    StoredTaskRunner kept(store, *inner, search_fingerprint(runner.locate_options(fields, warn)));
     return run_planned(runner, kept, plan, id, spec, progress, should_stop, warn, report);
   };
 }

@@ -16,7 +16,7 @@ noise, 30 s each) make the library larger.
 With --excerpts the drop folder also writes the day's excerpts to listen to each hour (godwitd's default).
 
 Run: tests/bench/reuse_bench.py --godwit build/server/godwit --godwitd build/server/godwitd \\
-       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop] [--excerpts]
+       --synth build/tools/godwit-synth [--hours 24] [--extra-masters 0] [--work DIR] [--skip-drop] [--excerpts]\n       [--fill-threads N]
 """
 import argparse
 import csv
@@ -144,6 +144,8 @@ def main():
     ap.add_argument("--skip-drop", action="store_true", help="only the re-reconcile (its store made by a reconcile)")
     ap.add_argument("--excerpts", action="store_true",
                     help="the drop folder writes the day's excerpts to listen to (godwitd's default; off otherwise)")
+    ap.add_argument("--fill-threads", type=int, default=1,
+                    help="with --skip-drop: engine threads of the first reconcile that fills the store (not measured)")
     a = ap.parse_args()
     work = a.work or tempfile.mkdtemp(prefix="reuse-bench-")
     os.makedirs(work, exist_ok=True)
@@ -162,9 +164,10 @@ def main():
         state = os.path.join(work, "state-cli")
         shutil.rmtree(state, ignore_errors=True)
         recs = files
+        fill = COMMON[:-1] + [str(a.fill_threads)]
         wall, cpu, p = timed([a.godwit, "reconcile", "-l", lib, "-s", log, "-r", *recs, "-o",
                               os.path.join(work, "first"), "--format", "json", "--no-excerpts", "--state-dir", state,
-                              *COMMON])
+                              *fill])
         print(f"first reconcile of the day into the store: {cpu:.1f} s CPU ({wall:.1f} s wall)", flush=True)
     edited = os.path.join(work, "edited", "bench-fm-2026-05-20.csv")
     os.makedirs(os.path.dirname(edited), exist_ok=True)

@@ -160,7 +160,9 @@ class QueueTests(unittest.TestCase):
     def test_three_workers_share_a_job_and_the_merge_equals_one_process(self):
         ds = [self.start(n) for n in "abc"]
         c = ds[0].connect()
-        recs = self.untimed_copies(2)  # 6 recordings x 3 batches of 2 masters = 18 tasks
+        # 6 recordings, each its own run split at its file into 3 pieces (its start, body and end: the pieces
+        # the store of record keeps, stored_tasks.h), x 3 batches of 2 masters = 54 tasks.
+        recs = self.untimed_copies(2)
         r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": recs}})
         self.assertTrue(r["ok"], r)
         seen_progress = set()
@@ -173,7 +175,7 @@ class QueueTests(unittest.TestCase):
             time.sleep(0.1)
         self.assertEqual(st["state"], "done", st)
         doc = c.req({"op": "result", "job": r["job"]})["result"]
-        self.assertEqual(doc["tasks"], 18)
+        self.assertEqual(doc["tasks"], 54)
         self.assertTrue(doc["complete"])
         self.assertEqual(strip(doc), strip(self.cli_locate(recs)))
         self.assertEqual(len(doc["templates"]), 6)
@@ -184,7 +186,7 @@ class QueueTests(unittest.TestCase):
         self.assertTrue(cl["ok"], cl)
         done = {w["name"]: w["done"] for w in cl["workers"]}
         self.assertEqual(len(done), 3, cl)
-        self.assertEqual(sum(done.values()), 18, cl)
+        self.assertEqual(sum(done.values()), 54, cl)
         self.assertGreaterEqual(len([n for n in done.values() if n > 0]), 2, cl)
         self.assertEqual(cl["dead"], 0)
         h = c.req({"op": "health"})
@@ -195,7 +197,7 @@ class QueueTests(unittest.TestCase):
         a = self.start("a")
         b = self.start("b")
         c = a.connect()
-        recs = self.untimed_copies(4)  # 12 recordings, 36 tasks
+        recs = self.untimed_copies(4)  # 12 recordings x 3 pieces x 3 batches: 108 tasks
         r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": recs}})
         # Kill b while it runs a task.
         end = time.time() + 120
@@ -210,7 +212,7 @@ class QueueTests(unittest.TestCase):
         st = wait_state(c, r["job"], timeout=300)
         self.assertEqual(st["state"], "done", st)
         doc = c.req({"op": "result", "job": r["job"]})["result"]
-        self.assertEqual(doc["tasks"], 36)
+        self.assertEqual(doc["tasks"], 108)
         # Each task's matches once: the same multiset as one process gives
         # (the job holds four copies of each file, so each match is there four times).
         self.assertEqual(strip(doc), strip(self.cli_locate(recs)))
@@ -244,26 +246,28 @@ class QueueTests(unittest.TestCase):
             time.sleep(0.2)
         with open(out) as f:
             doc = json.load(f)
-        self.assertEqual(doc["tasks"], 3)  # 6 masters in batches of 2: it went through the queue
+        self.assertEqual(doc["tasks"], 9)  # 3 pieces x 6 masters in batches of 2: it went through the queue
         want = self.cli_locate([os.path.join(drop, "done", "h0600.flac")])
         self.assertEqual(strip(doc), strip(want))
         self.assertTrue(a.connect().req({"op": "health"})["queue"]["reachable"])
 
     def test_a_long_recording_is_split_into_spans_and_the_merge_equals_one_process(self):
-        # The three demo files as one 840 s recording, in spans of 150 s
-        # (boundaries at 150, 300, 450, 600, 750 s): an airing at 150.1 s just
-        # after one (its span reads from before it), one at 292-312 s astride
-        # the next (the span that owns it reads past its end).
+        # The three demo files as one 840 s recording: its start (12 s), its
+        # end (the last margin) and its body between them in spans of 140 s
+        # from 12 s (boundaries at 152, 292, 432, 572, 712 s; task_plan.h):
+        # an airing at 292-312 s just after one (its piece reads from before
+        # it), one at 150.1 s astride another (the piece that owns it reads
+        # past its end).
         longrec = os.path.join(self.tmp, "root", "kestrel-fm-long.flac")
         subprocess.run(["sox", *self.recs, longrec], check=True)
-        ds = [self.start(n, span_s=150) for n in "abc"]
+        ds = [self.start(n, span_s=140) for n in "abc"]
         c = ds[0].connect()
         r = c.req({"op": "submit", "job": {"kind": "locate", "recordings": [longrec]}})
         self.assertTrue(r["ok"], r)
         st = wait_state(c, r["job"], timeout=300)
         self.assertEqual(st["state"], "done", st)
         doc = c.req({"op": "result", "job": r["job"]})["result"]
-        self.assertEqual(doc["tasks"], 6 * 3)  # 6 spans x 3 batches of 2 masters
+        self.assertEqual(doc["tasks"], 8 * 3)  # start, 6 spans, end x 3 batches of 2 masters
         want = self.cli_locate([longrec])
         self.assertEqual(strip(doc), strip(want))
         # Every planted airing (truth.json), once, at its time (and siblings' matches, as one process has them).
@@ -281,7 +285,8 @@ class QueueTests(unittest.TestCase):
         self.assertAlmostEqual(doc["recordings"][0]["duration_s"], 840, places=3)
 
     def test_a_reconcile_job_is_split_into_hour_tasks_and_its_day_rebuilt(self):
-        # One run of 840 s (three files) in spans of 240 s: 4 spans x 3 batches.
+        # One run of 840 s (three files of 280 s), split at its files: each file's body, where each meets the
+        # next, the run's start and end (7 pieces; a body under 1.5 spans of 240 s is whole) x 3 batches.
         ds = [self.start(n, span_s=240) for n in "ab"]
         c = ds[1].connect()
         r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": os.path.join(self.demo, "library"),
@@ -290,7 +295,7 @@ class QueueTests(unittest.TestCase):
         st = wait_state(c, r["job"], timeout=300)
         self.assertEqual(st["state"], "done", st)
         doc = c.req({"op": "result", "job": r["job"]})["result"]
-        self.assertEqual(doc["tasks"], 12)
+        self.assertEqual(doc["tasks"], 21)
         with open(os.path.join(self.demo, "truth.json")) as f:
             truth = json.load(f)
         self.assertEqual({p["slot"]: p["status"] for p in doc["placements"]}, truth["expected_verdicts"])
@@ -305,7 +310,30 @@ class QueueTests(unittest.TestCase):
         served = {f["name"] for f in c.req({"op": "files", "job": r["job"]})["files"]}
         self.assertLessEqual({f for f, _ in excerpts(doc)} | {"reconcile.html"}, served)
         cl = c.req({"op": "cluster"})
-        self.assertEqual(sum(w["done"] for w in cl["workers"]), 12, cl)
+        self.assertEqual(sum(w["done"] for w in cl["workers"]), 21, cl)
+        added = self.entries_added()
+        # The same day again, as another job: the coordinating daemon finds every (piece x master) search in its
+        # store of record and enqueues nothing; the same reconciliation.
+        r = c.req({"op": "submit", "job": {"kind": "reconcile", "library": os.path.join(self.demo, "library"),
+                                           "schedule": self.schedule, "recordings": self.recs}})
+        self.assertTrue(r["ok"], r)
+        st = wait_state(c, r["job"], timeout=300)
+        self.assertEqual(st["state"], "done", st)
+        again = c.req({"op": "result", "job": r["job"]})["result"]
+        self.assertEqual(self.entries_added(), added)
+        self.assertEqual(again["searches"]["searched"], 0, again["searches"])
+        self.assertEqual(again["searches"]["reused"], doc["searches"]["searched"], again["searches"])
+        self.assertEqual(doc["searches"]["searched"], 7 * 6)  # every piece for every master, the first time
+        self.assertEqual(again["searches"]["evidence_gathered"], 0, again["searches"])
+        self.assertEqual(sum(w["done"] for w in c.req({"op": "cluster"})["workers"]), 21)
+        self.assert_same_reconciliation(again, want)
+        self.assertEqual({k: v for k, v in again.items() if k != "searches"},
+                         {k: v for k, v in doc.items() if k != "searches"})
+
+    def entries_added(self):
+        """How many tasks were ever added to the queue's stream (XINFO STREAM, Redis 7)."""
+        info = self.redis.cli("XINFO", "STREAM", self.stream).split("\n")
+        return int(info[info.index("entries-added") + 1])
 
     def test_the_drop_folders_day_is_reconciled_through_the_queue(self):
         drop = os.path.join(self.tmp, "drop")
@@ -329,7 +357,7 @@ class QueueTests(unittest.TestCase):
             time.sleep(0.3)
         self.assertIsNotNone(doc)
         self.assertEqual(len(doc["recordings"]), 3, doc["recordings"])
-        self.assertEqual(doc["tasks"], 12)  # the day's run of 840 s went through the queue in 4 spans
+        self.assertEqual(doc["tasks"], 21)  # the day's run of 840 s went through the queue in 7 pieces
         done = sorted(os.path.join(drop, "done", os.path.basename(r)) for r in self.recs)
         want = self.cli_reconcile(done)
         self.assert_same_reconciliation(doc, want)
@@ -350,7 +378,7 @@ class QueueTests(unittest.TestCase):
         self.assertIn("failed 2 times", st["error"]["message"])
         dead = self.redis.cli("XRANGE", self.stream + ":dead", "-", "+")
         self.assertIn("broken-master", dead)
-        self.assertEqual(c.req({"op": "cluster"})["dead"], 1)
+        self.assertEqual(c.req({"op": "cluster"})["dead"], 3)  # each of the recording's 3 pieces reads the master
 
 
 if __name__ == "__main__":

@@ -324,6 +324,86 @@ class DaemonRecord(unittest.TestCase):
                 log.close()
 
 
+class DaemonLocateThenReconcile(unittest.TestCase):
+    """A client's locate job keeps its searches in the store: a reconcile of the same hour afterwards searches
+    nothing again, and both documents are what the command line gives without a store (godwit locate and
+    godwit reconcile in one process: the reference)."""
+
+    def test_a_locate_job_then_a_reconcile_of_its_file_search_it_once(self):
+        with tempfile.TemporaryDirectory() as t:
+            demo = os.path.join(t, "demo")
+            subprocess.run([ARGS.synth, "demo", "--out", demo], check=True, capture_output=True)
+            lib, log_csv = f"{demo}/library", f"{demo}/schedules/kestrel-fm-2026-03-14.csv"
+            masters = len([f for f in os.listdir(lib) if f.endswith(".wav")])
+            rec = sorted(os.path.join(demo, "airchecks", f) for f in os.listdir(os.path.join(demo, "airchecks")))[1]
+            state = os.path.join(t, "state")
+            config = os.path.join(t, "godwitd.toml")
+            with open(config, "w") as f:
+                f.write(f'listen = "127.0.0.1:0"\nstate_dir = "{state}"\nroots = ["{demo}"]\n'
+                        f'library = "{lib}"\nplanner = "estimate"\nworkers = 1\nthreads_per_job = 1\n'
+                        'excerpts = false\n')
+            log = open(os.path.join(t, "godwitd.log"), "w")
+            proc = subprocess.Popen([ARGS.godwitd, "--config", config], stdout=subprocess.PIPE, stderr=log, text=True)
+            try:
+                port = json.loads(proc.stdout.readline())["port"]
+                sock = socket.create_connection(("127.0.0.1", port), timeout=60)
+                fh = sock.makefile("rw")
+
+                def req(obj):
+                    fh.write(json.dumps(obj) + "\n")
+                    fh.flush()
+                    return json.loads(fh.readline())
+
+                def job(spec):
+                    r = req({"op": "submit", "job": spec})
+                    self.assertTrue(r["ok"], r)
+                    end = time.time() + 240
+                    while time.time() < end:
+                        st = req({"op": "status", "job": r["job"]})
+                        if st["state"] in ("done", "failed", "cancelled"):
+                            break
+                        time.sleep(0.2)
+                    self.assertEqual(st["state"], "done", st)
+                    return req({"op": "result", "job": r["job"]})["result"]
+
+                located = job({"kind": "locate", "recordings": [rec]})
+                reconciled = job({"kind": "reconcile", "library": lib, "schedule": log_csv, "recordings": [rec]})
+                fh.close()
+                sock.close()
+            finally:
+                proc.send_signal(signal.SIGTERM)
+                proc.wait(timeout=60)
+                proc.stdout.close()
+                log.close()
+            # The hour alone is three pieces (its start, body and end: stored_tasks.h), each searched once for
+            # every master by the locate job and read back by the reconcile job.
+            self.assertIn("searches", located)  # it went through the store
+            self.assertEqual((located["searches"]["searched"], located["searches"]["reused"]), (3 * masters, 0),
+                             located["searches"])
+            self.assertEqual((reconciled["searches"]["searched"], reconciled["searches"]["reused"]), (0, 3 * masters),
+                             reconciled["searches"])
+            # Its detections' evidence too, where the two jobs measure it alike.
+            self.assertEqual(reconciled["searches"]["evidence_gathered"], 0, reconciled["searches"])
+            # The same documents as one process without a store. The locate document's templates name the FFT
+            # size each search ran with (chosen per piece's length, not a result): left out.
+            want = json.loads(run("locate", "--library", lib, "--recording", rec, "--planner", "estimate",
+                                  "--cache-dir", "", "--quiet").stdout)
+
+            def plain(doc):
+                doc = {k: v for k, v in doc.items() if k not in ("tasks", "searches")}
+                if "templates" in doc:
+                    doc["templates"] = [{k: v for k, v in x.items() if k != "fft_size"} for x in doc["templates"]]
+                return doc
+            self.assertTrue(want["matches"])
+            self.assertEqual(plain(located), plain(want))
+            out = os.path.join(t, "cli-reconcile")
+            run("reconcile", "--library", lib, "--schedule", log_csv, "--recording", rec, "--out", out,
+                "--format", "json", *COMMON, "--quiet")
+            with open(os.path.join(out, "reconcile.json")) as f:
+                want = json.load(f)
+            self.assertEqual(plain(reconciled), want)
+
+
 class DropFolderRecord(unittest.TestCase):
     """The drop folder's day report, rebuilt as hours arrive, is recorded once per day, not once per hour."""
 

@@ -110,8 +110,14 @@ def temporaries(state, except_pid=None):
 
 
 def normalized(doc, kind):
-    """The CLI's and the daemon's documents differ only where an inline spot was saved."""
+    """The CLI's and the daemon's documents differ only where an inline spot was saved, and in how the daemon ran
+    the search: as tasks (`tasks`) whose searches its store of record keeps (`searches`), each piece with the FFT
+    size chosen for its length (stored_tasks.h; the matches and recordings are the same)."""
     doc = json.loads(json.dumps(doc))
+    doc.pop("tasks", None)
+    doc.pop("searches", None)
+    for t in doc.get("templates", []):
+        t.pop("fft_size", None)
     if kind == "inline":
         for t in doc.get("templates", []):
             t["path"] = os.path.basename(t["path"])
@@ -194,7 +200,9 @@ class Ledger:
             data = f.read()
         with self.lock:
             if kind != "inline":  # the inline spot's saved path is the job's own
-                expect(data == self.first_bytes.setdefault(kind, data), f"job {job}: result bytes differ")
+                # Byte for byte but the store's counts (a later job reads back what the first searched).
+                same = json.dumps(normalized(json.loads(data), kind), sort_keys=True).encode()
+                expect(same == self.first_bytes.setdefault(kind, same), f"job {job}: result bytes differ")
             self.verified[job] = data
 
     def watch(self, port):
@@ -474,8 +482,9 @@ class TortureTests(unittest.TestCase):
         state, config = self.daemon_on(mnt, max_finished_jobs=2)
         p, c = self.start(config)
         done = [c.req({"op": "submit", "job": KINDS["a"][0]})["job"] for _ in range(4)]
-        for j in done:
-            wait_state(c, j)
+        # One worker runs them in order; the later ones read the first one's searches back from the store of
+        # record and end within moments, so the first may be forgotten (max_finished_jobs) before it is polled.
+        wait_state(c, done[-1])
         # An inline spot cannot be saved: refused, nothing kept.
         filler = self.fill(mnt)
         r = c.req({"op": "submit", "job": KINDS["inline"][0]})

@@ -133,6 +133,43 @@ TEST_CASE("a detection reported by two neighbouring segments is kept once, with 
   CHECK(m.value().search.recordings[0].duration_s == 7500);  // the furthest decoded
 }
 
+// A long file's body in spans (the queue's task_span_s): the pieces still
+// tile the stream, each owns span_s but the last, and the file's pieces
+// are the same (relative to the file) alone and after another file.
+TEST_CASE("split at files: a long body splits into spans that are the same pieces in any run") {
+  const double rate = 8000, margin = 50, span = 1000;
+  auto file = [&](const char* path, double seconds) { return ConcatPart{path, static_cast<int64_t>(seconds * rate), 0, 0}; };
+  Stream alone{"run:0", {file("b.wav", 4000)}, rate, 4000};
+  Stream day{"run:0", {file("a.wav", 600), file("b.wav", 4000)}, rate, 4600};
+  const auto a = split_at_files(alone, margin, span);
+  // Its start, the body [12, 3950) in 4 pieces (1000 s each, the last 938 s: over a quarter span, so its own), its end.
+  REQUIRE(a.size() == 6);
+  CHECK(a[1].own_from_s == kPieceLeadS);
+  CHECK(a[1].own_to_s == kPieceLeadS + span);
+  CHECK(a[4].own_from_s == kPieceLeadS + 3 * span);
+  CHECK(a[4].own_to_s == 4000 - margin);
+  for (size_t i = 0; i + 1 < a.size(); ++i) CHECK(a[i].own_to_s == a[i + 1].own_from_s);
+  for (const auto& p : a)
+    if (std::isfinite(p.own_from_s)) CHECK(p.read_from_s <= p.own_from_s - kPieceLeadS);
+  const auto d = split_at_files(day, margin, span);
+  // a's start, a's body (538 s: whole), a|b, b's body in 4, b's end.
+  REQUIRE(d.size() == 8);
+  for (size_t k = 1; k <= 4; ++k) {
+    CAPTURE(k);
+    const Segment& x = a[k];
+    const Segment& y = d[k + 2];
+    CHECK(y.own_from_s - 600 == doctest::Approx(x.own_from_s));
+    CHECK(y.own_to_s - 600 == doctest::Approx(x.own_to_s));
+    CHECK(y.read_from_s - 600 == doctest::Approx(x.read_from_s));
+    if (std::isfinite(x.read_to_s)) CHECK(y.read_to_s - 600 == doctest::Approx(x.read_to_s));
+    else CHECK(std::isinf(y.read_to_s));
+  }
+  // A short last span joins the one before: a body of 2200 s is 1000 + 1200.
+  const auto s = split_at_files(Stream{"run:0", {file("c.wav", 2262)}, rate, 2262}, margin, span);
+  REQUIRE(s.size() == 4);
+  CHECK(s[2].own_to_s == 2262 - margin);
+}
+
 // Plans split at files (PlanOptions::at_files): the pieces tile the
 // stream, each file's body reads exactly that file wherever it sits in a
 // run, and the point where two files meet is owned by one piece reading
