@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# The engine benchmarks (not run in CI; about 25 minutes on 2 cores).
+# The engine benchmarks (not run in CI; about 30 minutes on 2 cores).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 scripts/install-deps.sh
@@ -10,6 +10,8 @@ $B false-alarms
 $B day --templates 100 --hours 24
 $B day --templates 100 --hours 24 --no-speed-search
 $B speed --hours 2
+$B screen --templates 20 --hours 2
+build/tests/bench/codec_day_bench --hours 1 --masters 100
 /usr/bin/python3 tests/bench/daemon_bench.py --godwit build/server/godwit --godwitd build/server/godwitd --synth build/tools/godwit-synth --hostile
 build/tests/bench/line_framer_bench
 build/tests/bench/store_bench
