@@ -49,9 +49,15 @@ struct MasterLibraryStats {
 
 class MasterLibrary {
  public:
-  // Default: 256 MiB, a day's library of 30 s masters at 48 kHz (about
-  // 45 masters) or 270 of them at 8 kHz.
-  static constexpr size_t kDefaultKeepBytes = size_t{256} << 20;
+  // Default: 64 MiB, about 11 masters of 30 s at 48 kHz or 65 at 8 kHz.
+  // Enough for the masters one stage works on at a time (the speed fits
+  // take theirs in batches, the confirmation and the evidence only the
+  // detected ones); a larger keep costs memory and saves nothing
+  // measurable: on the codec day (codec_day_bench, 1 h x 100 masters at
+  // 48 kHz), 256 MiB made `godwit locate` peak at 1 033 MiB and 64 MiB at
+  // 743 MiB, `godwit reconcile` 1 022 and 750 MiB, with the same CPU time
+  // and byte-identical results (docs/performance.md).
+  static constexpr size_t kDefaultKeepBytes = size_t{64} << 20;
 
   // `opener` opens the masters (always as the channel mean);
   // `analysis_rate_hz` is the rate kept beside the native one.
