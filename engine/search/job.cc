@@ -82,15 +82,18 @@ Result<Banks> load_bank(const LocateJob& job, const LocateOptions& o, std::vecto
   if (screening) {
     // The exact search scores short spans around the screen's candidates:
     // each master at the FFT size that holds such a span (screen_pass.h).
+    // The masters' spectra are made when a span is scored (few pairs),
+    // so the bank keeps only their samples.
     bopt.span_samples = detail::exact_span_samples(o.picker);
     bopt.fixed_fft_size = 0;
+    bopt.spectra_on_demand = true;
     size_t bytes = 0;
-    for (const auto& in : inputs) bytes += spectrum_bytes(detail::exact_fft_size_for(in.samples.size(), o.picker));
+    for (const auto& in : inputs) bytes += in.samples.size() * sizeof(float);
     if (bytes > bopt.spectra_budget_bytes) {
-      // A large library of long masters: the full search's sizes, chosen
-      // under the budget, fit where the spans' do not.
+      // A library too large even for that: the full search's sizes,
+      // chosen under the budget, fit where the samples do not.
       if (o.on_diagnostic)
-        o.on_diagnostic("screening off: its spectra would need " + std::to_string(bytes >> 20) +
+        o.on_diagnostic("screening off: its masters would need " + std::to_string(bytes >> 20) +
                         " MiB, over the budget of " + std::to_string(bopt.spectra_budget_bytes >> 20) + " MiB");
       bopt = o.bank;
       screening = false;

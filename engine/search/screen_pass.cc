@@ -234,7 +234,19 @@ struct ScreenPass::Impl {
       if (final) n_out = std::min<int64_t>(n_out, pushed - static_cast<int64_t>(m) - b.first + 1);
       if (n_out <= 0) return;
       Scratch& ws = scratch[worker];
-      multiply_spectra(b.spectrum.get(), exact->conj_spectrum(t), ws.product.get(), L / 2 + 1);
+      if (const std::complex<float>* tc = exact->conj_spectrum(t)) {
+        multiply_spectra(b.spectrum.get(), tc, ws.product.get(), L / 2 + 1);
+      } else {
+        // Spectra on demand (template_bank.h): the master's transform, as
+        // the bank would have kept it, made here for this pair.
+        const Samples& norm = exact->normalized(t);
+        std::copy(norm.begin(), norm.end(), ws.output.get());
+        std::fill(ws.output.get() + norm.size(), ws.output.get() + L, 0.0f);
+        fftwf_execute_dft_r2c(group_plans[b.group]->forward, ws.output.get(), as_fftw(ws.product.get()));
+        const std::complex<float>* a = b.spectrum.get();
+        std::complex<float>* p = ws.product.get();
+        for (size_t k = 0; k < L / 2 + 1; ++k) p[k] = a[k] * std::conj(p[k]);
+      }
       fftwf_execute_dft_c2r(group_plans[b.group]->inverse, as_fftw(ws.product.get()), ws.output.get());
       const double e_min = std::max(floor2 * static_cast<double>(m),
                                     copt.rounding_guard * copt.rounding_guard * b.block_energy);

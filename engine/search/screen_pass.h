@@ -34,7 +34,10 @@ struct ScreenStats {
 class ScreenPass {
  public:
   // REQUIRES: each template of `exact` at an FFT size of at least
-  // exact_fft_size_for(its length, picker); `screen` holds the same masters
+  // exact_fft_size_for(its length, picker), its spectrum kept or on demand
+  // (a master's transform is then made for each span it is scored over:
+  // the screened run_locate keeps only the masters' samples, a quarter to
+  // half the memory of their spectra); `screen` holds the same masters
   // in the same order at options.rate_hz.
   ScreenPass(std::shared_ptr<const TemplateBank> exact, std::shared_ptr<const TemplateBank> screen,
              double analysis_rate_hz, const ScreenOptions& options, const PickerOptions& picker,

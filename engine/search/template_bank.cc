@@ -9,14 +9,22 @@
 namespace godwit {
 
 struct TemplateBank::Spectra {
-  std::vector<detail::ComplexBuffer> conj;
+  std::vector<detail::ComplexBuffer> conj;  // empty on demand
+  std::vector<Samples> normalized;          // on demand only
 };
 
 TemplateBank::~TemplateBank() = default;
 
 const std::complex<float>* TemplateBank::conj_spectrum(size_t i) const {
-  return spectra_->conj[i].get();
+  return spectra_->conj.empty() ? nullptr : spectra_->conj[i].get();
 }
+
+const Samples& TemplateBank::normalized(size_t i) const {
+  static const Samples kNone;
+  return spectra_->normalized.empty() ? kNone : spectra_->normalized[i];
+}
+
+bool TemplateBank::spectra_on_demand() const { return !spectra_->normalized.empty(); }
 
 Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<TemplateInput> inputs,
                                                                 const BankOptions& options) {
@@ -87,10 +95,14 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     sizes = choose_fft_sizes(lens, table, options.max_fft_size, options.spectra_budget_bytes);
   }
   size_t total_bytes = 0;
-  for (size_t s : sizes) total_bytes += spectrum_bytes(s);
+  if (options.spectra_on_demand)
+    for (size_t m : lens) total_bytes += m * sizeof(float);
+  else
+    for (size_t s : sizes) total_bytes += spectrum_bytes(s);
   if (total_bytes > options.spectra_budget_bytes)
     return Error{ErrorCode::usage,
-                 "the templates' spectra need " + std::to_string(total_bytes >> 20) +
+                 std::string(options.spectra_on_demand ? "the templates' samples need " : "the templates' spectra need ") +
+                     std::to_string(total_bytes >> 20) +
                      " MiB, over the memory budget of " +
                      std::to_string(options.spectra_budget_bytes >> 20) +
                      " MiB; raise the budget or split the library",
@@ -114,6 +126,10 @@ Result<std::shared_ptr<const TemplateBank>> TemplateBank::build(std::vector<Temp
     g.max_len_samples = std::max(g.max_len_samples, t.len_samples);
   }
 
+  if (options.spectra_on_demand) {
+    bank->spectra_->normalized = std::move(normalized);
+    return std::shared_ptr<const TemplateBank>(std::move(bank));
+  }
   // Spectra: conj(FFT(zero-padded normalized template)).
   detail::FftPlans plans(options.planner);
   for (size_t i = 0; i < bank->templates_.size(); ++i) {

@@ -42,6 +42,13 @@ struct BankOptions {
   // smallest power of two holding its length plus this many samples (the
   // screened search's spans, screen_pass.h).
   size_t span_samples = 0;
+  // Keep each template's normalized samples instead of its spectrum
+  // (M floats instead of L/2+1 complex, L >= M: a quarter to a half of
+  // the memory); conj_spectrum() is then null and the caller transforms
+  // normalized(i) itself. For the screened search, which scores few
+  // (span, master) pairs (screen_pass.h). The budget then bounds the
+  // samples' bytes.
+  bool spectra_on_demand = false;
 };
 
 struct PreparedTemplate {
@@ -74,7 +81,13 @@ class TemplateBank {
   const std::vector<TemplateGroup>& groups() const { return groups_; }
   // Spectrum of the normalized template zero-padded to its fft_size,
   // fft_size/2+1 bins, already conjugated (multiply, don't conjugate again).
+  // Null when the bank was built with spectra_on_demand.
   const std::complex<float>* conj_spectrum(size_t i) const;
+  // With spectra_on_demand: the template mean-removed and scaled to unit
+  // norm, whose zero-padded transform conj_spectrum(i) would hold
+  // (conjugated). Empty otherwise.
+  const Samples& normalized(size_t i) const;
+  bool spectra_on_demand() const;
 
   TemplateBank(const TemplateBank&) = delete;
   TemplateBank& operator=(const TemplateBank&) = delete;
