@@ -49,7 +49,7 @@ void add_engine_options(CLI::App* cmd, EngineArgs& a) {
   cmd->add_option("--planner", a.planner,
                   "FFTW planning: measure (default; slow once, then cached) or estimate (instant, slower FFTs)")
       ->check(CLI::IsMember({"estimate", "measure"}));
-  cmd->add_option("--memory-mb", a.memory_mb, "memory budget for template spectra in MiB (default 288)")
+  cmd->add_option("--memory-mb", a.memory_mb, "memory budget in MiB for the masters' spectra (the full search) or their samples (the screened search, the default) (default 288)")
       ->check(CLI::Range(16, 1 << 20));
   cmd->add_option("--cache-dir", a.cache_dir,
                   "where FFTW wisdom and FFT costs are kept (default $XDG_CACHE_HOME/godwit or ~/.cache/godwit; "
