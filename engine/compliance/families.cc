@@ -7,6 +7,7 @@
 #include "godwit/audio/resampler.h"
 #include "godwit/search/correlator.h"
 #include "godwit/search/template_bank.h"
+#include "bank_screen.h"
 #include "search/pearson.h"
 
 namespace godwit {
@@ -80,24 +81,34 @@ Families find_families(const std::vector<std::string>& ids, const std::vector<Sa
   Families f;
   UnionFind uf(n);
   const size_t seg = std::max<size_t>(16, static_cast<size_t>(o.segment_s * rate_hz));
-  // Screening (FamilyOptions::screen_rate_hz): every pair is first scored
-  // the same way at a low rate, where it costs a few hundredth of the
-  // exact score; only pairs that reach screen_below there are scored
-  // exactly. Siblings share their audio sample for sample, and what they
-  // share stays shared at any rate.
+  // Screening (FamilyOptions::screen_rate_hz): the library is searched
+  // once at a low rate by a bank of all its masters (bank_screen.h), each
+  // pair scored there as it would be exactly (shorter against longer);
+  // only pairs that reach screen_below are scored exactly. Siblings share their audio sample for sample, and
+  // what they share stays shared at any rate.
   const bool screen = o.screen_rate_hz > 0 && o.screen_rate_hz < 0.5 * rate_hz;
-  std::vector<Samples> low;
-  if (screen)
-    for (const auto& m : masters) low.push_back(resample_all(m, rate_hz, o.screen_rate_hz));
+  std::vector<detail::ScreenedPair> passed;
+  if (screen) {
+    std::vector<Samples> low;
+    std::vector<size_t> len_frames;
+    for (const auto& m : masters) {
+      low.push_back(resample_all(m, rate_hz, o.screen_rate_hz));
+      len_frames.push_back(m.size());
+    }
+    passed = detail::bank_screen_pairs(low, len_frames, o.screen_below);
+  }
+  auto screened_in = [&](size_t i, size_t j) {
+    return std::binary_search(passed.begin(), passed.end(), detail::ScreenedPair{i, j, 0},
+                              [](const detail::ScreenedPair& x, const detail::ScreenedPair& y) {
+                                return x.a != y.a ? x.a < y.a : x.b < y.b;
+                              });
+  };
   for (size_t i = 0; i < n; ++i) {
     for (size_t j = i + 1; j < n; ++j) {
       const bool declared_pair = declared.count(i) && declared.count(j) && declared.at(i) == declared.at(j);
       // Shorter against longer; lag expressed as j's start in i's time.
       const bool i_short = masters[i].size() <= masters[j].size();
-      if (screen && !declared_pair) {
-        const auto [s, unused] = i_short ? best_alignment(low[i], low[j]) : best_alignment(low[j], low[i]);
-        if (!(s >= o.screen_below)) continue;
-      }
+      if (screen && !declared_pair && !screened_in(i, j)) continue;
       auto [score, lag] = i_short ? best_alignment(masters[i], masters[j]) : best_alignment(masters[j], masters[i]);
       const double lag_j_in_i = i_short ? -lag : lag;
       if (!(score >= o.threshold) && !declared_pair) continue;

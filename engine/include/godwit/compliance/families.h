@@ -25,9 +25,11 @@ struct FamilyOptions {
   double threshold = 0.5;       // Default 0.5: unrelated spots score ~0.05, siblings > 0.8
   double distinct_below = 0.8;  // a segment scoring under this against the sibling distinguishes
   double segment_s = 1.0;       // must equal VerifyOptions::segment_s
-  // Screening: each pair is first scored at screen_rate_hz (0: off, every
-  // pair scored exactly), and scored exactly only when it reaches
-  // screen_below there. Default 1 kHz and 0.25, half the threshold (the
+  // Screening: the library is first searched against itself at
+  // screen_rate_hz, once, by a bank of all its masters, which scores every
+  // pair there (0: off, every pair scored exactly); a pair is scored
+  // exactly only when it reaches screen_below there. Declared pairs are
+  // always scored exactly. Default 1 kHz and 0.25, half the threshold (the
   // same families with and without it: families_test.cc).
   double screen_rate_hz = 1000;
   double screen_below = 0.25;
